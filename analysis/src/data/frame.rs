@@ -1,0 +1,168 @@
+//! The frame type cells and the command line work with.
+
+use super::Provenance;
+use crate::error::{Error, Result};
+use polars::prelude::{AnyValue, DataFrame, DataType};
+
+/// A polars [`DataFrame`] that remembers where it came from.
+///
+/// Rows are numbered from 1 in every message (data rows, header excluded);
+/// when the source was a text file, [`Frame::source_line`] gives the file line
+/// of each row as well, because that is what an analyst opens an editor at.
+#[derive(Debug, Clone)]
+pub struct Frame {
+    data: DataFrame,
+    provenance: Provenance,
+    source_lines: Option<Vec<u64>>,
+}
+
+impl Frame {
+    /// Wraps a frame read from a source; `source_lines`, if given, holds the
+    /// 1-based file line of each data row.
+    pub(crate) fn from_parts(data: DataFrame, provenance: Provenance, source_lines: Option<Vec<u64>>) -> Self {
+        Self { data, provenance, source_lines }
+    }
+
+    /// Wraps a frame built in code; its provenance says so under `label`.
+    pub fn from_dataframe(data: DataFrame, label: &str) -> Self {
+        let provenance = Provenance::in_memory(label, data.height(), data.width());
+        Self { data, provenance, source_lines: None }
+    }
+
+    /// The underlying polars frame.
+    pub fn data(&self) -> &DataFrame {
+        &self.data
+    }
+
+    /// Where the data came from.
+    pub fn provenance(&self) -> &Provenance {
+        &self.provenance
+    }
+
+    /// Number of data rows.
+    pub fn height(&self) -> usize {
+        self.data.height()
+    }
+
+    /// Number of columns.
+    pub fn width(&self) -> usize {
+        self.data.width()
+    }
+
+    /// Column names in file order.
+    pub fn column_names(&self) -> Vec<String> {
+        self.data.get_column_names().iter().map(|s| s.to_string()).collect()
+    }
+
+    /// The file line of data row `row` (0-based index), when known.
+    pub fn source_line(&self, row: usize) -> Option<u64> {
+        self.source_lines.as_ref().and_then(|lines| lines.get(row).copied())
+    }
+
+    /// Checks that `name` is a column, suggesting close names when it is not.
+    pub fn require_column(&self, name: &str) -> Result<()> {
+        if self.data.get_column_names().iter().any(|c| c.as_str() == name) {
+            return Ok(());
+        }
+        let available = self.column_names();
+        Err(Error::ColumnNotFound {
+            name: name.to_string(),
+            source_label: format!("`{}`", self.provenance.path),
+            suggestions: closest_names(name, &available),
+            available,
+        })
+    }
+
+    /// The column as numbers, `None` for missing values.
+    ///
+    /// Integer and boolean columns convert exactly (integers beyond 2⁵³ round).
+    /// A text column is accepted only when every present value parses as a
+    /// number; otherwise the first offending row is reported with its value.
+    pub fn numeric_column(&self, name: &str) -> Result<Vec<Option<f64>>> {
+        self.require_column(name)?;
+        let series = self.data.column(name)?.as_materialized_series().clone();
+        let values: Vec<Option<f64>> = match series.dtype() {
+            DataType::String => {
+                let strings = series.str()?;
+                let mut out = Vec::with_capacity(strings.len());
+                for (row, value) in strings.iter().enumerate() {
+                    match value {
+                        None => out.push(None),
+                        Some(text) => match text.trim().parse::<f64>() {
+                            Ok(v) => out.push(Some(v)),
+                            Err(_) => {
+                                return Err(Error::NotNumeric {
+                                    column: name.to_string(),
+                                    row: row + 1,
+                                    line: self.source_line(row),
+                                    value: text.to_string(),
+                                })
+                            }
+                        },
+                    }
+                }
+                out
+            }
+            dtype if dtype.is_primitive_numeric() || dtype.is_bool() => {
+                let cast = series.cast(&DataType::Float64)?;
+                cast.f64()?.iter().collect()
+            }
+            other => {
+                let first = series.get(0).map(|v| v.to_string()).unwrap_or_default();
+                return Err(Error::NotNumeric {
+                    column: name.to_string(),
+                    row: 1,
+                    line: self.source_line(0),
+                    value: format!("{first} (a {other} column)"),
+                });
+            }
+        };
+        if !values.is_empty() && values.iter().all(Option::is_none) {
+            return Err(Error::ColumnAllMissing { column: name.to_string() });
+        }
+        Ok(values)
+    }
+
+    /// The column as text labels (numbers print as they would in a file), for
+    /// use as a categorical term; `None` for missing values.
+    pub fn label_column(&self, name: &str) -> Result<Vec<Option<String>>> {
+        self.require_column(name)?;
+        let series = self.data.column(name)?.as_materialized_series().clone();
+        let labels: Vec<Option<String>> = if series.dtype() == &DataType::String {
+            series.str()?.iter().map(|v| v.map(str::to_string)).collect()
+        } else {
+            series
+                .iter()
+                .map(|v| match v {
+                    AnyValue::Null => None,
+                    AnyValue::String(s) => Some(s.to_string()),
+                    other => Some(other.to_string()),
+                })
+                .collect()
+        };
+        if !labels.is_empty() && labels.iter().all(Option::is_none) {
+            return Err(Error::ColumnAllMissing { column: name.to_string() });
+        }
+        Ok(labels)
+    }
+}
+
+/// Up to three existing names closest to `wanted` (normalised Damerau–Levenshtein
+/// similarity ≥ 0.5, or one containing the other, ignoring case).
+pub(crate) fn closest_names(wanted: &str, available: &[String]) -> Vec<String> {
+    let wanted_lower = wanted.to_lowercase();
+    let mut scored: Vec<(f64, &String)> = available
+        .iter()
+        .map(|name| {
+            let lower = name.to_lowercase();
+            let mut score = strsim::normalized_damerau_levenshtein(&wanted_lower, &lower);
+            if !lower.is_empty() && (lower.contains(&wanted_lower) || wanted_lower.contains(&lower)) {
+                score = score.max(0.6);
+            }
+            (score, name)
+        })
+        .filter(|(score, _)| *score >= 0.5)
+        .collect();
+    scored.sort_by(|a, b| b.0.total_cmp(&a.0).then_with(|| a.1.cmp(b.1)));
+    scored.into_iter().take(3).map(|(_, n)| n.clone()).collect()
+}

@@ -1,0 +1,47 @@
+//! Loading data into frames, with provenance and column profiles.
+//!
+//! * [`Frame`] — a polars `DataFrame` plus where it came from ([`Provenance`])
+//!   and, for text files, the file line of every data row, so that an error can
+//!   point at the exact line to fix.
+//! * [`CsvOptions`] / [`load_csv`] — delimited text with delimiter, header,
+//!   null markers and per-column type overrides.
+//! * [`load_parquet`] — Apache Parquet through polars.
+//! * [`profile`] — a per-column summary (type, missing, min/median/max, levels).
+
+mod csv_reader;
+mod frame;
+mod parquet_reader;
+pub mod profile;
+mod provenance;
+
+pub use csv_reader::{load_csv, ColumnType, CsvOptions};
+pub use frame::Frame;
+pub use parquet_reader::load_parquet;
+pub use profile::{profile, ColumnProfile};
+pub use provenance::Provenance;
+
+use crate::error::{Error, Result};
+use std::path::Path;
+
+/// Loads a file, choosing the reader from its extension: `.parquet` /
+/// `.pq` through [`load_parquet`], `.csv` / `.txt` through [`load_csv`] with
+/// default options, and `.tsv` / `.tab` as tab-delimited text.
+pub fn load(path: impl AsRef<Path>) -> Result<Frame> {
+    let path = path.as_ref();
+    let extension = path.extension().and_then(|e| e.to_str()).map(str::to_ascii_lowercase);
+    match extension.as_deref() {
+        Some("parquet") | Some("pq") => load_parquet(path),
+        Some("csv") | Some("txt") => load_csv(path, &CsvOptions::default()),
+        Some("tsv") | Some("tab") => load_csv(path, &CsvOptions { delimiter: b'\t', ..CsvOptions::default() }),
+        _ => Err(Error::UnknownFormat { path: path.to_path_buf() }),
+    }
+}
+
+/// Reads a whole file, turning an I/O failure into an actionable error.
+pub(crate) fn read_bytes(path: &Path) -> Result<Vec<u8>> {
+    std::fs::read(path).map_err(|e| Error::FileUnreadable {
+        path: path.to_path_buf(),
+        reason: e.to_string(),
+        cwd: std::env::current_dir().map(|d| d.display().to_string()).unwrap_or_else(|_| "?".into()),
+    })
+}

@@ -1,0 +1,118 @@
+//! The one error type of the analysis crate.
+//!
+//! Every variant carries what a user needs to fix the input: the file, the
+//! column, the row (1-based data row, and the file line where the source has
+//! lines), the offending value, and a suggestion where one can be made.
+
+use std::path::PathBuf;
+
+/// Everything that can go wrong between a file on disk and a fitted model.
+#[derive(Debug, thiserror::Error)]
+pub enum Error {
+    /// The data file does not exist or cannot be opened.
+    #[error("cannot open data file `{path}`: {reason}. Check the path (relative paths start from `{cwd}`).")]
+    FileUnreadable { path: PathBuf, reason: String, cwd: String },
+
+    /// The file's extension names no format we read, and none was given.
+    #[error("cannot tell the format of `{path}` from its extension; use a `.csv`, `.tsv`, `.txt` or `.parquet` file, or load it with an explicit reader")]
+    UnknownFormat { path: PathBuf },
+
+    /// A CSV record could not be read (bad quoting, invalid UTF-8, I/O).
+    #[error("`{path}` line {line}: {reason}")]
+    CsvMalformed { path: PathBuf, line: u64, reason: String },
+
+    /// A CSV record has a different number of fields than the header.
+    #[error("`{path}` line {line} has {found} fields but the header has {expected}; check for a stray delimiter or an unquoted text field")]
+    CsvRagged { path: PathBuf, line: u64, expected: usize, found: usize },
+
+    /// The file holds no header or no columns.
+    #[error("`{path}` holds no columns; is it empty, or is the delimiter wrong (we used `{delimiter}`)?")]
+    NoColumns { path: PathBuf, delimiter: char },
+
+    /// The same column name appears twice in a header.
+    #[error("`{path}` has the column name `{name}` twice; rename one of them")]
+    DuplicateColumn { path: PathBuf, name: String },
+
+    /// A Parquet file could not be decoded.
+    #[error("cannot read Parquet file `{path}`: {reason}")]
+    ParquetUnreadable { path: PathBuf, reason: String },
+
+    /// A column named by the user is not in the frame.
+    #[error("no column `{name}` in {source_label}{}; the columns are: {}", suggestion_text(.suggestions), .available.join(", "))]
+    ColumnNotFound { name: String, source_label: String, suggestions: Vec<String>, available: Vec<String> },
+
+    /// A value that should be a number is not one.
+    #[error("column `{column}` must be numeric, but data row {row}{} holds `{value}`; correct that value, or mark it missing with a null marker", line_text(*.line))]
+    NotNumeric { column: String, row: usize, line: Option<u64>, value: String },
+
+    /// A column the model needs has no value at all.
+    #[error("column `{column}` is missing on every row, so it cannot be used in a model")]
+    ColumnAllMissing { column: String },
+
+    /// A schema override names a type we do not know.
+    #[error("unknown column type `{given}` for `{column}`; use one of: number, integer, text")]
+    UnknownColumnType { column: String, given: String },
+
+    /// A transform met a value outside its domain (e.g. log of a non-positive number).
+    #[error("{transform} of column `{column}` needs {requirement}, but data row {row}{} holds {value}; drop or correct that row, or choose another transform", line_text(*.line))]
+    TransformDomain { transform: String, column: String, requirement: String, row: usize, line: Option<u64>, value: f64 },
+
+    /// A column to be standardized has no spread.
+    #[error("column `{column}` is constant ({value}) over the rows used, so it cannot be {action}")]
+    ConstantColumn { column: String, value: f64, action: String },
+
+    /// The reference level asked for a category does not occur.
+    #[error("reference level `{level}` does not occur in column `{column}` (levels: {})", .levels.join(", "))]
+    UnknownLevel { column: String, level: String, levels: Vec<String> },
+
+    /// A weight is zero, negative or not finite.
+    #[error("weight column `{column}` must be positive and finite, but data row {row}{} holds {value}", line_text(*.line))]
+    BadWeight { column: String, row: usize, line: Option<u64>, value: f64 },
+
+    /// The model specification itself is inconsistent.
+    #[error("model specification: {0}")]
+    Specification(String),
+
+    /// Every row was dropped for missing values.
+    #[error("no rows left to fit: every row misses at least one model column ({detail})")]
+    AllRowsDropped { detail: String },
+
+    /// Fewer usable rows than coefficients.
+    #[error("{rows} rows but {columns} coefficients to estimate; a least-squares fit needs more rows than coefficients (drop terms or add data)")]
+    TooFewRows { rows: usize, columns: usize },
+
+    /// The target does not vary, so there is nothing to explain.
+    #[error("target `{target}` has the same value ({value}) on every row used; there is no variation to explain")]
+    ConstantTarget { target: String, value: f64 },
+
+    /// No column of the design survived the rank test.
+    #[error("the design has no linearly independent column: {detail}")]
+    SingularDesign { detail: String },
+
+    /// An argument outside its allowed range (confidence level, degree, …).
+    #[error("{what} must be {requirement}, got {value}")]
+    OutOfRange { what: String, requirement: String, value: String },
+
+    /// New data for prediction lacks what the model needs.
+    #[error("prediction data: {0}")]
+    Prediction(String),
+
+    /// Polars reported an error while building or reading a frame.
+    #[error("data frame error: {0}")]
+    Frame(#[from] polars::error::PolarsError),
+}
+
+fn suggestion_text(suggestions: &[String]) -> String {
+    match suggestions {
+        [] => String::new(),
+        [one] => format!(" — did you mean `{one}`?"),
+        many => format!(" — did you mean one of `{}`?", many.join("`, `")),
+    }
+}
+
+fn line_text(line: Option<u64>) -> String {
+    line.map(|l| format!(" (file line {l})")).unwrap_or_default()
+}
+
+/// Shorthand for results of this crate.
+pub type Result<T, E = Error> = std::result::Result<T, E>;

@@ -1,0 +1,364 @@
+//! Reading a fit: coefficient tests and intervals, goodness of fit, and the
+//! machine-readable summary.
+//!
+//! Definitions (NIST StRD's for the ANOVA quantities):
+//!
+//! * `RSS = Σ wᵢ rᵢ²`; `TSS = Σ wᵢ (yᵢ − ȳ_w)²` with an intercept, `Σ wᵢ yᵢ²`
+//!   without (uncentered); `SSreg = TSS − RSS` (in double-double).
+//! * `R² = SSreg / TSS`; adjusted `R² = 1 − (1 − R²)(n − i)/(n − k)` with
+//!   `i = 1` with an intercept and `0` without.
+//! * `s = √(RSS/(n − k))`; `F = (SSreg/df_model)/s²` with `df_model = k − i`
+//!   on `(df_model, n − k)` degrees of freedom. Under a robust covariance `V`
+//!   the overall test is the Wald form `F = b₂ᵀ V₂₂⁻¹ b₂ / q` over the `q`
+//!   non-intercept coefficients.
+//! * Gaussian log-likelihood at the ML variance `σ̂² = RSS/n`:
+//!   `ℓ = −n/2 (ln 2π + ln σ̂² + 1) + ½ Σ ln wᵢ`; `AIC = −2ℓ + 2(k + 1)`,
+//!   `BIC = −2ℓ + ln(n)(k + 1)` — the `+1` counts the error variance
+//!   (Akaike 1974; Schwarz 1978).
+//! * t statistics use `n − k` degrees of freedom, or `G − 1` for
+//!   cluster-robust errors with `G` clusters (Cameron & Miller 2015, §VIIC).
+//!
+//! Distributions come from `statrs` (regularized incomplete beta).
+
+use crate::error::{Error, Result};
+use crate::fit::{CovarianceKind, Fit};
+use crate::model::design::INTERCEPT_NAME;
+use crate::model::TargetTransform;
+use crate::numeric::DoubleDouble;
+use serde::Serialize;
+use statrs::distribution::{ContinuousCDF, FisherSnedecor, StudentsT};
+
+/// Version of the JSON document produced by [`Fit::summary`]; bumped on any
+/// change that a reader would notice.
+pub const SUMMARY_SCHEMA_VERSION: u32 = 1;
+
+/// One row of the coefficient table.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Coefficient {
+    /// Design column name.
+    pub term: String,
+    /// Least-squares estimate.
+    pub estimate: f64,
+    /// Standard error under the fit's covariance estimator.
+    pub std_error: f64,
+    /// `estimate / std_error`; `None` when the standard error is zero (a perfect fit).
+    pub t: Option<f64>,
+    /// Two-sided p-value of `t`; `None` when `t` is.
+    pub p_value: Option<f64>,
+    /// Lower end of the confidence interval at the requested level.
+    pub ci_low: f64,
+    /// Upper end of the confidence interval.
+    pub ci_high: f64,
+}
+
+/// Whole-fit statistics.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FitStatistics {
+    /// Rows used.
+    pub n_obs: usize,
+    /// Estimated coefficients (the numerical rank).
+    pub n_coefficients: usize,
+    /// Model degrees of freedom `k − i`.
+    pub df_model: usize,
+    /// Residual degrees of freedom `n − k`.
+    pub df_resid: usize,
+    /// Degrees of freedom of the t reference distribution.
+    pub df_t: f64,
+    /// Coefficient of determination (uncentered without an intercept).
+    pub r_squared: f64,
+    /// Adjusted R².
+    pub adj_r_squared: f64,
+    /// Residual standard error `s`.
+    pub residual_std_error: f64,
+    /// Overall F statistic; `None` when undefined (no slope, or zero residuals).
+    pub f_statistic: Option<f64>,
+    /// p-value of the overall F.
+    pub f_p_value: Option<f64>,
+    /// Regression sum of squares.
+    pub ss_regression: f64,
+    /// Residual sum of squares.
+    pub ss_residual: f64,
+    /// Total sum of squares (centered, or uncentered without intercept).
+    pub ss_total: f64,
+    /// Gaussian log-likelihood.
+    pub log_likelihood: f64,
+    /// Akaike information criterion.
+    pub aic: f64,
+    /// Schwarz (Bayesian) information criterion.
+    pub bic: f64,
+    /// Condition number of the column-equilibrated design.
+    pub condition_number: f64,
+}
+
+/// Checks a confidence level.
+pub(crate) fn check_level(level: f64) -> Result<()> {
+    if level > 0.0 && level < 1.0 {
+        Ok(())
+    } else {
+        Err(Error::OutOfRange { what: "the confidence level".into(), requirement: "strictly between 0 and 1 (e.g. 0.95)".into(), value: level.to_string() })
+    }
+}
+
+/// The two-sided critical value `t_{1−α/2, df}`; the normal quantile when `df` is infinite.
+pub(crate) fn t_critical(level: f64, df: f64) -> f64 {
+    match StudentsT::new(0.0, 1.0, df) {
+        Ok(t) => t.inverse_cdf(0.5 + level / 2.0),
+        Err(_) => f64::NAN,
+    }
+}
+
+/// Two-sided p-value of a t statistic, from the survival function (accurate in the tail).
+pub(crate) fn t_two_sided_p(t: f64, df: f64) -> f64 {
+    match StudentsT::new(0.0, 1.0, df) {
+        Ok(dist) => (2.0 * dist.sf(t.abs())).min(1.0),
+        Err(_) => f64::NAN,
+    }
+}
+
+/// Upper-tail p-value of an F statistic.
+pub(crate) fn f_upper_p(f: f64, df1: f64, df2: f64) -> Option<f64> {
+    FisherSnedecor::new(df1, df2).ok().map(|d| d.sf(f))
+}
+
+impl Fit {
+    /// Residual degrees of freedom `n − k`.
+    pub fn df_resid(&self) -> usize {
+        self.design.n_rows() - self.solution.kept.len()
+    }
+
+    /// Degrees of freedom for t tests and intervals.
+    pub fn df_t(&self) -> f64 {
+        match (&self.covariance_kind, self.cluster_count) {
+            (CovarianceKind::Cluster(_), Some(g)) => (g - 1) as f64,
+            _ => self.df_resid() as f64,
+        }
+    }
+
+    /// Residual standard error `s = √(RSS/(n − k))`.
+    pub fn residual_std_error(&self) -> f64 {
+        (self.solution.weighted_rss / self.df_resid() as f64).sqrt()
+    }
+
+    /// Whether the intercept is among the estimated columns.
+    fn intercept_estimated(&self) -> bool {
+        self.spec().has_intercept() && self.solution.kept.first().is_some_and(|&j| self.design.columns[j].name == INTERCEPT_NAME)
+    }
+
+    /// The coefficient table at confidence `level` (e.g. 0.95).
+    pub fn coefficients(&self, level: f64) -> Result<Vec<Coefficient>> {
+        check_level(level)?;
+        let df = self.df_t();
+        let crit = t_critical(level, df);
+        Ok(self
+            .solution
+            .kept
+            .iter()
+            .enumerate()
+            .map(|(k, &j)| {
+                let estimate = self.solution.coefficients[k];
+                let std_error = self.covariance[k][k].max(0.0).sqrt();
+                let t = if std_error > 0.0 { Some(estimate / std_error) } else { None };
+                Coefficient {
+                    term: self.design.columns[j].name.clone(),
+                    estimate,
+                    std_error,
+                    t,
+                    p_value: t.map(|t| t_two_sided_p(t, df)),
+                    ci_low: estimate - crit * std_error,
+                    ci_high: estimate + crit * std_error,
+                }
+            })
+            .collect())
+    }
+
+    /// Goodness-of-fit statistics.
+    pub fn statistics(&self) -> FitStatistics {
+        let n = self.design.n_rows();
+        let k = self.solution.kept.len();
+        let with_intercept = self.spec().has_intercept();
+        let y = &self.design.target;
+        let w = self.design.weights.as_deref();
+        let weight = |i: usize| w.map_or(1.0, |w| w[i]);
+
+        let total_weight: DoubleDouble = (0..n).map(|i| DoubleDouble::from(weight(i))).sum();
+        let weighted_sum: DoubleDouble = (0..n).map(|i| DoubleDouble::from_product(weight(i), y[i])).sum();
+        let mean = if with_intercept { weighted_sum / total_weight } else { DoubleDouble::ZERO };
+        let ss_total_dd: DoubleDouble = (0..n)
+            .map(|i| {
+                let d = DoubleDouble::from(y[i]) - mean;
+                (d * d).mul_f64(weight(i))
+            })
+            .sum();
+        let rss = self.solution.weighted_rss;
+        let ss_total = ss_total_dd.to_f64();
+        let ss_regression = (ss_total_dd - DoubleDouble::from(rss)).to_f64();
+        let i = usize::from(with_intercept);
+        let df_model = k.saturating_sub(usize::from(self.intercept_estimated()));
+        let df_resid = n - k;
+        let r_squared = if ss_total > 0.0 { ss_regression / ss_total } else { f64::NAN };
+        let adj_r_squared = 1.0 - (1.0 - r_squared) * (n - i) as f64 / df_resid as f64;
+        let s2 = rss / df_resid as f64;
+
+        let (f_statistic, f_p_value) = self.overall_f(df_model, ss_regression, s2);
+        let sum_log_w: f64 = w.map_or(0.0, |w| w.iter().map(|v| v.ln()).sum());
+        let nf = n as f64;
+        let log_likelihood = -0.5 * nf * ((2.0 * std::f64::consts::PI).ln() + (rss / nf).ln() + 1.0) + 0.5 * sum_log_w;
+        let params = (k + 1) as f64;
+        FitStatistics {
+            n_obs: n,
+            n_coefficients: k,
+            df_model,
+            df_resid,
+            df_t: self.df_t(),
+            r_squared,
+            adj_r_squared,
+            residual_std_error: s2.sqrt(),
+            f_statistic,
+            f_p_value,
+            ss_regression,
+            ss_residual: rss,
+            ss_total,
+            log_likelihood,
+            aic: -2.0 * log_likelihood + 2.0 * params,
+            bic: -2.0 * log_likelihood + nf.ln() * params,
+            condition_number: self.solution.condition_number,
+        }
+    }
+
+    fn overall_f(&self, df_model: usize, ss_regression: f64, s2: f64) -> (Option<f64>, Option<f64>) {
+        if df_model == 0 {
+            return (None, None);
+        }
+        let df2 = self.df_t();
+        let f = if self.covariance_kind == CovarianceKind::Classical {
+            if !(s2 > 0.0) {
+                return (None, None);
+            }
+            (ss_regression / df_model as f64) / s2
+        } else {
+            match self.wald_slopes() {
+                Some(f) => f,
+                None => return (None, None),
+            }
+        };
+        (Some(f), f_upper_p(f, df_model as f64, df2))
+    }
+
+    /// Wald F of all non-intercept coefficients under the fit's covariance.
+    fn wald_slopes(&self) -> Option<f64> {
+        let skip = usize::from(self.intercept_estimated());
+        let k = self.solution.kept.len();
+        let q = k - skip;
+        let b: Vec<f64> = self.solution.coefficients[skip..].to_vec();
+        let v = faer::Mat::<f64>::from_fn(q, q, |a, c| self.covariance[a + skip][c + skip]);
+        let rhs = faer::Mat::<f64>::from_fn(q, 1, |a, _| b[a]);
+        use faer::linalg::solvers::Solve;
+        let x = v.partial_piv_lu().solve(&rhs);
+        let quad: f64 = (0..q).map(|a| b[a] * x[(a, 0)]).sum();
+        quad.is_finite().then_some(quad / q as f64)
+    }
+
+    /// The full machine-readable summary at confidence `level`.
+    pub fn summary(&self, level: f64) -> Result<FitSummary> {
+        let coefficients = self.coefficients(level)?;
+        let stats = self.statistics();
+        let dropped = &self.design.dropped;
+        Ok(FitSummary {
+            schema: "plumbline.fit".into(),
+            schema_version: SUMMARY_SCHEMA_VERSION,
+            target: self.spec().target().to_string(),
+            target_transform: match self.spec().target_transform() {
+                TargetTransform::None => "none".into(),
+                TargetTransform::Log => "log".into(),
+            },
+            n_obs: stats.n_obs,
+            n_dropped: dropped.total,
+            dropped_by_column: dropped.by_column.clone(),
+            df_model: stats.df_model,
+            df_resid: stats.df_resid,
+            intercept: self.spec().has_intercept(),
+            covariance: self.covariance_kind.label(),
+            clusters: self.cluster_count,
+            level,
+            solver: self.solution.method,
+            coefficients,
+            aliased: self.aliased_names().into_iter().map(str::to_string).collect(),
+            r_squared: stats.r_squared,
+            adj_r_squared: stats.adj_r_squared,
+            residual_std_error: stats.residual_std_error,
+            f_statistic: stats.f_statistic,
+            f_p_value: stats.f_p_value,
+            ss_regression: stats.ss_regression,
+            ss_residual: stats.ss_residual,
+            ss_total: stats.ss_total,
+            log_likelihood: stats.log_likelihood,
+            aic: stats.aic,
+            bic: stats.bic,
+            condition_number: stats.condition_number,
+            data: self.provenance.clone(),
+        })
+    }
+}
+
+/// The machine-readable fit, serialized as the JSON documented in README.md.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FitSummary {
+    /// Always `plumbline.fit`.
+    pub schema: String,
+    /// [`SUMMARY_SCHEMA_VERSION`].
+    pub schema_version: u32,
+    /// Target column.
+    pub target: String,
+    /// `none` or `log`.
+    pub target_transform: String,
+    /// Rows used.
+    pub n_obs: usize,
+    /// Rows dropped for missing values.
+    pub n_dropped: usize,
+    /// Rows missing each model column (a row can count under several).
+    pub dropped_by_column: Vec<(String, usize)>,
+    /// Model degrees of freedom.
+    pub df_model: usize,
+    /// Residual degrees of freedom.
+    pub df_resid: usize,
+    /// Whether the model has an intercept.
+    pub intercept: bool,
+    /// Covariance estimator label.
+    pub covariance: String,
+    /// Number of clusters for cluster-robust errors.
+    pub clusters: Option<usize>,
+    /// Confidence level of the intervals.
+    pub level: f64,
+    /// Solver used.
+    pub solver: crate::fit::SolverMethod,
+    /// Coefficient table in design-column order, intercept first.
+    pub coefficients: Vec<Coefficient>,
+    /// Design columns left out as linearly dependent.
+    pub aliased: Vec<String>,
+    /// R².
+    pub r_squared: f64,
+    /// Adjusted R².
+    pub adj_r_squared: f64,
+    /// Residual standard error.
+    pub residual_std_error: f64,
+    /// Overall F.
+    pub f_statistic: Option<f64>,
+    /// p-value of the overall F.
+    pub f_p_value: Option<f64>,
+    /// Regression sum of squares.
+    pub ss_regression: f64,
+    /// Residual sum of squares.
+    pub ss_residual: f64,
+    /// Total sum of squares.
+    pub ss_total: f64,
+    /// Gaussian log-likelihood.
+    pub log_likelihood: f64,
+    /// AIC.
+    pub aic: f64,
+    /// BIC.
+    pub bic: f64,
+    /// Condition number of the column-equilibrated design.
+    pub condition_number: f64,
+    /// Provenance of the data.
+    pub data: crate::data::Provenance,
+}

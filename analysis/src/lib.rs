@@ -1,0 +1,51 @@
+//! # Plumbline analysis
+//!
+//! Regression analysis for documented valuation studies: load sales data with
+//! its provenance, specify a model, fit it by least squares to the last
+//! certified digit, read coefficients and intervals, and predict new rows.
+//!
+//! ```no_run
+//! use plumbline::prelude::*;
+//! let sales = load("sales.csv")?;
+//! let spec = ModelSpec::new("sale_price")
+//!     .log_target()
+//!     .term(Term::numeric("living_area").log())
+//!     .term(Term::category("district"));
+//! let model = fit(&sales, &spec)?;
+//! for row in model.coefficients(0.95)? {
+//!     println!("{:<24} {:>12.5} ± {:.5}", row.term, row.estimate, row.std_error);
+//! }
+//! # Ok::<(), plumbline::Error>(())
+//! ```
+//!
+//! Module map (one responsibility each):
+//!
+//! | module | responsibility |
+//! |---|---|
+//! | [`data`] | files → frames, provenance stamp, column profile |
+//! | [`model`] | model specification, term coding, design matrix |
+//! | [`fit`] | least-squares solvers and covariance estimators |
+//! | [`inference`] | coefficient tests, fit statistics, JSON summary |
+//! | [`predict`] | predictions with confidence and prediction intervals |
+//! | [`numeric`] | double-double arithmetic and the extended-precision QR |
+
+pub mod data;
+mod error;
+pub mod fit;
+pub mod inference;
+pub mod model;
+pub mod numeric;
+pub mod predict;
+pub mod render;
+
+pub use error::{Error, Result};
+
+/// Everything a notebook cell or a small program needs, in one `use`.
+pub mod prelude {
+    pub use crate::data::{load, load_csv, load_parquet, profile, ColumnProfile, ColumnType, CsvOptions, Frame, Provenance};
+    pub use crate::fit::{fit, fit_with, CovarianceKind, Fit, FitOptions, Precision};
+    pub use crate::inference::{Coefficient, FitStatistics, FitSummary};
+    pub use crate::model::{ModelSpec, TargetTransform, Term, Transform};
+    pub use crate::predict::{Prediction, Predictions};
+    pub use crate::{Error, Result};
+}

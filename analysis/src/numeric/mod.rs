@@ -1,0 +1,13 @@
+//! Numerical building blocks that the fitting core needs beyond plain `f64`.
+//!
+//! * [`ddouble`] — double-double ("double-word") arithmetic, about 106 bits of
+//!   significand, used where a double-precision result would lose certified digits.
+//! * [`dd_qr`] — a column-pivoted Householder QR carried out entirely in
+//!   double-double arithmetic, for small or ill-conditioned designs.
+//! * [`equilibrate`] — exact power-of-two column scaling.
+
+pub mod dd_qr;
+pub mod ddouble;
+pub mod equilibrate;
+
+pub use ddouble::DoubleDouble;

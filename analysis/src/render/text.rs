@@ -1,0 +1,92 @@
+//! Plain-text report of a fit: under 100 columns, aligned, for terminals.
+
+use super::numbers::{format_p_value, format_significant};
+use crate::error::Result;
+use crate::fit::{Fit, SolverMethod};
+
+/// The fit as an aligned plain-text report at confidence `level`.
+pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
+    let coefficients = fit.coefficients(level)?;
+    let stats = fit.statistics();
+    let spec = fit.spec();
+    let prov = fit.provenance();
+    let dropped = &fit.design().dropped;
+    let mut out = String::new();
+    let pct = format_significant(level * 100.0, 3);
+
+    out.push_str(&format!("Least-squares fit of {}\n", spec.target_label()));
+    out.push_str(&format!(
+        "  data      {} (sha256 {}…, {} rows × {} columns, read {})\n",
+        prov.path,
+        prov.short_hash(),
+        prov.rows,
+        prov.cols,
+        prov.loaded_at
+    ));
+    out.push_str(&format!("  rows      {} used, dropped for missing values: {}\n", stats.n_obs, dropped.describe()));
+    let solver = match fit.solution().method {
+        SolverMethod::ExtendedQr => "pivoted QR in double-double".to_string(),
+        SolverMethod::RefinedQr { refinement_steps } => format!("pivoted QR, {refinement_steps} refinement step(s)"),
+    };
+    out.push_str(&format!("  errors    {} covariance; solver: {}\n\n", fit.covariance_kind().label(), solver));
+
+    let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
+    out.push_str(&format!(
+        "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   {pct} % interval\n",
+        "term", "estimate", "std error", "t", "p-value"
+    ));
+    for c in &coefficients {
+        let term: String = if c.term.chars().count() > name_width {
+            c.term.chars().take(name_width - 1).chain(std::iter::once('…')).collect()
+        } else {
+            c.term.clone()
+        };
+        out.push_str(&format!(
+            "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   [{}, {}]\n",
+            term,
+            format_significant(c.estimate, 6),
+            format_significant(c.std_error, 4),
+            c.t.map_or("—".into(), |t| format!("{t:.2}")),
+            format_p_value(c.p_value),
+            format_significant(c.ci_low, 5),
+            format_significant(c.ci_high, 5),
+        ));
+    }
+    let aliased = fit.aliased_names();
+    if !aliased.is_empty() {
+        out.push_str(&format!(
+            "\n  left out (each is a linear combination of the columns above): {}\n",
+            aliased.join(", ")
+        ));
+    }
+    out.push('\n');
+    out.push_str(&format!(
+        "  R² {}   adjusted R² {}{}   residual std error {} on {} df\n",
+        format_significant(stats.r_squared, 5),
+        format_significant(stats.adj_r_squared, 5),
+        if spec.has_intercept() { "" } else { " (uncentered)" },
+        format_significant(stats.residual_std_error, 5),
+        stats.df_resid
+    ));
+    match stats.f_statistic {
+        Some(f) => out.push_str(&format!(
+            "  F {} on {} and {} df, p-value {}\n",
+            format_significant(f, 5),
+            stats.df_model,
+            stats.df_t,
+            format_p_value(stats.f_p_value)
+        )),
+        None => out.push_str("  F not defined (no slope terms, or residuals exactly zero)\n"),
+    }
+    out.push_str(&format!(
+        "  log-likelihood {}   AIC {}   BIC {}   condition number {}\n",
+        format_significant(stats.log_likelihood, 6),
+        format_significant(stats.aic, 6),
+        format_significant(stats.bic, 6),
+        format_significant(stats.condition_number, 3)
+    ));
+    if stats.condition_number > 1e8 {
+        out.push_str("  note: the condition number is large; small changes in the data can move the coefficients a lot.\n");
+    }
+    Ok(out)
+}

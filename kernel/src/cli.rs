@@ -1,0 +1,144 @@
+//! Command-line definitions. Flag names are our own.
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+/// Plumbline: documented, rerunnable regression studies for valuation analysts.
+#[derive(Debug, Parser)]
+#[command(name = "plumbline", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Fit a least-squares model to a CSV or Parquet file and print the result.
+    Fit(FitArgs),
+    /// Score the solver on the NIST StRD linear-regression datasets (log relative error).
+    Accuracy(AccuracyArgs),
+}
+
+/// Output format of a report.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Format {
+    /// Aligned plain text for a terminal.
+    Text,
+    /// The machine-readable JSON document described in README.md.
+    Json,
+}
+
+/// Covariance estimators selectable on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CovarianceArg {
+    /// s²(XᵀWX)⁻¹.
+    Classical,
+    /// White (1980).
+    Hc0,
+    /// HC0 × n/(n−k).
+    Hc1,
+    /// Leverage-adjusted, 1/(1−h).
+    Hc2,
+    /// Leverage-adjusted, 1/(1−h)².
+    Hc3,
+}
+
+/// Solver arithmetic selectable on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PrecisionArg {
+    /// Extended for small or ill-conditioned designs, refined double otherwise.
+    Auto,
+    /// Refined double-precision QR.
+    Double,
+    /// Double-double QR.
+    Extended,
+}
+
+/// Arguments of `plumbline fit`.
+///
+/// Terms enter the design in this order: `--terms`, `--poly`, `--orthogonal-poly`,
+/// `--log`, `--center`, `--standardize`, `--category`, `--interact`.
+#[derive(Debug, Args)]
+pub struct FitArgs {
+    /// Data file (.csv, .tsv, .txt or .parquet).
+    pub data: PathBuf,
+    /// Column to explain.
+    #[arg(long)]
+    pub target: String,
+    /// Fit the natural log of the target.
+    #[arg(long)]
+    pub log_target: bool,
+    /// Numeric terms, comma-separated.
+    #[arg(long, value_delimiter = ',')]
+    pub terms: Vec<String>,
+    /// Raw polynomial COL:DEGREE (columns COL, COL^2, …, COL^DEGREE, powers formed in extended precision).
+    #[arg(long, value_name = "COL:DEGREE")]
+    pub poly: Vec<String>,
+    /// Orthogonal polynomial COL:DEGREE.
+    #[arg(long, value_name = "COL:DEGREE")]
+    pub orthogonal_poly: Vec<String>,
+    /// Add log(COL) as a term.
+    #[arg(long, value_name = "COL")]
+    pub log: Vec<String>,
+    /// Add COL − mean(COL) as a term.
+    #[arg(long, value_name = "COL")]
+    pub center: Vec<String>,
+    /// Add (COL − mean)/sd as a term.
+    #[arg(long, value_name = "COL")]
+    pub standardize: Vec<String>,
+    /// Categorical terms, comma-separated (coded as indicators against a reference level).
+    #[arg(long, value_delimiter = ',')]
+    pub category: Vec<String>,
+    /// Reference level of a categorical term, COL=LEVEL (default: its most frequent level).
+    #[arg(long, value_name = "COL=LEVEL")]
+    pub reference: Vec<String>,
+    /// Interaction A*B of two columns (a column listed in --category is categorical, else numeric).
+    #[arg(long, value_name = "A*B")]
+    pub interact: Vec<String>,
+    /// Fit without an intercept (R² is then uncentered).
+    #[arg(long)]
+    pub no_intercept: bool,
+    /// Case-weight column for weighted least squares.
+    #[arg(long, value_name = "COL")]
+    pub weights: Option<String>,
+    /// Covariance estimator for standard errors.
+    #[arg(long, value_enum, default_value_t = CovarianceArg::Classical)]
+    pub cov: CovarianceArg,
+    /// Cluster-robust standard errors by this column (overrides --cov).
+    #[arg(long, value_name = "COL")]
+    pub cluster: Option<String>,
+    /// Confidence level of the intervals.
+    #[arg(long, default_value_t = 0.95)]
+    pub level: f64,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+    /// Solver arithmetic.
+    #[arg(long, value_enum, default_value_t = PrecisionArg::Auto)]
+    pub precision: PrecisionArg,
+    /// Field delimiter of a text file (one character; `\t` for tab).
+    #[arg(long, default_value = ",")]
+    pub delimiter: String,
+    /// A field value meaning "missing" (repeatable; the empty field always is).
+    #[arg(long = "null", value_name = "MARKER")]
+    pub null_markers: Vec<String>,
+    /// Column type override COL=number|integer|text (repeatable).
+    #[arg(long = "column-type", value_name = "COL=TYPE")]
+    pub column_types: Vec<String>,
+}
+
+/// Arguments of `plumbline accuracy`.
+#[derive(Debug, Args)]
+pub struct AccuracyArgs {
+    /// Folder holding the NIST StRD CSV files and `certified.json`.
+    #[arg(long, default_value = "../shared/reference/nist-strd")]
+    pub reference: PathBuf,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+    /// Solver arithmetic.
+    #[arg(long, value_enum, default_value_t = PrecisionArg::Auto)]
+    pub precision: PrecisionArg,
+}

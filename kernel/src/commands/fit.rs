@@ -1,0 +1,153 @@
+//! `plumbline fit`: one model, one data file, a report on stdout.
+
+use super::CommandError;
+use crate::cli::{CovarianceArg, FitArgs, Format, PrecisionArg};
+use plumbline::prelude::*;
+use std::collections::BTreeMap;
+
+/// Splits `COL<sep>VALUE`, naming the flag in the error.
+fn split_pair<'a>(text: &'a str, separator: char, flag: &str, shape: &str) -> Result<(&'a str, &'a str), CommandError> {
+    text.split_once(separator)
+        .map(|(a, b)| (a.trim(), b.trim()))
+        .filter(|(a, b)| !a.is_empty() && !b.is_empty())
+        .ok_or_else(|| CommandError::Usage(format!("--{flag} expects {shape}, got `{text}`")))
+}
+
+fn degree(text: &str, flag: &str) -> Result<(String, u32), CommandError> {
+    let (column, degree) = split_pair(text, ':', flag, "COL:DEGREE such as `age:2`")?;
+    let degree = degree
+        .parse::<u32>()
+        .map_err(|_| CommandError::Usage(format!("--{flag}: the degree in `{text}` must be a whole number")))?;
+    Ok((column.to_string(), degree))
+}
+
+/// The CSV options the flags describe.
+pub fn csv_options(args: &FitArgs) -> Result<CsvOptions, CommandError> {
+    let delimiter = match args.delimiter.as_str() {
+        "\\t" | "tab" => b'\t',
+        d if d.len() == 1 => d.as_bytes()[0],
+        d => return Err(CommandError::Usage(format!("--delimiter must be one character (or `\\t`), got `{d}`"))),
+    };
+    let mut options = CsvOptions { delimiter, ..CsvOptions::default() };
+    for marker in &args.null_markers {
+        options = options.null_marker(marker.clone());
+    }
+    for pair in &args.column_types {
+        let (column, ty) = split_pair(pair, '=', "column-type", "COL=TYPE such as `parcel=text`")?;
+        let ty: ColumnType = ty.parse().map_err(|given: String| {
+            CommandError::Analysis(Error::UnknownColumnType { column: column.to_string(), given })
+        })?;
+        options = options.column_type(column, ty);
+    }
+    Ok(options)
+}
+
+/// The model the flags describe.
+pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
+    let mut spec = ModelSpec::new(args.target.clone());
+    if args.log_target {
+        spec = spec.log_target();
+    }
+    if args.no_intercept {
+        spec = spec.without_intercept();
+    }
+    if let Some(w) = &args.weights {
+        spec = spec.weights(w.clone());
+    }
+    let references: BTreeMap<&str, &str> = args
+        .reference
+        .iter()
+        .map(|r| split_pair(r, '=', "reference", "COL=LEVEL such as `district=Old Quay`"))
+        .collect::<Result<_, _>>()?;
+    for (column, _) in &references {
+        if !args.category.iter().any(|c| c == column) {
+            return Err(CommandError::Usage(format!("--reference names `{column}`, which is not listed in --category")));
+        }
+    }
+    let category_term = |column: &str| {
+        let term = Term::category(column);
+        match references.get(column) {
+            Some(level) => term.reference(*level),
+            None => term,
+        }
+    };
+    let side = |column: &str| {
+        if args.category.iter().any(|c| c == column) {
+            category_term(column)
+        } else {
+            Term::numeric(column)
+        }
+    };
+    for column in args.terms.iter().filter(|c| !c.is_empty()) {
+        spec = spec.term(Term::numeric(column.trim()));
+    }
+    for text in &args.poly {
+        let (column, d) = degree(text, "poly")?;
+        spec = spec.term(Term::numeric(column).poly(d));
+    }
+    for text in &args.orthogonal_poly {
+        let (column, d) = degree(text, "orthogonal-poly")?;
+        spec = spec.term(Term::numeric(column).orthogonal_poly(d));
+    }
+    for column in &args.log {
+        spec = spec.term(Term::numeric(column.trim()).log());
+    }
+    for column in &args.center {
+        spec = spec.term(Term::numeric(column.trim()).center());
+    }
+    for column in &args.standardize {
+        spec = spec.term(Term::numeric(column.trim()).standardize());
+    }
+    for column in args.category.iter().filter(|c| !c.is_empty()) {
+        spec = spec.term(category_term(column.trim()));
+    }
+    for text in &args.interact {
+        let (a, b) = split_pair(text, '*', "interact", "A*B such as `living_area*district`")?;
+        spec = spec.term(side(a).times(side(b)));
+    }
+    Ok(spec)
+}
+
+/// The fit options the flags describe.
+pub fn fit_options(args: &FitArgs) -> FitOptions {
+    let covariance = match (&args.cluster, args.cov) {
+        (Some(c), _) => CovarianceKind::Cluster(c.clone()),
+        (None, CovarianceArg::Classical) => CovarianceKind::Classical,
+        (None, CovarianceArg::Hc0) => CovarianceKind::Hc0,
+        (None, CovarianceArg::Hc1) => CovarianceKind::Hc1,
+        (None, CovarianceArg::Hc2) => CovarianceKind::Hc2,
+        (None, CovarianceArg::Hc3) => CovarianceKind::Hc3,
+    };
+    FitOptions { covariance, precision: precision(args.precision), rank_tolerance: None }
+}
+
+/// Maps the command-line precision flag to the library's.
+pub fn precision(arg: PrecisionArg) -> Precision {
+    match arg {
+        PrecisionArg::Auto => Precision::Auto,
+        PrecisionArg::Double => Precision::Double,
+        PrecisionArg::Extended => Precision::Extended,
+    }
+}
+
+/// Runs `plumbline fit`; returns the report to print.
+pub fn run(args: &FitArgs) -> Result<String, CommandError> {
+    let extension = args.data.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
+    let frame = if extension == "parquet" || extension == "pq" {
+        load_parquet(&args.data)?
+    } else {
+        load_csv(&args.data, &csv_options(args)?)?
+    };
+    let spec = model_spec(args)?;
+    let model = fit_with(&frame, &spec, &fit_options(args))?;
+    match args.format {
+        Format::Text => Ok(plumbline::render::fit_text(&model, args.level)?),
+        Format::Json => {
+            let summary = model.summary(args.level)?;
+            let mut json = serde_json::to_string_pretty(&summary)
+                .map_err(|e| CommandError::Usage(format!("could not serialise the result: {e}")))?;
+            json.push('\n');
+            Ok(json)
+        }
+    }
+}

@@ -1,0 +1,19 @@
+//! One module per subcommand; each returns the text to print or a
+//! [`CommandError`] to report on stderr.
+
+pub mod accuracy;
+pub mod fit;
+
+/// Why a subcommand failed.
+#[derive(Debug, thiserror::Error)]
+pub enum CommandError {
+    /// The analysis reported a problem with the data or model.
+    #[error(transparent)]
+    Analysis(#[from] plumbline::Error),
+    /// A flag's value could not be understood.
+    #[error("{0}")]
+    Usage(String),
+    /// Reference data for a check is missing or malformed.
+    #[error("{0}")]
+    Reference(String),
+}

@@ -1,0 +1,24 @@
+//! The `plumbline` binary.
+
+use clap::Parser;
+use plumbline_kernel::cli::{Cli, Command};
+use plumbline_kernel::commands;
+use std::process::ExitCode;
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let outcome = match cli.command {
+        Command::Fit(args) => commands::fit::run(&args),
+        Command::Accuracy(args) => commands::accuracy::run(&args),
+    };
+    match outcome {
+        Ok(text) => {
+            print!("{text}");
+            ExitCode::SUCCESS
+        }
+        Err(message) => {
+            eprintln!("error: {message}");
+            ExitCode::FAILURE
+        }
+    }
+}

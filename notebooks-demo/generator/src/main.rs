@@ -1,0 +1,193 @@
+//! Generates the demo market: the invented town of Wrenmoor.
+//!
+//! Everything here is made up — the town, its districts, every sale. The data
+//! follow a known "true" hedonic model so that a study can be checked against
+//! the truth:
+//!
+//! ```text
+//! ln(price) = 7.15 + 0.62·ln(living_area) + 0.11·ln(lot_size) − 0.0042·age
+//!           + 0.085·(quality − 3) + 0.045·bathrooms + district effect
+//!           + 0.0040·months_since_start + ε,
+//! ε ~ Normal(0, σᵢ),  σᵢ = 0.085 · (living_area / 1800)^0.35   (heteroskedastic)
+//! ```
+//!
+//! District effects (reference Larkfield = 0): Old Quay +0.18, Tannery Row −0.09,
+//! Brindle Heights +0.27, Saltmarsh −0.15, Copperbeck +0.05.
+//!
+//! Files written to the output folder (default `notebooks-demo/data`):
+//! * `sales.csv` — 3,000 sales from January 2023 to December 2025, with a few
+//!   deliberately bad records: five living areas keyed with an extra digit,
+//!   three family transfers far below market (`sale_type = non-arms-length`),
+//!   and twelve missing lot sizes.
+//! * `subjects.csv` — 40 unsold properties to value (no price).
+//! * `sales-next-quarter.csv` — the same market one quarter on: 3,000 earlier
+//!   sales plus 300 new ones from January–March 2026, in which prices rose a
+//!   further 3 % (`ln` shift 0.0296) on top of the monthly trend.
+//!
+//! Usage: `cargo run -p plumbline-demo-data -- [OUTPUT_DIR] [--seed N]` (seed 20261202).
+
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha20Rng;
+use rand_distr::{Distribution, Normal};
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+const DISTRICTS: [(&str, f64, f64); 6] = [
+    // name, effect on ln(price), relative frequency
+    ("Larkfield", 0.0, 0.24),
+    ("Old Quay", 0.18, 0.14),
+    ("Tannery Row", -0.09, 0.18),
+    ("Brindle Heights", 0.27, 0.12),
+    ("Saltmarsh", -0.15, 0.16),
+    ("Copperbeck", 0.05, 0.16),
+];
+const NEXT_QUARTER_SHIFT: f64 = 0.0296;
+
+struct Property {
+    parcel: String,
+    district: usize,
+    living_area: f64,
+    lot_size: f64,
+    year_built: i32,
+    quality: i32,
+    bathrooms: f64,
+}
+
+fn draw_property(rng: &mut ChaCha20Rng, index: usize) -> Property {
+    let u: f64 = rng.random();
+    let mut acc = 0.0;
+    let mut district = 0;
+    for (i, (_, _, share)) in DISTRICTS.iter().enumerate() {
+        acc += share;
+        if u <= acc {
+            district = i;
+            break;
+        }
+    }
+    let area_noise = Normal::new(0.0, 0.28).expect("valid sd");
+    let living_area = (1800.0 * f64::exp(area_noise.sample(rng))).clamp(620.0, 5200.0).round();
+    let lot_noise = Normal::new(0.0, 0.35).expect("valid sd");
+    let lot_size = (7200.0 * (living_area / 1800.0).powf(0.5) * f64::exp(lot_noise.sample(rng))).clamp(1800.0, 43000.0).round();
+    let year_built = rng.random_range(1908..=2024);
+    let q: f64 = rng.random();
+    let quality = if q < 0.07 { 1 } else if q < 0.28 { 2 } else if q < 0.70 { 3 } else if q < 0.92 { 4 } else { 5 };
+    let baths_raw = 1.0 + (living_area - 700.0) / 900.0 + Normal::new(0.0, 0.5).expect("valid sd").sample(rng);
+    let bathrooms = ((baths_raw * 2.0).round() / 2.0).clamp(1.0, 5.0);
+    Property { parcel: format!("WM-{:06}", 100_000 + index * 7), district, living_area, lot_size, year_built, quality, bathrooms }
+}
+
+fn log_price(p: &Property, months: f64, sale_year: i32, rng: &mut ChaCha20Rng, shift: f64) -> f64 {
+    let age = (sale_year - p.year_built).max(0) as f64;
+    let mean = 7.15 + 0.62 * p.living_area.ln() + 0.11 * p.lot_size.ln() - 0.0042 * age
+        + 0.085 * (p.quality - 3) as f64
+        + 0.045 * p.bathrooms
+        + DISTRICTS[p.district].1
+        + 0.0040 * months
+        + shift;
+    let sigma = 0.085 * (p.living_area / 1800.0).powf(0.35);
+    mean + Normal::new(0.0, sigma).expect("valid sd").sample(rng)
+}
+
+/// (year, month, day) of month index `m` (0 = January 2023) and a day.
+fn date_of(month_index: i32, day: i32) -> (i32, i32, i32) {
+    (2023 + month_index / 12, month_index % 12 + 1, day)
+}
+
+const SALES_HEADER: &str = "parcel_id,sale_date,months_since_start,sale_price,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_type\n";
+
+fn sale_row(out: &mut String, p: &Property, month_index: i32, rng: &mut ChaCha20Rng, shift: f64) {
+    let day = rng.random_range(1..=28);
+    let (year, month, day) = date_of(month_index, day);
+    let months = month_index as f64 + (day as f64 - 1.0) / 30.0;
+    let price = (log_price(p, months, year, rng, shift).exp() / 100.0).round() * 100.0;
+    let age = (year - p.year_built).max(0);
+    let _ = writeln!(
+        out,
+        "{},{year:04}-{month:02}-{day:02},{months:.2},{price:.0},{},{},{},{age},{},{},{},arms-length",
+        p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0
+    );
+}
+
+fn main() -> std::process::ExitCode {
+    let mut args = std::env::args().skip(1);
+    let mut out_dir = PathBuf::from("notebooks-demo/data");
+    let mut seed: u64 = 20261202;
+    while let Some(arg) = args.next() {
+        if arg == "--seed" {
+            match args.next().and_then(|s| s.parse().ok()) {
+                Some(s) => seed = s,
+                None => {
+                    eprintln!("error: --seed needs a whole number");
+                    return std::process::ExitCode::FAILURE;
+                }
+            }
+        } else {
+            out_dir = PathBuf::from(arg);
+        }
+    }
+    let mut rng = ChaCha20Rng::seed_from_u64(seed);
+
+    let mut sales = String::from(SALES_HEADER);
+    let mut rows: Vec<String> = Vec::new();
+    for i in 0..3000 {
+        let p = draw_property(&mut rng, i);
+        let month_index = rng.random_range(0..36);
+        let mut row = String::new();
+        sale_row(&mut row, &p, month_index, &mut rng, 0.0);
+        rows.push(row);
+    }
+    // Deliberately bad records, at fixed positions so that the story is stable.
+    for &i in &[211usize, 907, 1460, 2118, 2764] {
+        // Living area keyed with an extra digit (e.g. 1650 → 16500).
+        let mut fields: Vec<String> = rows[i].trim_end().split(',').map(str::to_string).collect();
+        let area: f64 = fields[4].parse().unwrap_or(1500.0);
+        fields[4] = format!("{}", area * 10.0);
+        rows[i] = fields.join(",") + "\n";
+    }
+    for &i in &[388usize, 1777, 2503] {
+        // Family transfers at a fraction of market value.
+        let mut fields: Vec<String> = rows[i].trim_end().split(',').map(str::to_string).collect();
+        let price: f64 = fields[3].parse().unwrap_or(300000.0);
+        fields[3] = format!("{:.0}", (price * 0.35 / 100.0).round() * 100.0);
+        fields[11] = "non-arms-length".into();
+        rows[i] = fields.join(",") + "\n";
+    }
+    for &i in &[57usize, 340, 612, 1011, 1299, 1533, 1870, 2045, 2290, 2611, 2830, 2977] {
+        let mut fields: Vec<String> = rows[i].trim_end().split(',').map(str::to_string).collect();
+        fields[5] = String::new();
+        rows[i] = fields.join(",") + "\n";
+    }
+    rows.iter().for_each(|r| sales.push_str(r));
+
+    let mut next = sales.clone();
+    for i in 0..300 {
+        let p = draw_property(&mut rng, 3000 + i);
+        let month_index = rng.random_range(36..39);
+        sale_row(&mut next, &p, month_index, &mut rng, NEXT_QUARTER_SHIFT);
+    }
+
+    let mut subjects = String::from("parcel_id,living_area,lot_size,year_built,age,quality,bathrooms,district,months_since_start\n");
+    for i in 0..40 {
+        let p = draw_property(&mut rng, 5000 + i);
+        let age = (2026 - p.year_built).max(0);
+        let _ = writeln!(
+            subjects,
+            "{},{},{},{},{age},{},{},{},36.00",
+            p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0
+        );
+    }
+
+    if let Err(e) = std::fs::create_dir_all(&out_dir) {
+        eprintln!("error: cannot create `{}`: {e}", out_dir.display());
+        return std::process::ExitCode::FAILURE;
+    }
+    for (name, body) in [("sales.csv", &sales), ("sales-next-quarter.csv", &next), ("subjects.csv", &subjects)] {
+        let path = out_dir.join(name);
+        if let Err(e) = std::fs::write(&path, body) {
+            eprintln!("error: cannot write `{}`: {e}", path.display());
+            return std::process::ExitCode::FAILURE;
+        }
+        println!("wrote {}", path.display());
+    }
+    std::process::ExitCode::SUCCESS
+}
