@@ -40,6 +40,12 @@ pub mod render;
 
 pub use error::{Error, Result};
 
+/// Re-exported so that cells and programs can name frame types without a
+/// separate dependency (and with the same version).
+pub use polars;
+/// Re-exported for the same reason as `polars`.
+pub use faer;
+
 /// Everything a notebook cell or a small program needs, in one `use`.
 pub mod prelude {
     pub use crate::data::{load, load_csv, load_parquet, profile, ColumnProfile, ColumnType, CsvOptions, Frame, Provenance};

@@ -118,6 +118,10 @@ pub struct FitArgs {
     /// Solver arithmetic.
     #[arg(long, value_enum, default_value_t = PrecisionArg::Auto)]
     pub precision: PrecisionArg,
+    /// Also predict the rows of this file (same columns as the terms), with
+    /// confidence and prediction intervals at --level.
+    #[arg(long, value_name = "FILE")]
+    pub predict: Option<PathBuf>,
     /// Field delimiter of a text file (one character; `\t` for tab).
     #[arg(long, default_value = ",")]
     pub delimiter: String,

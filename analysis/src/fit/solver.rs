@@ -165,7 +165,10 @@ fn condition_from_r(r: &[Vec<DoubleDouble>]) -> f64 {
     if k == 0 {
         return f64::INFINITY;
     }
-    let m = Mat::<f64>::from_fn(k, k, |i, j| r[i][j].to_f64());
+    // Columns of R have the norms of the design's columns (Q is orthogonal), so
+    // scaling them to unit length gives exactly the unit-length-scaled design.
+    let norms: Vec<f64> = (0..k).map(|j| (0..=j).map(|i| r[i][j].to_f64().powi(2)).sum::<f64>().sqrt()).collect();
+    let m = Mat::<f64>::from_fn(k, k, |i, j| r[i][j].to_f64() / norms[j]);
     match m.singular_values() {
         Ok(s) => {
             let max = s.iter().cloned().fold(0.0, f64::max);

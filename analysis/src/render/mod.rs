@@ -5,4 +5,4 @@ mod numbers;
 mod text;
 
 pub use numbers::{format_p_value, format_significant};
-pub use text::fit_text;
+pub use text::{fit_text, predictions_text};

@@ -3,6 +3,7 @@
 use super::numbers::{format_p_value, format_significant};
 use crate::error::Result;
 use crate::fit::{Fit, SolverMethod};
+use crate::predict::Predictions;
 
 /// The fit as an aligned plain-text report at confidence `level`.
 pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
@@ -12,15 +13,15 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
     let prov = fit.provenance();
     let dropped = &fit.design().dropped;
     let mut out = String::new();
-    let pct = format_significant(level * 100.0, 3);
+    let pct = percent(level);
 
     out.push_str(&format!("Least-squares fit of {}\n", spec.target_label()));
+    out.push_str(&format!("  file      {}\n", prov.path));
     out.push_str(&format!(
-        "  data      {} (sha256 {}…, {} rows × {} columns, read {})\n",
-        prov.path,
-        prov.short_hash(),
+        "  data      {} rows × {} columns, sha256 {}…, read {}\n",
         prov.rows,
         prov.cols,
+        prov.short_hash(),
         prov.loaded_at
     ));
     out.push_str(&format!("  rows      {} used, dropped for missing values: {}\n", stats.n_obs, dropped.describe()));
@@ -89,4 +90,48 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
         out.push_str("  note: the condition number is large; small changes in the data can move the coefficients a lot.\n");
     }
     Ok(out)
+}
+
+/// Predictions as an aligned plain-text table.
+pub fn predictions_text(predictions: &Predictions) -> String {
+    let pct = percent(predictions.level);
+    let log_scale = predictions.rows.iter().any(|p| p.median_original.is_some());
+    let mut out = format!("Predictions ({pct} % intervals{})\n", if log_scale { "; original-scale median and smearing mean" } else { "" });
+    out.push_str(&format!(
+        "  {:>6} {:>12} {:>10} {:>25} {:>25}",
+        "row", "estimate", "se(mean)", "mean interval", "prediction interval"
+    ));
+    if log_scale {
+        out.push_str(&format!(" {:>12} {:>12}", "median", "mean"));
+    }
+    out.push('\n');
+    for p in &predictions.rows {
+        out.push_str(&format!(
+            "  {:>6} {:>12} {:>10} {:>25} {:>25}",
+            p.row,
+            format_significant(p.estimate, 6),
+            format_significant(p.se_fit, 4),
+            format!("[{}, {}]", format_significant(p.ci_low, 5), format_significant(p.ci_high, 5)),
+            format!("[{}, {}]", format_significant(p.pi_low, 5), format_significant(p.pi_high, 5)),
+        ));
+        if let (Some(median), Some(mean)) = (p.median_original, p.mean_original) {
+            out.push_str(&format!(" {:>12} {:>12}", format_significant(median, 6), format_significant(mean, 6)));
+        }
+        out.push('\n');
+    }
+    if !predictions.skipped_rows.is_empty() {
+        let listed: Vec<String> = predictions.skipped_rows.iter().take(20).map(usize::to_string).collect();
+        out.push_str(&format!(
+            "  not predicted (a term value is missing): rows {}{}\n",
+            listed.join(", "),
+            if predictions.skipped_rows.len() > 20 { ", …" } else { "" }
+        ));
+    }
+    out
+}
+
+/// A confidence level as a percentage without trailing zeros (`95`, `99.5`).
+fn percent(level: f64) -> String {
+    let value = (level * 100.0 * 1e6).round() / 1e6;
+    format!("{value}")
 }

@@ -130,22 +130,41 @@ pub fn precision(arg: PrecisionArg) -> Precision {
     }
 }
 
-/// Runs `plumbline fit`; returns the report to print.
-pub fn run(args: &FitArgs) -> Result<String, CommandError> {
-    let extension = args.data.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
-    let frame = if extension == "parquet" || extension == "pq" {
-        load_parquet(&args.data)?
+fn load_with_flags(path: &std::path::Path, args: &FitArgs) -> Result<Frame, CommandError> {
+    let extension = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
+    if extension == "parquet" || extension == "pq" {
+        Ok(load_parquet(path)?)
     } else {
-        load_csv(&args.data, &csv_options(args)?)?
-    };
+        Ok(load_csv(path, &csv_options(args)?)?)
+    }
+}
+
+/// Runs `plumbline fit`; returns the report to print. Nothing is printed
+/// unless every step succeeded, so a failure never leaves partial JSON.
+pub fn run(args: &FitArgs) -> Result<String, CommandError> {
+    let frame = load_with_flags(&args.data, args)?;
     let spec = model_spec(args)?;
     let model = fit_with(&frame, &spec, &fit_options(args))?;
+    let predictions = match &args.predict {
+        Some(path) => Some(model.predict(&load_with_flags(path, args)?, args.level)?),
+        None => None,
+    };
     match args.format {
-        Format::Text => Ok(plumbline::render::fit_text(&model, args.level)?),
+        Format::Text => {
+            let mut text = plumbline::render::fit_text(&model, args.level)?;
+            if let Some(p) = &predictions {
+                text.push('\n');
+                text.push_str(&plumbline::render::predictions_text(p));
+            }
+            Ok(text)
+        }
         Format::Json => {
-            let summary = model.summary(args.level)?;
-            let mut json = serde_json::to_string_pretty(&summary)
-                .map_err(|e| CommandError::Usage(format!("could not serialise the result: {e}")))?;
+            let serialise = |e: serde_json::Error| CommandError::Usage(format!("could not serialise the result: {e}"));
+            let mut document = serde_json::to_value(model.summary(args.level)?).map_err(serialise)?;
+            if let (Some(p), Some(object)) = (&predictions, document.as_object_mut()) {
+                object.insert("predictions".into(), serde_json::to_value(p).map_err(serialise)?);
+            }
+            let mut json = serde_json::to_string_pretty(&document).map_err(serialise)?;
             json.push('\n');
             Ok(json)
         }

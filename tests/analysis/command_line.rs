@@ -1,0 +1,103 @@
+//! `plumbline fit` from parsed arguments to printed report, through the same
+//! code the binary runs. Expected numbers come from NIST StRD (Norris,
+//! certified B0/B1) so the command line is checked against an outside source.
+
+use clap::Parser;
+use plumbline_kernel::cli::{Cli, Command};
+use plumbline_kernel::commands::{fit, CommandError};
+use plumbline_tests::{reference_dir, scratch_dir, write_file};
+
+fn run(args: &[&str]) -> Result<String, CommandError> {
+    let cli = Cli::try_parse_from(std::iter::once("plumbline").chain(args.iter().copied())).expect("arguments parse");
+    match cli.command {
+        Command::Fit(a) => fit::run(&a),
+        Command::Accuracy(_) => unreachable!(),
+    }
+}
+
+#[test]
+fn json_has_the_documented_fields_and_nist_values() {
+    let norris = reference_dir().join("nist-strd").join("Norris.csv");
+    let text = run(&["fit", norris.to_str().expect("utf8"), "--target", "y", "--terms", "x", "--format", "json"]).expect("fit");
+    let doc: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
+    for key in [
+        "n_obs", "n_dropped", "df_model", "df_resid", "intercept", "coefficients", "r_squared", "adj_r_squared",
+        "residual_std_error", "f_statistic", "f_p_value", "ss_regression", "ss_residual", "log_likelihood", "aic",
+        "bic", "condition_number", "aliased", "data",
+    ] {
+        assert!(doc.get(key).is_some(), "missing `{key}` in {text}");
+    }
+    for key in ["path", "sha256", "rows", "cols"] {
+        assert!(doc["data"].get(key).is_some(), "missing data.{key}");
+    }
+    let coefs = doc["coefficients"].as_array().expect("array");
+    assert_eq!(coefs[0]["term"], "intercept");
+    // NIST StRD Norris certified values: B0 = -0.262323073774029, B1 = 1.00211681802045.
+    let b0 = coefs[0]["estimate"].as_f64().expect("number");
+    let b1 = coefs[1]["estimate"].as_f64().expect("number");
+    assert!((b0 - -0.262323073774029).abs() < 1e-12 * 0.27, "{b0}");
+    assert!((b1 - 1.00211681802045).abs() < 1e-12, "{b1}");
+    for key in ["term", "estimate", "std_error", "t", "p_value", "ci_low", "ci_high"] {
+        assert!(coefs[1].get(key).is_some(), "coefficient lacks `{key}`");
+    }
+    assert_eq!(doc["n_obs"], 36);
+}
+
+#[test]
+fn filip_through_poly_flag_keeps_certified_digits() {
+    // NIST StRD Filip certified values: B0 = -1467.48961422980, B10 = -0.402962525080404E-04.
+    let filip = reference_dir().join("nist-strd").join("Filip.csv");
+    let text = run(&["fit", filip.to_str().expect("utf8"), "--target", "y", "--poly", "x:10", "--format", "json"]).expect("fit");
+    let doc: serde_json::Value = serde_json::from_str(&text).expect("json");
+    let coefs = doc["coefficients"].as_array().expect("array");
+    assert_eq!(coefs.len(), 11);
+    assert_eq!(coefs[10]["term"], "x^10");
+    let b0 = coefs[0]["estimate"].as_f64().expect("number");
+    let b10 = coefs[10]["estimate"].as_f64().expect("number");
+    assert!(((b0 - -1467.48961422980) / 1467.48961422980).abs() < 1e-11, "{b0}");
+    assert!(((b10 - -0.402962525080404e-04) / 0.402962525080404e-04).abs() < 1e-11, "{b10}");
+}
+
+#[test]
+fn text_report_fits_in_a_terminal() {
+    let norris = reference_dir().join("nist-strd").join("Norris.csv");
+    let text = run(&["fit", norris.to_str().expect("utf8"), "--target", "y", "--terms", "x"]).expect("fit");
+    assert!(text.contains("intercept") && text.contains("R²"));
+    // Every line but the one naming the file (paths are printed whole) fits 100 columns.
+    for line in text.lines().filter(|l| !l.trim_start().starts_with("file ")) {
+        assert!(line.chars().count() < 100, "line too wide: {line}");
+    }
+}
+
+#[test]
+fn flag_mistakes_are_explained() {
+    let dir = scratch_dir("cliflags");
+    let p = write_file(&dir, "d.csv", "y,x,d\n1,2,a\n2,3,b\n3,5,a\n4,4,b\n");
+    let path = p.to_str().expect("utf8");
+    let m = run(&["fit", path, "--target", "y", "--poly", "x"]).expect_err("bad poly").to_string();
+    assert!(m.contains("COL:DEGREE"), "{m}");
+    let m = run(&["fit", path, "--target", "y", "--reference", "d=a"]).expect_err("reference without category").to_string();
+    assert!(m.contains("not listed in --category"), "{m}");
+    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--delimiter", ";;"]).expect_err("bad delimiter").to_string();
+    assert!(m.contains("one character"), "{m}");
+    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--column-type", "x=date"]).expect_err("bad type").to_string();
+    assert!(m.contains("number, integer, text"), "{m}");
+}
+
+#[test]
+fn categories_and_interactions_are_named() {
+    let dir = scratch_dir("clicat");
+    let p = write_file(
+        &dir,
+        "d.csv",
+        "y,x,d\n1,2,North\n2,3,South\n3,5,North\n4,4,South\n5,7,East\n6,6,East\n7,9,North\n9,8,South\n",
+    );
+    let text = run(&[
+        "fit", p.to_str().expect("utf8"), "--target", "y", "--terms", "x", "--category", "d", "--reference", "d=North",
+        "--interact", "x*d", "--format", "json",
+    ])
+    .expect("fit");
+    let doc: serde_json::Value = serde_json::from_str(&text).expect("json");
+    let terms: Vec<&str> = doc["coefficients"].as_array().expect("a").iter().map(|c| c["term"].as_str().expect("s")).collect();
+    assert_eq!(terms, vec!["intercept", "x", "d=East", "d=South", "x*d=East", "x*d=South"]);
+}
