@@ -18,7 +18,7 @@ pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
 pub use parquet_reader::load_parquet;
 pub use profile::{profile, ColumnProfile};
-pub use provenance::Provenance;
+pub use provenance::{sha256_hex, Provenance};
 
 use crate::error::{Error, Result};
 use std::path::Path;

@@ -1,0 +1,24 @@
+#!/usr/bin/env bash
+# Runs every Plumbline test: Rust unit, integration, property and accuracy tests,
+# then the Python cross-checks against numpy/scipy. This is the command README.md
+# names and .ci/run calls. Idempotent; needs only a Rust toolchain and Python 3.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+source install/lib.sh
+
+require_rust
+require_python
+python_env
+step "installing the Python references (numpy, scipy, pytest, mpmath)"
+"$PY" -m pip install --quiet --disable-pip-version-check -r tests/python/requirements.txt
+
+check_reference_data
+
+step "building the workspace"
+cargo build --workspace --locked
+
+step "Rust tests"
+cargo test --workspace --locked
+
+step "Python cross-checks"
+PLUMBLINE_BIN="$PWD/target/debug/plumbline" "$PY" -m pytest tests/python -q -p no:cacheprovider
