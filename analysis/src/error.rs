@@ -97,6 +97,10 @@ pub enum Error {
     #[error("prediction data: {0}")]
     Prediction(String),
 
+    /// Two fits cannot be compared as asked.
+    #[error("cannot compare these fits: {0}")]
+    Comparison(String),
+
     /// Polars reported an error while building or reading a frame.
     #[error("data frame error: {0}")]
     Frame(#[from] polars::error::PolarsError),

@@ -29,7 +29,9 @@
 //! | [`predict`] | predictions with confidence and prediction intervals |
 //! | [`numeric`] | double-double arithmetic and the extended-precision QR |
 
+pub mod compare;
 pub mod data;
+pub mod diagnose;
 mod error;
 pub mod fit;
 pub mod inference;

@@ -17,6 +17,8 @@ pub struct Cli {
 pub enum Command {
     /// Fit a least-squares model to a CSV or Parquet file and print the result.
     Fit(FitArgs),
+    /// Compare candidate models on one data file: side by side, nested tests, cross-validation.
+    Compare(CompareArgs),
     /// Score the solver on the NIST StRD linear-regression datasets (log relative error).
     Accuracy(AccuracyArgs),
 }
@@ -122,6 +124,24 @@ pub struct FitArgs {
     /// confidence and prediction intervals at --level.
     #[arg(long, value_name = "FILE")]
     pub predict: Option<PathBuf>,
+    /// How to read the data file.
+    #[command(flatten)]
+    pub input: InputFlags,
+    /// Also print assumption tests, collinearity and the rows to check.
+    #[arg(long)]
+    pub diagnose: bool,
+    /// Also report every row's influence measures (JSON) — residuals, leverage,
+    /// Cook's distance, DFFITS, DFBETAS.
+    #[arg(long)]
+    pub influence: bool,
+    /// Column identifying rows (e.g. a parcel id) in flagged-row lists.
+    #[arg(long, value_name = "COL")]
+    pub id: Option<String>,
+}
+
+/// Flags describing how to read a data file.
+#[derive(Debug, Args)]
+pub struct InputFlags {
     /// Field delimiter of a text file (one character; `\t` for tab).
     #[arg(long, default_value = ",")]
     pub delimiter: String,
@@ -131,6 +151,52 @@ pub struct FitArgs {
     /// Column type override COL=number|integer|text (repeatable).
     #[arg(long = "column-type", value_name = "COL=TYPE")]
     pub column_types: Vec<String>,
+}
+
+/// Arguments of `plumbline compare`.
+///
+/// Each `--model` is a term list in our compact syntax: comma-separated terms,
+/// `area`, `log:area`, `pow:area:0.5`, `center:age`, `std:age`, `poly:age:2`,
+/// `orth:age:2`, `cat:district`, `cat:district=Larkfield`, and `A*B` for an
+/// interaction. Models are named A, B, C… in the order given. All models are
+/// fitted on the rows that have every column any of them uses.
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// Data file (.csv, .tsv, .txt or .parquet).
+    pub data: PathBuf,
+    /// Column to explain.
+    #[arg(long)]
+    pub target: String,
+    /// Fit the natural log of the target.
+    #[arg(long)]
+    pub log_target: bool,
+    /// A model's terms (repeat for each candidate; at least one).
+    #[arg(long = "model", value_name = "TERMS", required = true)]
+    pub models: Vec<String>,
+    /// Fit without an intercept.
+    #[arg(long)]
+    pub no_intercept: bool,
+    /// Case-weight column.
+    #[arg(long, value_name = "COL")]
+    pub weights: Option<String>,
+    /// Covariance estimator for the standard errors shown.
+    #[arg(long, value_enum, default_value_t = CovarianceArg::Classical)]
+    pub cov: CovarianceArg,
+    /// Cross-validate every model with this many folds.
+    #[arg(long, value_name = "K")]
+    pub folds: Option<usize>,
+    /// Seed of the cross-validation split.
+    #[arg(long, default_value_t = 20261202)]
+    pub seed: u64,
+    /// Column identifying rows, used to place rows in folds.
+    #[arg(long, value_name = "COL")]
+    pub id: Option<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+    /// How to read the data file.
+    #[command(flatten)]
+    pub input: InputFlags,
 }
 
 /// Arguments of `plumbline accuracy`.

@@ -9,6 +9,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match cli.command {
         Command::Fit(args) => commands::fit::run(&args),
+        Command::Compare(args) => commands::compare::run(&args),
         Command::Accuracy(args) => commands::accuracy::run(&args),
     };
     match outcome {

@@ -2,7 +2,7 @@
 
 use super::Provenance;
 use crate::error::{Error, Result};
-use polars::prelude::{AnyValue, DataFrame, DataType};
+use polars::prelude::{AnyValue, DataFrame, DataType, IdxCa, IdxSize};
 
 /// A polars [`DataFrame`] that remembers where it came from.
 ///
@@ -27,6 +27,29 @@ impl Frame {
     pub fn from_dataframe(data: DataFrame, label: &str) -> Self {
         let provenance = Provenance::in_memory(label, data.height(), data.width());
         Self { data, provenance, source_lines: None }
+    }
+
+    /// The rows at `rows` (0-based, in the order given) as a new frame whose
+    /// provenance names the source and `label`, keeping each row's file line.
+    pub fn subset(&self, rows: &[usize], label: &str) -> Result<Frame> {
+        let index: Vec<IdxSize> = rows.iter().map(|&r| r as IdxSize).collect();
+        let data = self.data.take(&IdxCa::from_vec("row".into(), index))?;
+        let mut provenance = self.provenance.clone();
+        provenance.path = format!("{} [{label}]", self.provenance.path);
+        provenance.rows = data.height();
+        let source_lines = self.source_lines.as_ref().map(|lines| rows.iter().map(|&r| lines[r]).collect());
+        Ok(Frame { data, provenance, source_lines })
+    }
+
+    /// A stable text key of row `row` built from every column's value, used to
+    /// place rows in folds independently of their order in the file.
+    pub fn row_key(&self, row: usize) -> String {
+        self.data
+            .columns()
+            .iter()
+            .map(|c| c.get(row).map(|v| v.to_string()).unwrap_or_default())
+            .collect::<Vec<_>>()
+            .join("\u{1f}")
     }
 
     /// The underlying polars frame.

@@ -55,7 +55,9 @@ impl CovarianceKind {
 
 /// The weighted design rows `x̃ᵢ` (kept columns only), row-major.
 pub(crate) struct WeightedRows {
+    /// `√wᵢ xᵢ` over the kept columns, one vector per row.
     pub rows: Vec<Vec<f64>>,
+    /// `√wᵢ eᵢ`, one per row.
     pub residuals: Vec<f64>,
 }
 

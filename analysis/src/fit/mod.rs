@@ -9,13 +9,13 @@ mod covariance;
 pub mod solver;
 
 pub use covariance::CovarianceKind;
-pub(crate) use covariance::quadratic_form;
+pub(crate) use covariance::{leverages, quadratic_form};
 pub use solver::{default_rank_tolerance, Solution, SolverMethod};
 
 use crate::data::{Frame, Provenance};
 use crate::error::{Error, Result};
 use crate::model::{build_design, Design, ModelSpec};
-use covariance::WeightedRows;
+pub(crate) use covariance::WeightedRows;
 use serde::{Deserialize, Serialize};
 
 /// Which arithmetic the solver uses (see [`solver`]).
@@ -107,7 +107,7 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
     })
 }
 
-fn weighted_rows(design: &Design, solution: &Solution) -> WeightedRows {
+pub(crate) fn weighted_rows(design: &Design, solution: &Solution) -> WeightedRows {
     let n = design.n_rows();
     let root = |i: usize| design.weights.as_ref().map_or(1.0, |w| w[i].sqrt());
     let rows = (0..n).map(|i| solution.kept.iter().map(|&j| design.columns[j].hi[i] * root(i)).collect()).collect();
@@ -225,4 +225,11 @@ impl Fit {
         let rows = weighted_rows(&self.design, &self.solution);
         covariance::leverages(&rows.rows, &self.solution.unscaled_covariance)
     }
+}
+
+/// Least squares of `y` on `columns` (unweighted), as used by auxiliary
+/// regressions in diagnostics and comparisons. Rank-revealing, automatic precision.
+pub(crate) fn auxiliary_regression(columns: &[crate::model::DesignColumn], y: &[f64]) -> Solution {
+    let tolerance = default_rank_tolerance(y.len(), columns.len());
+    solver::solve(columns, y, None, Precision::Auto, tolerance)
 }

@@ -44,6 +44,17 @@ pub struct DesignRecipe {
     pub encodings: Vec<TermEncoding>,
     /// Names of all design columns, intercept first when present.
     pub column_names: Vec<String>,
+    /// Which design columns each term produced, in term order.
+    pub term_spans: Vec<TermSpan>,
+}
+
+/// The design columns one term produced.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TermSpan {
+    /// The term as written, e.g. `log(area)`, `district`, `poly(age, 3)`.
+    pub label: String,
+    /// Indices of its design columns.
+    pub columns: std::ops::Range<usize>,
 }
 
 /// The design matrix `X` (column-wise), target `y` and weights of a fit.
@@ -240,12 +251,12 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
         }
         encodings.push(learn(term, &values, full)?);
     }
-    let columns = assemble_columns(spec, &encodings, &values, complete.rows.len())?;
+    let (columns, term_spans) = assemble_columns(spec, &encodings, &values, complete.rows.len())?;
     let column_names: Vec<String> = columns.iter().map(|c| c.name.clone()).collect();
     if let Some(dup) = column_names.iter().enumerate().find(|(i, n)| column_names[..*i].contains(n)).map(|(_, n)| n) {
         return Err(Error::Specification(format!("the design column `{dup}` is generated twice; remove the repeated term")));
     }
-    let recipe = DesignRecipe { spec: spec.clone(), encodings, column_names };
+    let recipe = DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans };
     Ok(Design { columns, target, weights, rows_used: complete.rows, dropped: complete.dropped, recipe })
 }
 
@@ -266,15 +277,18 @@ fn check_degrees(terms: &[Term]) -> Result<()> {
     Ok(())
 }
 
-fn assemble_columns(spec: &ModelSpec, encodings: &[TermEncoding], values: &RowValues, n: usize) -> Result<Vec<DesignColumn>> {
+fn assemble_columns(spec: &ModelSpec, encodings: &[TermEncoding], values: &RowValues, n: usize) -> Result<(Vec<DesignColumn>, Vec<TermSpan>)> {
     let mut columns = Vec::new();
+    let mut spans = Vec::with_capacity(encodings.len());
     if spec.has_intercept() {
         columns.push(DesignColumn { name: INTERCEPT_NAME.into(), hi: vec![1.0; n], lo: None });
     }
-    for encoding in encodings {
+    for (term, encoding) in spec.terms().iter().zip(encodings) {
+        let start = columns.len();
         columns.extend(encoding.columns(values)?);
+        spans.push(TermSpan { label: term.label(), columns: start..columns.len() });
     }
-    Ok(columns)
+    Ok((columns, spans))
 }
 
 impl DesignRecipe {
@@ -294,7 +308,7 @@ impl DesignRecipe {
         let complete = complete_rows(frame, &numeric, &label, &order)?;
         let line_of = |row: usize| frame.source_line(row);
         let values = RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
-        let columns = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
+        let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
         Ok((columns, complete.rows))
     }
 }

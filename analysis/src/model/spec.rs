@@ -131,6 +131,24 @@ impl Term {
         Term::Interaction(Box::new(self), Box::new(other))
     }
 
+    /// The term as a reader would write it: `area`, `log(area)`, `age^2`,
+    /// `poly(age, 3)`, `district`, `area*district`.
+    pub fn label(&self) -> String {
+        match self {
+            Term::Numeric { column, transform } => match transform {
+                Transform::Identity => column.clone(),
+                Transform::Log => format!("log({column})"),
+                Transform::Power(p) => format!("{column}^{p}"),
+                Transform::Center => format!("centered({column})"),
+                Transform::Standardize => format!("standardized({column})"),
+                Transform::Polynomial(d) => format!("poly({column}, {d})"),
+                Transform::OrthogonalPolynomial(d) => format!("orthogonal({column}, {d})"),
+            },
+            Term::Category { column, .. } => column.clone(),
+            Term::Interaction(a, b) => format!("{}*{}", a.label(), b.label()),
+        }
+    }
+
     /// Every frame column this term reads.
     pub fn columns(&self) -> Vec<&str> {
         match self {

@@ -1,7 +1,7 @@
 //! `plumbline fit`: one model, one data file, a report on stdout.
 
 use super::CommandError;
-use crate::cli::{CovarianceArg, FitArgs, Format, PrecisionArg};
+use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg};
 use plumbline::prelude::*;
 use std::collections::BTreeMap;
 
@@ -22,7 +22,7 @@ fn degree(text: &str, flag: &str) -> Result<(String, u32), CommandError> {
 }
 
 /// The CSV options the flags describe.
-pub fn csv_options(args: &FitArgs) -> Result<CsvOptions, CommandError> {
+pub fn csv_options(args: &InputFlags) -> Result<CsvOptions, CommandError> {
     let delimiter = match args.delimiter.as_str() {
         "\\t" | "tab" => b'\t',
         d if d.len() == 1 => d.as_bytes()[0],
@@ -108,17 +108,21 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
     Ok(spec)
 }
 
-/// The fit options the flags describe.
-pub fn fit_options(args: &FitArgs) -> FitOptions {
-    let covariance = match (&args.cluster, args.cov) {
+/// The covariance estimator the flags describe (`--cluster` wins over `--cov`).
+pub fn covariance(cov: CovarianceArg, cluster: Option<&String>) -> CovarianceKind {
+    match (cluster, cov) {
         (Some(c), _) => CovarianceKind::Cluster(c.clone()),
         (None, CovarianceArg::Classical) => CovarianceKind::Classical,
         (None, CovarianceArg::Hc0) => CovarianceKind::Hc0,
         (None, CovarianceArg::Hc1) => CovarianceKind::Hc1,
         (None, CovarianceArg::Hc2) => CovarianceKind::Hc2,
         (None, CovarianceArg::Hc3) => CovarianceKind::Hc3,
-    };
-    FitOptions { covariance, precision: precision(args.precision), rank_tolerance: None }
+    }
+}
+
+/// The fit options the flags describe.
+pub fn fit_options(args: &FitArgs) -> FitOptions {
+    FitOptions { covariance: covariance(args.cov, args.cluster.as_ref()), precision: precision(args.precision), rank_tolerance: None }
 }
 
 /// Maps the command-line precision flag to the library's.
@@ -130,7 +134,8 @@ pub fn precision(arg: PrecisionArg) -> Precision {
     }
 }
 
-fn load_with_flags(path: &std::path::Path, args: &FitArgs) -> Result<Frame, CommandError> {
+/// Loads a data file, reading text files with the input flags.
+pub fn load_with_flags(path: &std::path::Path, args: &InputFlags) -> Result<Frame, CommandError> {
     let extension = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
     if extension == "parquet" || extension == "pq" {
         Ok(load_parquet(path)?)
@@ -142,16 +147,29 @@ fn load_with_flags(path: &std::path::Path, args: &FitArgs) -> Result<Frame, Comm
 /// Runs `plumbline fit`; returns the report to print. Nothing is printed
 /// unless every step succeeded, so a failure never leaves partial JSON.
 pub fn run(args: &FitArgs) -> Result<String, CommandError> {
-    let frame = load_with_flags(&args.data, args)?;
+    let frame = load_with_flags(&args.data, &args.input)?;
     let spec = model_spec(args)?;
     let model = fit_with(&frame, &spec, &fit_options(args))?;
     let predictions = match &args.predict {
-        Some(path) => Some(model.predict(&load_with_flags(path, args)?, args.level)?),
+        Some(path) => Some(model.predict(&load_with_flags(path, &args.input)?, args.level)?),
         None => None,
+    };
+    let diagnostics = if args.diagnose {
+        Some((model.assumption_tests(), model.collinearity(), model.flagged_rows(&frame, args.id.as_deref())?))
+    } else {
+        None
     };
     match args.format {
         Format::Text => {
             let mut text = plumbline::render::fit_text(&model, args.level)?;
+            if let Some((tests, collinearity, flags)) = &diagnostics {
+                text.push('\n');
+                text.push_str(&plumbline::render::tests_text(tests));
+                text.push('\n');
+                text.push_str(&plumbline::render::collinearity_text(collinearity));
+                text.push('\n');
+                text.push_str(&plumbline::render::flags_text(flags, 25));
+            }
             if let Some(p) = &predictions {
                 text.push('\n');
                 text.push_str(&plumbline::render::predictions_text(p));
@@ -163,6 +181,15 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
             let mut document = serde_json::to_value(model.summary(args.level)?).map_err(serialise)?;
             if let (Some(p), Some(object)) = (&predictions, document.as_object_mut()) {
                 object.insert("predictions".into(), serde_json::to_value(p).map_err(serialise)?);
+            }
+            if let (Some((tests, collinearity, flags)), Some(object)) = (&diagnostics, document.as_object_mut()) {
+                object.insert(
+                    "diagnostics".into(),
+                    serde_json::json!({ "tests": tests, "collinearity": collinearity, "flagged_rows": flags }),
+                );
+            }
+            if let (true, Some(object)) = (args.influence, document.as_object_mut()) {
+                object.insert("influence".into(), serde_json::to_value(model.influence()).map_err(serialise)?);
             }
             let mut json = serde_json::to_string_pretty(&document).map_err(serialise)?;
             json.push('\n');

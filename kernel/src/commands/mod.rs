@@ -2,6 +2,7 @@
 //! [`CommandError`] to report on stderr.
 
 pub mod accuracy;
+pub mod compare;
 pub mod fit;
 
 /// Why a subcommand failed.
