@@ -12,6 +12,18 @@ import numpy as np
 import pytest
 
 REPO = pathlib.Path(__file__).resolve().parents[2]
+# External reference data: ../shared/reference beside the checkout, or $PLUMBLINE_REFERENCE_DIR.
+REFERENCE = pathlib.Path(os.environ.get("PLUMBLINE_REFERENCE_DIR", REPO.parent / "shared" / "reference"))
+NIST = REFERENCE / "nist-strd"
+
+
+def require_nist(name):
+    """Path of a NIST StRD file; fails loudly (never skips) when the reference data are absent."""
+    path = NIST / name
+    if not path.exists():
+        pytest.fail(f"external reference data missing: {path} (place shared/ beside the checkout "
+                    "or set PLUMBLINE_REFERENCE_DIR)", pytrace=False)
+    return path
 
 
 def plumbline_binary() -> pathlib.Path:

@@ -5,9 +5,8 @@ import pathlib
 
 import pytest
 
-from conftest import REPO, run_raw
+from conftest import require_nist, run_raw
 
-REFERENCE = REPO.parent / "shared" / "reference" / "nist-strd"
 
 
 def test_error_goes_to_stderr_with_empty_stdout(tmp_path):
@@ -25,9 +24,7 @@ def test_missing_file_exit_status(tmp_path):
 
 
 def test_accuracy_report_json():
-    if not (REFERENCE / "certified.json").exists():
-        pytest.fail(f"NIST StRD reference data missing at {REFERENCE}", pytrace=False)
-    r = run_raw("accuracy", "--reference", str(REFERENCE), "--format", "json")
+    r = run_raw("accuracy", "--reference", str(require_nist("certified.json").parent), "--format", "json")
     assert r.returncode == 0, r.stderr
     table = json.loads(r.stdout)
     assert len(table) == 11

@@ -14,9 +14,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from conftest import REPO, run_raw
+from conftest import require_nist, run_raw
 
-LONGLEY = REPO.parent / "shared" / "reference" / "nist-strd" / "Longley.csv"
 
 
 def rss_mp(rows, columns):
@@ -29,8 +28,7 @@ def rss_mp(rows, columns):
 
 
 def test_nested_f_on_longley_matches_mpmath():
-    if not LONGLEY.exists():
-        pytest.fail(f"NIST StRD Longley data missing at {LONGLEY}", pytrace=False)
+    LONGLEY = require_nist("Longley.csv")
     rows = list(csv.DictReader(open(LONGLEY)))
     full = ["x1", "x2", "x3", "x4", "x5", "x6"]
     restricted = full[:-1]
@@ -52,8 +50,7 @@ def test_nested_f_on_longley_matches_mpmath():
 
 
 def test_non_nested_models_are_refused(tmp_path):
-    if not LONGLEY.exists():
-        pytest.fail(f"NIST StRD Longley data missing at {LONGLEY}", pytrace=False)
+    LONGLEY = require_nist("Longley.csv")
     r = run_raw("compare", str(LONGLEY), "--target", "y", "--model", "x1,x2", "--model", "x3,x4,x5",
                 "--format", "json")
     assert r.returncode == 0, r.stderr

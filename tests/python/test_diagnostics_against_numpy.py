@@ -20,9 +20,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from conftest import REPO, run_fit, write_csv
+from conftest import require_nist, run_fit, write_csv
 
-LONGLEY = REPO.parent / "shared" / "reference" / "nist-strd" / "Longley.csv"
 
 
 def diagnosed(path, *args):
@@ -204,8 +203,7 @@ def test_vif_and_gvif(data):
 
 
 def test_longley_vifs_match_published_values():
-    if not LONGLEY.exists():
-        pytest.fail(f"NIST StRD Longley data missing at {LONGLEY}", pytrace=False)
+    LONGLEY = require_nist("Longley.csv")
     doc = diagnosed(LONGLEY, "--target", "y", "--terms", "x1,x2,x3,x4,x5,x6")
     published = [135.53, 1788.51, 33.62, 3.59, 399.15, 758.98]  # recalled from memory
     got = [t["gvif"] for t in doc["diagnostics"]["collinearity"]["terms"]]
