@@ -41,3 +41,18 @@ The accuracy tests check against NIST StRD certified values; place shared/ besid
 the checkout or set PLUMBLINE_REFERENCE_DIR."
   fi
 }
+
+# Headless Chromium renders the HTML reports in a browser test. Installed from
+# Debian's packages when missing and we are root (as in CI); otherwise we say how.
+require_chromium() {
+  if command -v chromium >/dev/null 2>&1 || command -v chromium-browser >/dev/null 2>&1; then
+    return
+  fi
+  if [ "$(id -u)" = "0" ] && command -v apt-get >/dev/null 2>&1; then
+    step "installing Debian's chromium for the browser rendering test"
+    apt-get update -qq >/dev/null
+    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null
+  else
+    die "headless Chromium is needed for the HTML rendering test; install it (Debian: 'sudo apt-get install chromium') and rerun."
+  fi
+}

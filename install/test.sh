@@ -13,9 +13,10 @@ step "installing the Python references (numpy, scipy, pytest, mpmath)"
 "$PY" -m pip install --quiet --disable-pip-version-check -r tests/python/requirements.txt
 
 check_reference_data
+require_chromium
 
 step "building the workspace"
-cargo build --workspace --locked
+cargo build --workspace --all-targets --locked
 
 step "Rust tests"
 cargo test --workspace --locked

@@ -101,6 +101,10 @@ pub enum Error {
     #[error("cannot compare these fits: {0}")]
     Comparison(String),
 
+    /// A chart could not be drawn.
+    #[error("could not draw the chart: {0}")]
+    Plot(String),
+
     /// Polars reported an error while building or reading a frame.
     #[error("data frame error: {0}")]
     Frame(#[from] polars::error::PolarsError),

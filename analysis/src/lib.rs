@@ -27,6 +27,9 @@
 //! | [`fit`] | least-squares solvers and covariance estimators |
 //! | [`inference`] | coefficient tests, fit statistics, JSON summary |
 //! | [`predict`] | predictions with confidence and prediction intervals |
+//! | [`diagnose`] | influence, collinearity, assumption tests, rows to check |
+//! | [`compare`] | nested tests, side-by-side tables, cross-validation, holdout splits |
+//! | [`render`] | every human-readable report |
 //! | [`numeric`] | double-double arithmetic and the extended-precision QR |
 
 pub mod compare;
@@ -37,6 +40,7 @@ pub mod fit;
 pub mod inference;
 pub mod model;
 pub mod numeric;
+pub mod plot;
 pub mod predict;
 pub mod render;
 

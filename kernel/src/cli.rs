@@ -30,6 +30,8 @@ pub enum Format {
     Text,
     /// The machine-readable JSON document described in README.md.
     Json,
+    /// A standalone HTML page (inline styles, no scripts) for a study file.
+    Html,
 }
 
 /// Covariance estimators selectable on the command line.

@@ -11,7 +11,7 @@ fn run(args: &[&str]) -> Result<String, CommandError> {
     let cli = Cli::try_parse_from(std::iter::once("plumbline").chain(args.iter().copied())).expect("arguments parse");
     match cli.command {
         Command::Fit(a) => fit::run(&a),
-        Command::Accuracy(_) => unreachable!(),
+        other => panic!("expected a fit command, got {other:?}"),
     }
 }
 

@@ -38,6 +38,11 @@ pub struct Collinearity {
     pub condition_number: f64,
     /// Condition indices, ascending.
     pub condition_indices: Vec<f64>,
+    /// Condition number among the terms alone: `√(λ_max/λ_min)` of the
+    /// correlation matrix of the non-intercept columns. Unlike the scaled
+    /// condition number it ignores near-dependence with the constant (a
+    /// column far from zero with little spread), which is harmless.
+    pub centered_condition_number: f64,
 }
 
 impl Fit {
@@ -64,6 +69,18 @@ impl Fit {
         };
         let all: Vec<usize> = (0..slopes.len()).collect();
         let det_all = if all.is_empty() { 1.0 } else { correlation(&all).determinant() };
+        let centered_condition_number = if all.len() < 2 {
+            1.0
+        } else {
+            match correlation(&all).self_adjoint_eigenvalues(faer::Side::Lower) {
+                Ok(eigen) => {
+                    let max = eigen.iter().cloned().fold(0.0, f64::max);
+                    let min = eigen.iter().cloned().fold(f64::INFINITY, f64::min);
+                    if min > 0.0 { (max / min).sqrt() } else { f64::INFINITY }
+                }
+                Err(_) => f64::NAN,
+            }
+        };
         let mut terms = Vec::new();
         for span in &self.design.recipe.term_spans {
             let inside: Vec<usize> = all.iter().copied().filter(|&a| span.columns.contains(&slopes[a])).collect();
@@ -96,6 +113,6 @@ impl Fit {
             Err(_) => Vec::new(),
         };
         indices.sort_by(f64::total_cmp);
-        Collinearity { terms, condition_number: self.solution.condition_number, condition_indices: indices }
+        Collinearity { terms, condition_number: self.solution.condition_number, condition_indices: indices, centered_condition_number }
     }
 }

@@ -45,8 +45,9 @@ pub fn collinearity_text(c: &Collinearity) -> String {
     }
     let largest = c.condition_indices.last().copied().unwrap_or(f64::NAN);
     out.push_str(&format!(
-        "  condition number {}; largest condition index {} (above 30 is a common-practice warning sign)\n",
+        "  condition number {} (among the terms, centred: {}); largest condition index {}\n  (above 30 is a common-practice warning sign)\n",
         format_significant(c.condition_number, 4),
+        format_significant(c.centered_condition_number, 4),
         format_significant(largest, 4)
     ));
     out
@@ -78,7 +79,7 @@ pub fn flags_text(flags: &RowFlags, limit: usize) -> String {
 
 /// Side-by-side coefficients with standard errors in parentheses.
 pub fn comparison_text(c: &Comparison) -> String {
-    let name_width = c.rows.iter().map(|r| r.term.chars().count()).max().unwrap_or(4).clamp(4, 30);
+    let name_width = c.rows.iter().map(|r| r.term.chars().count()).max().unwrap_or(4).clamp("residual std error".len(), 30);
     let cell = 22;
     let mut out = format!("  {:<name_width$}", "term");
     for m in &c.models {

@@ -1,10 +1,25 @@
-//! Turning results into text people read. (The MIME bundles for notebooks —
-//! HTML tables and SVG — will join this module; every display goes through it.)
+//! The one place that turns results into what people read: aligned plain text
+//! for terminals, self-contained HTML for notebooks and reports, SVG charts
+//! (from [`crate::plot`]), and machine-readable JSON — gathered per result in
+//! a [`MimeBundle`] by the single display trait [`Report`].
 
+mod bundle;
 mod diagnostics_text;
+mod explain;
+mod export;
+mod fit_report;
+mod frame_report;
+pub mod html;
 mod numbers;
+mod result_reports;
 mod text;
 
-pub use numbers::{format_p_value, format_significant};
+pub use bundle::{emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, FIT_JSON_MIME};
 pub use diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
+pub use explain::{explanations, Explained};
+pub use export::{fit_csv, fit_markdown};
+pub use fit_report::{fit_html, fit_warnings, FitReport, VALUATION_CAUTION};
+pub use frame_report::{frame_html, frame_text, ProfileReport};
+pub use numbers::{format_column, format_p_value, format_significant, format_trimmed};
+pub use result_reports::AssumptionTests;
 pub use text::{fit_text, predictions_text};

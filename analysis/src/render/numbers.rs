@@ -18,6 +18,43 @@ pub fn format_significant(value: f64, digits: usize) -> String {
     }
 }
 
+/// Like [`format_significant`], without trailing zeros after the decimal
+/// point (`1870`, `83.5`), for tables where values of one column differ in scale.
+pub fn format_trimmed(value: f64, digits: usize) -> String {
+    let text = format_significant(value, digits);
+    if text.contains('.') && !text.contains('e') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    }
+}
+
+/// Formats a column of numbers with one shared number of decimals: the fewest
+/// that show every value to `digits` significant digits (at most 6 decimals).
+pub fn format_column(values: &[f64], digits: usize) -> Vec<String> {
+    let decimals = values
+        .iter()
+        .filter(|v| v.is_finite() && **v != 0.0)
+        .map(|v| {
+            let text = format_trimmed(*v, digits);
+            if text.contains('e') { 0 } else { text.split_once('.').map_or(0, |(_, d)| d.len()) }
+        })
+        .max()
+        .unwrap_or(0)
+        .min(6);
+    values
+        .iter()
+        .map(|v| {
+            let magnitude = if *v == 0.0 { 0.0 } else { v.abs().log10() };
+            if !v.is_finite() || magnitude >= 12.0 || (magnitude < -4.0 && *v != 0.0) {
+                format_significant(*v, digits)
+            } else {
+                format!("{v:.decimals$}")
+            }
+        })
+        .collect()
+}
+
 /// A p-value for reading: four significant digits, or `< 1e-16` below what
 /// double precision distinguishes from zero in a two-sided test.
 pub fn format_p_value(p: Option<f64>) -> String {

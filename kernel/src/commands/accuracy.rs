@@ -161,7 +161,7 @@ pub fn run(args: &AccuracyArgs) -> Result<String, CommandError> {
         Format::Json => serde_json::to_string_pretty(&scores)
             .map(|s| s + "\n")
             .map_err(|e| CommandError::Usage(format!("could not serialise the table: {e}"))),
-        Format::Text => Ok(table(&scores)),
+        Format::Text | Format::Html => Ok(table(&scores)),
     }
 }
 

@@ -108,6 +108,16 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
                 .map(|s| s + "\n")
                 .map_err(|e| CommandError::Usage(format!("could not serialise the comparison: {e}")))
         }
+        Format::Html => {
+            use plumbline::render::Report;
+            let mut cards = vec![table.bundle().get("text/html").unwrap_or_default().to_string()];
+            for (n, r) in &validation {
+                let mut card = r.bundle().get("text/html").unwrap_or_default().to_string();
+                card = card.replacen("-fold cross-validation", &format!("-fold cross-validation of {n}"), 1);
+                cards.push(card);
+            }
+            Ok(plumbline::render::html::page("Model comparison", &cards))
+        }
         Format::Text => {
             let mut out = format!(
                 "Comparison of {} models of {}{} on {} rows ({} dropped for missing values)\n",

@@ -176,6 +176,20 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
             }
             Ok(text)
         }
+        Format::Html => {
+            use plumbline::render::{AssumptionTests, Report};
+            let html_of = |b: plumbline::render::MimeBundle| b.get("text/html").unwrap_or_default().to_string();
+            let mut cards = vec![plumbline::render::fit_html(&model, args.level)?];
+            if let Some((tests, collinearity, flags)) = &diagnostics {
+                cards.push(html_of(AssumptionTests(tests.clone()).bundle()));
+                cards.push(html_of(collinearity.bundle()));
+                cards.push(html_of(flags.bundle()));
+            }
+            if let Some(p) = &predictions {
+                cards.push(html_of(p.bundle()));
+            }
+            Ok(plumbline::render::html::page(&format!("Fit of {}", model.spec().target_label()), &cards))
+        }
         Format::Json => {
             let serialise = |e: serde_json::Error| CommandError::Usage(format!("could not serialise the result: {e}"));
             let mut document = serde_json::to_value(model.summary(args.level)?).map_err(serialise)?;

@@ -1,0 +1,81 @@
+//! Charts as SVG, drawn with plotters' SVG backend in one theme of our own.
+//!
+//! Every chart returns an [`Svg`]: the markup, with `<title>` and `<desc>` for
+//! screen readers, deterministic to the byte for the same inputs (no random
+//! ids; coordinates are whole pixels).
+//!
+//! | function | chart |
+//! |---|---|
+//! | [`fit_line`] | target against one term, fitted line, confidence and prediction bands |
+//! | [`residuals_vs_fitted`] | residuals against fitted values with a LOWESS smoother |
+//! | [`normal_qq`] | normal Q-Q plot of standardized residuals |
+//! | [`scale_location`] | √\|standardized residual\| against fitted values, smoothed |
+//! | [`leverage_plot`] | standardized residuals against leverage, Cook's distance contours |
+//! | [`coefficient_intervals`] | estimates with intervals, sorted, zero line |
+//! | [`histogram`] | histogram with a kernel density curve |
+//! | [`correlation_heatmap`] | correlation matrix of numeric columns |
+//! | [`diagnostic_sheet`] | four diagnostic panels on one sheet |
+
+mod canvas;
+mod charts_distribution;
+mod charts_fit;
+mod charts_residual;
+mod smoother;
+mod theme;
+
+pub use charts_distribution::{correlation_heatmap, histogram};
+pub use charts_fit::{coefficient_intervals, fit_line};
+pub use charts_residual::{diagnostic_sheet, leverage_plot, normal_qq, residuals_vs_fitted, scale_location};
+pub use smoother::lowess;
+pub use theme::format_tick;
+
+use crate::error::{Error, Result};
+
+/// Size of a chart in pixels. The default (720 × 440) fits a notebook column.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct PlotSize {
+    /// Width in pixels.
+    pub width: u32,
+    /// Height in pixels.
+    pub height: u32,
+}
+
+impl Default for PlotSize {
+    fn default() -> Self {
+        Self { width: 720, height: 440 }
+    }
+}
+
+/// An SVG chart.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Svg {
+    /// The complete `<svg>` document.
+    pub markup: String,
+    /// Its accessible title.
+    pub title: String,
+}
+
+impl Svg {
+    /// Wraps plotters' output, adding `<title>` and `<desc>` after the opening tag.
+    pub(crate) fn finish(markup: String, title: &str, description: &str) -> Result<Svg> {
+        let open = markup.find("<svg").and_then(|start| markup[start..].find('>').map(|end| start + end + 1));
+        let Some(at) = open else {
+            return Err(Error::Plot("the SVG backend produced no <svg> element".into()));
+        };
+        let mut out = String::with_capacity(markup.len() + title.len() + description.len() + 40);
+        out.push_str(&markup[..at]);
+        out.push_str(&format!("\n<title>{}</title>\n<desc>{}</desc>", escape(title), escape(description)));
+        out.push_str(&markup[at..]);
+        Ok(Svg { markup: out, title: title.to_string() })
+    }
+}
+
+/// Escapes text for XML content.
+pub(crate) fn escape(text: &str) -> String {
+    text.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+}
+
+/// Turns any plotters drawing error into ours.
+pub(crate) fn plot_error<E: std::fmt::Debug>(e: E) -> Error {
+    Error::Plot(format!("{e:?}"))
+}
