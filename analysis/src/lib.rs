@@ -43,6 +43,7 @@ pub mod numeric;
 pub mod plot;
 pub mod predict;
 pub mod render;
+pub mod value;
 
 pub use error::{Error, Result};
 

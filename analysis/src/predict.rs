@@ -40,6 +40,9 @@ pub struct Prediction {
     pub median_original: Option<f64>,
     /// For a logged target: Duan's smearing estimate of the mean on the original scale.
     pub mean_original: Option<f64>,
+    /// Term columns whose value lies outside the range seen in the fitting
+    /// data — the prediction extrapolates there and deserves a second look.
+    pub outside_range: Vec<String>,
 }
 
 /// Predictions for the rows of a frame, with the rows that could not be predicted.
@@ -71,8 +74,16 @@ impl Fit {
         } else {
             None
         };
+        let ranges = &self.design.recipe.numeric_ranges;
+        let raw: Vec<Vec<Option<f64>>> = ranges.iter().map(|(c, _, _)| frame.numeric_column(c)).collect::<Result<_>>()?;
         let mut predictions = Vec::with_capacity(rows.len());
         for (i, &row) in rows.iter().enumerate() {
+            let outside_range = ranges
+                .iter()
+                .zip(&raw)
+                .filter(|((_, lo, hi), values)| values[row].is_some_and(|v| v < *lo || v > *hi))
+                .map(|((c, _, _), _)| c.clone())
+                .collect();
             let x: Vec<f64> = kept.iter().map(|&j| columns[j].hi[i]).collect();
             let estimate: f64 = x.iter().zip(&self.solution.coefficients).map(|(a, b)| a * b).sum();
             let se_fit = quadratic_form(&self.covariance, &x).max(0.0).sqrt();
@@ -88,6 +99,7 @@ impl Fit {
                 pi_high: estimate + half_pi,
                 median_original: log_target.then(|| estimate.exp()),
                 mean_original: smearing.map(|s| estimate.exp() * s),
+                outside_range,
             });
         }
         let used: std::collections::BTreeSet<usize> = rows.iter().copied().collect();

@@ -19,6 +19,8 @@ pub enum Command {
     Fit(FitArgs),
     /// Compare candidate models on one data file: side by side, nested tests, cross-validation.
     Compare(CompareArgs),
+    /// Ratio study of values against sale prices: level, uniformity, vertical equity.
+    Ratio(RatioArgs),
     /// Score the solver on the NIST StRD linear-regression datasets (log relative error).
     Accuracy(AccuracyArgs),
 }
@@ -193,6 +195,41 @@ pub struct CompareArgs {
     /// Column identifying rows, used to place rows in folds.
     #[arg(long, value_name = "COL")]
     pub id: Option<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+    /// How to read the data file.
+    #[command(flatten)]
+    pub input: InputFlags,
+}
+
+/// Arguments of `plumbline ratio`.
+#[derive(Debug, Args)]
+pub struct RatioArgs {
+    /// Data file with one row per sale.
+    pub data: PathBuf,
+    /// Column of values (assessed or model values).
+    #[arg(long, value_name = "COL")]
+    pub value: String,
+    /// Column of (time-adjusted) sale prices.
+    #[arg(long, value_name = "COL")]
+    pub price: String,
+    /// One row of statistics per level of this column (e.g. district).
+    #[arg(long, value_name = "COL")]
+    pub group: Option<String>,
+    /// IQR multiplier of the outlier fences (1.5 usual, 3.0 extreme only).
+    #[arg(long, default_value_t = 1.5)]
+    pub trim: f64,
+    /// Keep every ratio (no outlier trimming).
+    #[arg(long)]
+    pub no_trim: bool,
+    /// Property class for the COD range: residential-homogeneous, residential-heterogeneous,
+    /// income-urban, income-rural, vacant-land, other.
+    #[arg(long, default_value = "residential-homogeneous")]
+    pub class: String,
+    /// Confidence level of the intervals.
+    #[arg(long, default_value_t = 0.95)]
+    pub level: f64,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,

@@ -10,6 +10,7 @@ fn main() -> ExitCode {
     let outcome = match cli.command {
         Command::Fit(args) => commands::fit::run(&args),
         Command::Compare(args) => commands::compare::run(&args),
+        Command::Ratio(args) => commands::ratio::run(&args),
         Command::Accuracy(args) => commands::accuracy::run(&args),
     };
     match outcome {

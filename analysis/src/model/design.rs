@@ -46,6 +46,9 @@ pub struct DesignRecipe {
     pub column_names: Vec<String>,
     /// Which design columns each term produced, in term order.
     pub term_spans: Vec<TermSpan>,
+    /// `(column, min, max)` of every numeric term column over the fitting rows,
+    /// so that predictions outside the data's range can be flagged.
+    pub numeric_ranges: Vec<(String, f64, f64)>,
 }
 
 /// The design columns one term produced.
@@ -256,7 +259,18 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
     if let Some(dup) = column_names.iter().enumerate().find(|(i, n)| column_names[..*i].contains(n)).map(|(_, n)| n) {
         return Err(Error::Specification(format!("the design column `{dup}` is generated twice; remove the repeated term")));
     }
-    let recipe = DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans };
+    let mut term_numeric = BTreeSet::new();
+    for term in spec.terms() {
+        numeric_columns_of(term, &mut term_numeric);
+    }
+    let numeric_ranges = term_numeric
+        .iter()
+        .map(|c| {
+            let v = &complete.numbers[c];
+            (c.clone(), v.iter().cloned().fold(f64::INFINITY, f64::min), v.iter().cloned().fold(f64::NEG_INFINITY, f64::max))
+        })
+        .collect();
+    let recipe = DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans, numeric_ranges };
     Ok(Design { columns, target, weights, rows_used: complete.rows, dropped: complete.dropped, recipe })
 }
 

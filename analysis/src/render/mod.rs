@@ -11,6 +11,7 @@ mod fit_report;
 mod frame_report;
 pub mod html;
 mod numbers;
+mod ratio_report;
 mod result_reports;
 mod text;
 
@@ -21,5 +22,6 @@ pub use export::{fit_csv, fit_markdown};
 pub use fit_report::{fit_html, fit_warnings, FitReport, VALUATION_CAUTION};
 pub use frame_report::{frame_html, frame_text, ProfileReport};
 pub use numbers::{format_column, format_p_value, format_significant, format_trimmed};
+pub use ratio_report::{ratio_html, ratio_text};
 pub use result_reports::AssumptionTests;
 pub use text::{fit_text, predictions_text};

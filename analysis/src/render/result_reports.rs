@@ -190,6 +190,11 @@ impl Report for Predictions {
                     r.push(p.median_original.map(|v| format_significant(v, 6)).unwrap_or_default());
                     r.push(p.mean_original.map(|v| format_significant(v, 6)).unwrap_or_default());
                 }
+                r.push(if p.outside_range.is_empty() {
+                    String::new()
+                } else {
+                    format!("<span style=\"color:#c24e2f\">outside fitted range: {}</span>", escape(&p.outside_range.join(", ")))
+                });
                 r
             })
             .collect();
@@ -197,7 +202,12 @@ impl Report for Predictions {
         if log_scale {
             header.extend(["median (original scale)", "mean (original scale)"]);
         }
-        table(&mut html, &header, &[true; 7], &rows);
+        header.push("check");
+        let mut numeric = vec![true; header.len()];
+        if let Some(last) = numeric.last_mut() {
+            *last = false;
+        }
+        table(&mut html, &header, &numeric, &rows);
         html.push_str(&format!("<div style=\"{CAUTION}\">{}</div>\n", escape(VALUATION_CAUTION)));
         card_end(&mut html);
         MimeBundle::text_and_html(text, html)

@@ -117,7 +117,22 @@ pub fn predictions_text(predictions: &Predictions) -> String {
         if let (Some(median), Some(mean)) = (p.median_original, p.mean_original) {
             out.push_str(&format!(" {:>12} {:>12}", format_significant(median, 6), format_significant(mean, 6)));
         }
+        if !p.outside_range.is_empty() {
+            out.push_str(" !");
+        }
         out.push('\n');
+    }
+    let extrapolated: Vec<String> = predictions
+        .rows
+        .iter()
+        .filter(|p| !p.outside_range.is_empty())
+        .map(|p| format!("row {} ({})", p.row, p.outside_range.join(", ")))
+        .collect();
+    if !extrapolated.is_empty() {
+        out.push_str(&format!(
+            "  ! outside the fitted data's range, so the model extrapolates: {}\n",
+            extrapolated.join("; ")
+        ));
     }
     if !predictions.skipped_rows.is_empty() {
         let listed: Vec<String> = predictions.skipped_rows.iter().take(20).map(usize::to_string).collect();

@@ -4,6 +4,7 @@
 pub mod accuracy;
 pub mod compare;
 pub mod fit;
+pub mod ratio;
 
 /// Why a subcommand failed.
 #[derive(Debug, thiserror::Error)]
