@@ -1,7 +1,9 @@
 #!/usr/bin/env bash
-# Runs every Plumbline test: Rust unit, integration, property and accuracy tests,
-# then the Python cross-checks against numpy/scipy. This is the command README.md
-# names and .ci/run calls. Idempotent; needs only a Rust toolchain and Python 3.
+# Runs every Plumbline test: Rust unit, integration, property, accuracy and
+# kernel-protocol tests, then the Python cross-checks (numpy/scipy/mpmath) and
+# the protocol conformance suite (jupyter_kernel_test, jupyter_client, nbclient).
+# This is the command README.md names and .ci/run calls. Idempotent; needs only
+# a Rust toolchain and Python 3 (and installs Debian's chromium when root).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 source install/lib.sh
@@ -9,7 +11,7 @@ source install/lib.sh
 require_rust
 require_python
 python_env
-step "installing the Python references (numpy, scipy, pytest, mpmath)"
+step "installing the Python references (numpy, scipy, pytest, mpmath, pillow, jupyter_client, nbclient…)"
 "$PY" -m pip install --quiet --disable-pip-version-check -r tests/python/requirements.txt
 
 check_reference_data
@@ -21,5 +23,5 @@ cargo build --workspace --all-targets --locked
 step "Rust tests"
 cargo test --workspace --locked
 
-step "Python cross-checks"
+step "Python cross-checks and protocol conformance"
 PLUMBLINE_BIN="$PWD/target/debug/plumbline" "$PY" -m pytest tests/python -q -p no:cacheprovider

@@ -26,9 +26,11 @@ pub fn reference_dir() -> PathBuf {
     dir
 }
 
-/// A fresh scratch folder for one test.
+/// A fresh scratch folder, unique to this call (tests run in parallel threads).
 pub fn scratch_dir(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("plumbline-test-{}-{name}", std::process::id()));
+    static CALLS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+    let call = CALLS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    let dir = std::env::temp_dir().join(format!("plumbline-test-{}-{call}-{name}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).expect("create scratch dir");
     dir

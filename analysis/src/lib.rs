@@ -60,5 +60,6 @@ pub mod prelude {
     pub use crate::inference::{Coefficient, FitStatistics, FitSummary};
     pub use crate::model::{ModelSpec, TargetTransform, Term, Transform};
     pub use crate::predict::{Prediction, Predictions};
+    pub use crate::render::{show, Report};
     pub use crate::{Error, Result};
 }

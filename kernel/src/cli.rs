@@ -15,6 +15,10 @@ pub struct Cli {
 /// Subcommands.
 #[derive(Debug, Subcommand)]
 pub enum Command {
+    /// Serve the notebook protocol (what the kernelspec starts).
+    Kernel(KernelArgs),
+    /// Register the kernelspec where notebook front ends find it, and warm the engine cache.
+    Install(InstallArgs),
     /// Fit a least-squares model to a CSV or Parquet file and print the result.
     Fit(FitArgs),
     /// Compare candidate models on one data file: side by side, nested tests, cross-validation.
@@ -236,6 +240,31 @@ pub struct RatioArgs {
     /// How to read the data file.
     #[command(flatten)]
     pub input: InputFlags,
+}
+
+/// Arguments of `plumbline kernel`.
+#[derive(Debug, Args)]
+pub struct KernelArgs {
+    /// The connection file written by the front end.
+    #[arg(long)]
+    pub connection_file: PathBuf,
+}
+
+/// Arguments of `plumbline install`.
+#[derive(Debug, Args)]
+pub struct InstallArgs {
+    /// Install for the current user (the default).
+    #[arg(long, conflicts_with = "prefix")]
+    pub user: bool,
+    /// Install under PREFIX/share/jupyter/kernels (e.g. a virtual environment).
+    #[arg(long, value_name = "PREFIX")]
+    pub prefix: Option<PathBuf>,
+    /// Remove the kernelspec instead.
+    #[arg(long)]
+    pub uninstall: bool,
+    /// Skip compiling the engine's dependency cache.
+    #[arg(long)]
+    pub no_warm: bool,
 }
 
 /// Arguments of `plumbline accuracy`.

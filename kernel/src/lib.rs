@@ -6,6 +6,14 @@
 //! | [`cli`] | argument definitions (clap) |
 //! | [`commands::fit`] | `plumbline fit`: fit a model to a data file, print text or JSON |
 //! | [`commands::accuracy`] | `plumbline accuracy`: the NIST StRD log-relative-error table |
+//! | [`commands::compare`], [`commands::ratio`] | model comparison; ratio studies |
+//! | [`commands::kernel`], [`commands::install`] | the notebook kernel and its kernelspec |
+//! | [`wire`] | connection file, framing, HMAC signing |
+//! | [`server`] | the five sockets and every request |
+//! | [`eval`] | the evcxr session with `plumbline` preloaded |
 
 pub mod cli;
 pub mod commands;
+pub mod eval;
+pub mod server;
+pub mod wire;

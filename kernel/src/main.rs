@@ -6,8 +6,13 @@ use plumbline_kernel::commands;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
+    // The evaluation engine runs cells in a child copy of this same program;
+    // this call turns such a child into the engine's runtime and never returns there.
+    evcxr::runtime_hook();
     let cli = Cli::parse();
     let outcome = match cli.command {
+        Command::Kernel(args) => commands::kernel::run(&args),
+        Command::Install(args) => commands::install::run(&args),
         Command::Fit(args) => commands::fit::run(&args),
         Command::Compare(args) => commands::compare::run(&args),
         Command::Ratio(args) => commands::ratio::run(&args),

@@ -15,7 +15,7 @@ mod ratio_report;
 mod result_reports;
 mod text;
 
-pub use bundle::{emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, FIT_JSON_MIME};
+pub use bundle::{emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, FIT_JSON_MIME, KERNEL_DISPLAY_ENV, KERNEL_DISPLAY_MARKER};
 pub use diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
 pub use explain::{explanations, Explained};
 pub use export::{fit_csv, fit_markdown};

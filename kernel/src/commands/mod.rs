@@ -4,6 +4,8 @@
 pub mod accuracy;
 pub mod compare;
 pub mod fit;
+pub mod install;
+pub mod kernel;
 pub mod ratio;
 
 /// Why a subcommand failed.

@@ -1,0 +1,75 @@
+//! `plumbline install`: the kernelspec that notebook front ends find, and the
+//! warm-up of the evaluation engine's build cache.
+
+use super::CommandError;
+use crate::cli::InstallArgs;
+use crate::eval::{EngineConfig, Session};
+use std::path::PathBuf;
+
+/// Directory name of our kernelspec.
+pub const KERNEL_NAME: &str = "plumbline";
+
+const LOGO_32: &[u8] = include_bytes!("../../assets/logo-32x32.png");
+const LOGO_64: &[u8] = include_bytes!("../../assets/logo-64x64.png");
+const LOGO_SVG: &[u8] = include_bytes!("../../assets/logo-svg.svg");
+
+fn kernels_dir(args: &InstallArgs) -> Result<PathBuf, CommandError> {
+    if let Some(prefix) = &args.prefix {
+        return Ok(prefix.join("share").join("jupyter").join("kernels"));
+    }
+    if let Some(data) = std::env::var_os("JUPYTER_DATA_DIR") {
+        return Ok(PathBuf::from(data).join("kernels"));
+    }
+    let home = std::env::var_os("HOME")
+        .ok_or_else(|| CommandError::Usage("HOME is not set; pass --prefix DIR to choose where the kernelspec goes".into()))?;
+    let base = if cfg!(target_os = "macos") {
+        PathBuf::from(home).join("Library").join("Jupyter")
+    } else {
+        PathBuf::from(home).join(".local").join("share").join("jupyter")
+    };
+    Ok(base.join("kernels"))
+}
+
+/// Runs `plumbline install`.
+pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
+    let dir = kernels_dir(args)?.join(KERNEL_NAME);
+    let io = |what: &str, e: std::io::Error| CommandError::Usage(format!("{what} `{}`: {e}", dir.display()));
+    if args.uninstall {
+        if dir.exists() {
+            std::fs::remove_dir_all(&dir).map_err(|e| io("cannot remove", e))?;
+            return Ok(format!("removed the Plumbline kernelspec from {}\n", dir.display()));
+        }
+        return Ok(format!("no Plumbline kernelspec at {} — nothing to remove\n", dir.display()));
+    }
+    let exe = std::env::current_exe().map_err(|e| CommandError::Usage(format!("cannot locate this program: {e}")))?;
+    let spec = serde_json::json!({
+        "argv": [exe.display().to_string(), "kernel", "--connection-file", "{connection_file}"],
+        "display_name": "Plumbline (Rust)",
+        "language": "rust",
+        "interrupt_mode": "message",
+        "metadata": { "plumbline_version": env!("CARGO_PKG_VERSION") },
+    });
+    std::fs::create_dir_all(&dir).map_err(|e| io("cannot create", e))?;
+    let text = serde_json::to_string_pretty(&spec).map_err(|e| CommandError::Usage(e.to_string()))?;
+    std::fs::write(dir.join("kernel.json"), text + "\n").map_err(|e| io("cannot write kernel.json in", e))?;
+    for (name, bytes) in [("logo-32x32.png", LOGO_32), ("logo-64x64.png", LOGO_64), ("logo-svg.svg", LOGO_SVG)] {
+        std::fs::write(dir.join(name), bytes).map_err(|e| io("cannot write a logo in", e))?;
+    }
+    let mut out = format!("installed the Plumbline kernelspec in {}\n", dir.display());
+    if !args.no_warm {
+        let config = EngineConfig::from_environment();
+        eprintln!(
+            "warming the evaluation engine in {} (the first time compiles plumbline and its dependencies; minutes)…",
+            config.build_dir.display()
+        );
+        let (lines, mut sink) = tokio::sync::mpsc::unbounded_channel();
+        let session = Session::start(config.clone(), lines);
+        let outcome = session.execute("plumbline_session_ready");
+        sink.close();
+        if let Some(error) = outcome.error {
+            return Err(CommandError::Usage(format!("the engine warm-up failed: {}", error.traceback.join("\n"))));
+        }
+        out.push_str(&format!("engine cache ready in {} (delete it to rebuild)\n", config.build_dir.display()));
+    }
+    Ok(out)
+}

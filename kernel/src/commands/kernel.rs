@@ -1,0 +1,17 @@
+//! `plumbline kernel --connection-file F`: what the kernelspec starts.
+
+use super::CommandError;
+use crate::cli::KernelArgs;
+use crate::wire::ConnectionFile;
+
+/// Serves the notebook protocol until shutdown.
+pub fn run(args: &KernelArgs) -> Result<String, CommandError> {
+    let connection = ConnectionFile::read(&args.connection_file).map_err(|e| CommandError::Usage(e.to_string()))?;
+    let runtime = tokio::runtime::Builder::new_multi_thread()
+        .worker_threads(2)
+        .enable_all()
+        .build()
+        .map_err(|e| CommandError::Usage(format!("cannot start the async runtime: {e}")))?;
+    runtime.block_on(crate::server::serve(connection)).map_err(|e| CommandError::Usage(e.to_string()))?;
+    Ok(String::new())
+}

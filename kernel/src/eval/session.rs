@@ -1,0 +1,359 @@
+//! The engine session thread.
+
+use super::diagnostics;
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+use std::process::Child;
+use std::sync::mpsc;
+use std::sync::{Arc, Mutex};
+use std::time::Duration;
+
+/// MIME type our panic hook uses to report a panic as content.
+const PANIC_MIME: &str = "application/vnd.plumbline.panic+text";
+
+/// Where and how the engine builds.
+#[derive(Debug, Clone)]
+pub struct EngineConfig {
+    /// Path of the `plumbline` analysis crate to preload.
+    pub analysis_path: PathBuf,
+    /// The engine's build directory (kept between kernels so the dependency
+    /// build happens once).
+    pub build_dir: PathBuf,
+    /// Optimisation level of cells and dependencies (`0`–`3`); `None` keeps the
+    /// engine's default (2).
+    pub opt_level: Option<String>,
+}
+
+impl EngineConfig {
+    /// The defaults: the analysis crate this kernel was built from (or
+    /// `$PLUMBLINE_ANALYSIS_PATH`), the build directory
+    /// `$PLUMBLINE_ENGINE_DIR` or `~/.cache/plumbline/engine-<version>`, and
+    /// `$PLUMBLINE_ENGINE_OPT` as the optimisation level.
+    pub fn from_environment() -> Self {
+        let analysis_path = std::env::var_os("PLUMBLINE_ANALYSIS_PATH")
+            .map(PathBuf::from)
+            .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..").join("analysis"));
+        let analysis_path = analysis_path.canonicalize().unwrap_or(analysis_path);
+        let build_dir = std::env::var_os("PLUMBLINE_ENGINE_DIR").map(PathBuf::from).unwrap_or_else(|| {
+            let home = std::env::var_os("HOME").map(PathBuf::from).unwrap_or_else(std::env::temp_dir);
+            home.join(".cache").join("plumbline").join(format!("engine-{}", env!("CARGO_PKG_VERSION")))
+        });
+        let opt_level = std::env::var("PLUMBLINE_ENGINE_OPT").ok().filter(|s| !s.is_empty());
+        Self { analysis_path, build_dir, opt_level }
+    }
+}
+
+/// A line of cell output.
+#[derive(Debug, Clone)]
+pub struct StreamLine {
+    /// `stdout` or `stderr`.
+    pub name: &'static str,
+    /// The text, newline included.
+    pub text: String,
+}
+
+/// A failed cell, in the protocol's terms.
+#[derive(Debug, Clone)]
+pub struct CellError {
+    /// Short error name.
+    pub ename: String,
+    /// One-line description.
+    pub evalue: String,
+    /// Lines to show.
+    pub traceback: Vec<String>,
+}
+
+/// What a cell produced.
+#[derive(Debug, Clone, Default)]
+pub struct ExecOutcome {
+    /// The last value's MIME bundle (empty when the cell ends in a statement).
+    pub data: BTreeMap<String, String>,
+    /// The error, if the cell failed.
+    pub error: Option<CellError>,
+}
+
+/// Completion candidates.
+#[derive(Debug, Clone, Default)]
+pub struct CompleteOutcome {
+    /// Candidate texts.
+    pub matches: Vec<String>,
+    /// Byte offset where the replaced text starts.
+    pub cursor_start: usize,
+    /// Byte offset where it ends.
+    pub cursor_end: usize,
+}
+
+enum Request {
+    Execute { code: String, reply: mpsc::Sender<ExecOutcome> },
+    Complete { code: String, cursor: usize, reply: mpsc::Sender<CompleteOutcome> },
+    Inspect { code: String, cursor: usize, reply: mpsc::Sender<Option<(String, String)>> },
+}
+
+/// Stops the running cell by killing the engine's worker process.
+#[derive(Clone, Default)]
+pub struct Interrupter {
+    child: Arc<Mutex<Option<Arc<Mutex<Child>>>>>,
+}
+
+impl Interrupter {
+    /// Kills the worker; the engine restarts it and its variables are lost.
+    pub fn interrupt(&self) -> bool {
+        let child = match self.child.lock() {
+            Ok(slot) => slot.clone(),
+            Err(_) => return false,
+        };
+        let Some(child) = child else { return false };
+        let killed = match child.lock() {
+            Ok(mut process) => process.kill().is_ok(),
+            Err(_) => false,
+        };
+        killed
+    }
+}
+
+/// Handle to the engine thread.
+pub struct Session {
+    requests: mpsc::Sender<Request>,
+    interrupter: Interrupter,
+}
+
+impl Session {
+    /// Starts the engine thread; it prepares the session (preloading
+    /// `plumbline`) before taking the first request. `streams` receives cell
+    /// output lines as they are printed.
+    pub fn start(config: EngineConfig, streams: tokio::sync::mpsc::UnboundedSender<StreamLine>) -> Session {
+        let (requests, inbox) = mpsc::channel::<Request>();
+        let interrupter = Interrupter::default();
+        let slot = interrupter.clone();
+        std::thread::Builder::new()
+            .name("plumbline-engine".into())
+            .spawn(move || engine_thread(config, inbox, streams, slot))
+            .expect("spawn the engine thread");
+        Session { requests, interrupter }
+    }
+
+    /// The interrupter for this session.
+    pub fn interrupter(&self) -> Interrupter {
+        self.interrupter.clone()
+    }
+
+    /// Runs a cell, blocking until it finishes.
+    pub fn execute(&self, code: &str) -> ExecOutcome {
+        let (reply, answer) = mpsc::channel();
+        if self.requests.send(Request::Execute { code: code.to_string(), reply }).is_err() {
+            return engine_gone();
+        }
+        answer.recv().unwrap_or_else(|_| engine_gone())
+    }
+
+    /// Completion candidates at byte offset `cursor`.
+    pub fn complete(&self, code: &str, cursor: usize) -> CompleteOutcome {
+        let (reply, answer) = mpsc::channel();
+        if self.requests.send(Request::Complete { code: code.to_string(), cursor, reply }).is_err() {
+            return CompleteOutcome { cursor_start: cursor, cursor_end: cursor, ..Default::default() };
+        }
+        answer.recv().unwrap_or_default()
+    }
+
+    /// `(plain, html)` documentation of the item at byte offset `cursor`.
+    pub fn inspect(&self, code: &str, cursor: usize) -> Option<(String, String)> {
+        let (reply, answer) = mpsc::channel();
+        self.requests.send(Request::Inspect { code: code.to_string(), cursor, reply }).ok()?;
+        answer.recv().ok().flatten()
+    }
+}
+
+fn engine_gone() -> ExecOutcome {
+    ExecOutcome {
+        data: BTreeMap::new(),
+        error: Some(CellError {
+            ename: "EngineStopped".into(),
+            evalue: "the evaluation engine stopped; restart the kernel".into(),
+            traceback: vec!["The evaluation engine stopped; restart the kernel to continue.".into()],
+        }),
+    }
+}
+
+fn failure(ename: &str, evalue: String, traceback: Vec<String>) -> ExecOutcome {
+    ExecOutcome { data: BTreeMap::new(), error: Some(CellError { ename: ename.into(), evalue, traceback }) }
+}
+
+/// Checks that cargo and rustc are on the PATH (the engine compiles cells with them).
+fn toolchain_problem() -> Option<String> {
+    for tool in ["cargo", "rustc"] {
+        let ok = std::process::Command::new(tool).arg("--version").output().map(|o| o.status.success()).unwrap_or(false);
+        if !ok {
+            return Some(format!(
+                "`{tool}` was not found or does not run. Plumbline cells are compiled Rust: install the Rust toolchain \
+                 with rustup (https://rustup.rs), make sure `{tool}` is on the PATH of the notebook server, and restart the kernel."
+            ));
+        }
+    }
+    None
+}
+
+fn engine_thread(
+    config: EngineConfig,
+    inbox: mpsc::Receiver<Request>,
+    streams: tokio::sync::mpsc::UnboundedSender<StreamLine>,
+    interrupter: Interrupter,
+) {
+    let startup = start_engine(&config, &streams, &interrupter);
+    let (mut ctx, stdout, stderr) = match startup {
+        Ok(parts) => parts,
+        Err(message) => {
+            // Every request gets the startup problem as its answer.
+            for request in inbox {
+                match request {
+                    Request::Execute { reply, .. } => {
+                        let _ = reply.send(failure("EngineUnavailable", message.clone(), vec![message.clone()]));
+                    }
+                    Request::Complete { cursor, reply, .. } => {
+                        let _ = reply.send(CompleteOutcome { cursor_start: cursor, cursor_end: cursor, ..Default::default() });
+                    }
+                    Request::Inspect { reply, .. } => {
+                        let _ = reply.send(None);
+                    }
+                }
+            }
+            return;
+        }
+    };
+    let drain = |streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>| {
+        std::thread::sleep(Duration::from_millis(30));
+        while let Ok(line) = stdout.try_recv() {
+            let _ = streams.send(StreamLine { name: "stdout", text: line + "\n" });
+        }
+        while let Ok(line) = stderr.try_recv() {
+            let _ = streams.send(StreamLine { name: "stderr", text: line + "\n" });
+        }
+    };
+    for request in inbox {
+        match request {
+            Request::Execute { code, reply } => {
+                let before: Vec<String> = ctx.variables_and_types().map(|(n, _)| n.to_string()).collect();
+                let result = ctx.execute(&code);
+                drain(&streams);
+                if let Ok(mut slot) = interrupter.child.lock() {
+                    *slot = Some(ctx.process_handle());
+                }
+                let outcome = match result {
+                    Ok(outputs) => {
+                        let mut data: BTreeMap<String, String> = outputs.content_by_mime_type.into_iter().collect();
+                        match data.remove(PANIC_MIME) {
+                            Some(panic) => {
+                                let message = panic.lines().skip(1).collect::<Vec<_>>().join("\n");
+                                let message = if message.is_empty() { panic.clone() } else { message };
+                                failure("panic", message.clone(), vec![format!("The cell panicked: {message}"), "Variables from earlier cells are kept.".into()])
+                            }
+                            None => ExecOutcome { data, error: None },
+                        }
+                    }
+                    Err(evcxr::Error::CompilationErrors(errors)) => {
+                        let mut traceback = Vec::new();
+                        for e in errors.iter().filter(|e| e.is_from_user_code() || errors.len() == 1) {
+                            traceback.extend(diagnostics::render(e, &code));
+                        }
+                        if traceback.is_empty() {
+                            for e in &errors {
+                                traceback.extend(diagnostics::render(e, &code));
+                            }
+                        }
+                        let first = errors.first().map(|e| e.message()).unwrap_or_default();
+                        failure("CompileError", first, traceback)
+                    }
+                    Err(evcxr::Error::SubprocessTerminated(reason)) => {
+                        let lost = if before.is_empty() { "none".to_string() } else { before.join(", ") };
+                        failure(
+                            "Interrupted",
+                            format!("the cell was stopped ({reason})"),
+                            vec![
+                                "The cell was stopped and the evaluation process restarted.".into(),
+                                format!("Variables lost: {lost}. Functions, types and `use` lines are kept."),
+                                "Rerun the cells that defined the variables you still need.".into(),
+                            ],
+                        )
+                    }
+                    Err(evcxr::Error::TypeRedefinedVariablesLost(names)) => failure(
+                        "VariablesLost",
+                        format!("redefining a type dropped variables: {}", names.join(", ")),
+                        vec![format!("Redefining a type dropped these variables: {}.", names.join(", "))],
+                    ),
+                    Err(other) => {
+                        let text = other.to_string();
+                        failure("Error", text.lines().next().unwrap_or("").to_string(), text.lines().map(str::to_string).collect())
+                    }
+                };
+                let _ = reply.send(outcome);
+            }
+            Request::Complete { code, cursor, reply } => {
+                let outcome = match ctx.completions(&code, cursor.min(code.len())) {
+                    Ok(c) => CompleteOutcome {
+                        matches: c.completions.into_iter().map(|x| x.code).collect(),
+                        cursor_start: c.start_offset,
+                        cursor_end: c.end_offset,
+                    },
+                    Err(_) => CompleteOutcome { cursor_start: cursor, cursor_end: cursor, ..Default::default() },
+                };
+                let _ = reply.send(outcome);
+            }
+            Request::Inspect { code, cursor, reply } => {
+                let answer = ctx.hover_at(&code, cursor.min(code.len())).ok().filter(|(plain, _)| !plain.trim().is_empty());
+                let _ = reply.send(answer);
+            }
+        }
+    }
+}
+
+type EngineParts = (evcxr::CommandContext, crossbeam_channel::Receiver<String>, crossbeam_channel::Receiver<String>);
+
+fn start_engine(
+    config: &EngineConfig,
+    streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>,
+    interrupter: &Interrupter,
+) -> Result<EngineParts, String> {
+    if let Some(problem) = toolchain_problem() {
+        return Err(problem);
+    }
+    std::fs::create_dir_all(&config.build_dir)
+        .map_err(|e| format!("cannot create the engine build directory `{}`: {e}", config.build_dir.display()))?;
+    let config_dir = config.build_dir.join("config");
+    let _ = std::fs::create_dir_all(&config_dir);
+    // SAFETY-free: set before the engine reads them, on this thread, before any other engine call.
+    unsafe {
+        std::env::set_var("EVCXR_TMPDIR", config.build_dir.join("work"));
+        std::env::set_var("EVCXR_CONFIG_DIR", &config_dir);
+    }
+    let (eval_context, outputs) =
+        evcxr::EvalContext::new().map_err(|e| format!("the evaluation engine did not start: {e}"))?;
+    let mut ctx = evcxr::CommandContext::with_eval_context(eval_context);
+    let (stdout, stderr) = (outputs.stdout, outputs.stderr);
+    for (name, channel) in [("stdout", stdout.clone()), ("stderr", stderr.clone())] {
+        let streams = streams.clone();
+        let name: &'static str = if name == "stdout" { "stdout" } else { "stderr" };
+        std::thread::spawn(move || {
+            while let Ok(line) = channel.recv() {
+                if streams.send(StreamLine { name, text: line + "\n" }).is_err() {
+                    break;
+                }
+            }
+        });
+    }
+    let mut prelude: Vec<String> = Vec::new();
+    if let Some(level) = &config.opt_level {
+        prelude.push(format!(":opt {level}"));
+    }
+    prelude.push(format!(":dep plumbline = {{ path = \"{}\" }}", config.analysis_path.display().to_string().replace('\\', "/")));
+    prelude.push("use plumbline::prelude::*;".into());
+    prelude.push(format!(
+        "std::panic::set_hook(Box::new(|info| {{ println!(\"EVCXR_BEGIN_CONTENT {PANIC_MIME}\\n{{}}\\nEVCXR_END_CONTENT\", info); }}));"
+    ));
+    prelude.push("let plumbline_session_ready = true;".into());
+    for command in &prelude {
+        ctx.execute(command).map_err(|e| format!("preparing the session failed at `{command}`: {e}"))?;
+    }
+    if let Ok(mut slot) = interrupter.child.lock() {
+        *slot = Some(ctx.process_handle());
+    }
+    Ok((ctx, stdout, stderr))
+}
