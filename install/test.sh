@@ -20,6 +20,13 @@ require_chromium
 step "building the workspace"
 cargo build --workspace --all-targets --locked
 
+# The evaluation engine's build directory for the tests: compiled once per run
+# (at optimisation level 0 to keep CI short), shared by every kernel test.
+export PLUMBLINE_ENGINE_DIR="$PWD/target/engine-test"
+export PLUMBLINE_ENGINE_OPT=0
+step "warming the evaluation engine (compiles plumbline inside the engine once)"
+./target/debug/plumbline install --prefix target/kernelspec
+
 step "Rust tests"
 cargo test --workspace --locked
 

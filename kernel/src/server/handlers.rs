@@ -145,9 +145,10 @@ pub(crate) async fn shell(shared: &std::sync::Arc<Shared>, request: &Message) ->
             Some(request.child("inspect_reply", content))
         }
         "history_request" => {
+            let with_output = c.get("output").and_then(Value::as_bool).unwrap_or(false);
             let history = shared.history.lock().map(|h| {
                 let n = c.get("n").and_then(Value::as_u64).unwrap_or(10) as usize;
-                match c.get("hist_access_type").and_then(Value::as_str).unwrap_or("tail") {
+                let cells = match c.get("hist_access_type").and_then(Value::as_str).unwrap_or("tail") {
                     "range" => h.range(
                         c.get("start").and_then(Value::as_i64).unwrap_or(0),
                         c.get("stop").and_then(Value::as_i64).unwrap_or(0),
@@ -158,9 +159,14 @@ pub(crate) async fn shell(shared: &std::sync::Arc<Shared>, request: &Message) ->
                         c.get("unique").and_then(Value::as_bool).unwrap_or(false),
                     ),
                     _ => h.tail(n),
-                }
+                };
+                // With `output`, each entry carries (input, output) as the protocol asks.
+                cells
+                    .into_iter()
+                    .map(|(count, code)| if with_output { json!([0, count, [code, h.output(count)]]) } else { json!([0, count, code]) })
+                    .collect::<Vec<Value>>()
             });
-            let entries: Vec<Value> = history.unwrap_or_default().into_iter().map(|(count, code)| json!([0, count, code])).collect();
+            let entries: Vec<Value> = history.unwrap_or_default();
             Some(request.child("history_reply", json!({ "status": "ok", "history": entries })))
         }
         "comm_info_request" => Some(request.child("comm_info_reply", json!({ "status": "ok", "comms": {} }))),
@@ -250,6 +256,11 @@ async fn execute(shared: &std::sync::Arc<Shared>, request: &Message) -> (Message
             object.insert("execution_count".into(), json!(count));
         }
         return (request.child("execute_reply", reply), true);
+    }
+    if store_history {
+        if let (Ok(mut h), Some(text)) = (shared.history.lock(), outcome.data.get("text/plain")) {
+            h.set_output(count, text);
+        }
     }
     if !silent && !outcome.data.is_empty() {
         let data: Map<String, Value> = outcome.data.into_iter().map(|(k, v)| (k.clone(), mime_value(&k, v))).collect();

@@ -1,15 +1,26 @@
 //! This kernel's cell history, for `history_request`.
 
-/// Cells run in this kernel, in order.
+/// Cells run in this kernel, in order, with their text output.
 #[derive(Debug, Default)]
 pub struct History {
     cells: Vec<(u64, String)>,
+    outputs: std::collections::HashMap<u64, String>,
 }
 
 impl History {
     /// Records a cell under its execution count.
     pub fn push(&mut self, count: u64, code: &str) {
         self.cells.push((count, code.to_string()));
+    }
+
+    /// Records the plain-text result of cell `count`.
+    pub fn set_output(&mut self, count: u64, text: &str) {
+        self.outputs.insert(count, text.to_string());
+    }
+
+    /// The recorded output of cell `count` (empty when it had none).
+    pub fn output(&self, count: u64) -> String {
+        self.outputs.get(&count).cloned().unwrap_or_default()
     }
 
     /// The last `n` cells.
@@ -41,13 +52,13 @@ fn glob(pattern: &str, text: &str) -> bool {
     let t: Vec<char> = text.chars().collect();
     let (mut pi, mut ti, mut star, mut mark) = (0, 0, None, 0);
     while ti < t.len() {
-        if pi < p.len() && (p[pi] == '?' || p[pi] == t[ti]) {
-            pi += 1;
-            ti += 1;
-        } else if pi < p.len() && p[pi] == '*' {
+        if pi < p.len() && p[pi] == '*' {
             star = Some(pi);
             mark = ti;
             pi += 1;
+        } else if pi < p.len() && (p[pi] == '?' || p[pi] == t[ti]) {
+            pi += 1;
+            ti += 1;
         } else if let Some(s) = star {
             pi = s + 1;
             mark += 1;
@@ -76,5 +87,8 @@ mod tests {
         assert_eq!(h.range(2, 4).iter().map(|c| c.0).collect::<Vec<_>>(), vec![2, 3]);
         assert_eq!(h.search("a + *", 10, false).len(), 2);
         assert_eq!(h.search("fit*", 10, false)[0].0, 3);
+        // A `*` in the pattern is a wildcard even where the text has a literal `*`.
+        h.push(5, "6 * 7");
+        assert_eq!(h.search("6 *", 10, false).len(), 1);
     }
 }

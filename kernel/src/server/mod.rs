@@ -173,8 +173,10 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
     // Stdin is bound so that clients can connect; cells never request input.
     tokio::spawn(async move { while stdin.recv().await.is_ok() {} });
 
-    // Shell, in order.
-    let mut aborting_until: Option<std::time::Instant> = None;
+    // Shell, in order. When a cell fails with stop_on_error, execute requests
+    // that were sent before that failure was answered (queued behind it) are
+    // aborted; requests sent afterwards run normally.
+    let mut failed_at: Option<chrono::DateTime<chrono::Utc>> = None;
     loop {
         let raw = match shell.recv().await {
             Ok(raw) => raw,
@@ -184,14 +186,17 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
             }
         };
         let Some(request) = handlers::decode(&shared, to_frames(raw)) else { continue };
-        let abort = aborting_until.is_some_and(|t| std::time::Instant::now() < t) && request.header.msg_type == "execute_request";
+        let sent = chrono::DateTime::parse_from_rfc3339(&request.header.date).ok().map(|d| d.with_timezone(&chrono::Utc));
+        let queued_behind_failure = matches!((failed_at, sent), (Some(f), Some(s)) if s < f);
+        let abort = queued_behind_failure && request.header.msg_type == "execute_request";
         let (replies, failed_with_stop) = if abort {
             (vec![handlers::aborted(&shared, &request)], false)
         } else {
             handlers::shell(&shared, &request).await
         };
-        // After a failing cell with stop_on_error, requests already queued behind it are aborted.
-        aborting_until = if failed_with_stop { Some(std::time::Instant::now() + std::time::Duration::from_millis(200)) } else if abort { aborting_until } else { None };
+        if failed_with_stop {
+            failed_at = Some(chrono::Utc::now());
+        }
         for reply in replies {
             if let Some(frames) = to_zmq(reply.encode(&shared.signer)) {
                 let _ = shell.send(frames).await;

@@ -1,0 +1,107 @@
+"""Conformance of the Plumbline kernel with the Jupyter messaging protocol, checked by
+the protocol project's own harness (jupyter_kernel_test, from PyPI) and by
+jupyter_client's blocking client and nbclient running a notebook.
+
+The kernelspec is installed into a scratch prefix with `plumbline install`; the
+engine's build directory is shared with the Rust kernel test ($PLUMBLINE_ENGINE_DIR).
+"""
+import os
+import pathlib
+import subprocess
+import tempfile
+import unittest
+
+import jupyter_kernel_test
+import nbformat
+from jupyter_client.manager import start_new_kernel
+from nbclient import NotebookClient
+
+from conftest import REPO, plumbline_binary
+
+PREFIX = pathlib.Path(tempfile.mkdtemp(prefix="plumbline-kernelspec-"))
+os.environ.setdefault("PLUMBLINE_ENGINE_DIR", str(REPO / "target" / "engine-test"))
+os.environ.setdefault("PLUMBLINE_ENGINE_OPT", "0")
+_installed = subprocess.run([str(plumbline_binary()), "install", "--prefix", str(PREFIX), "--no-warm"],
+                            capture_output=True, text=True)
+assert _installed.returncode == 0, _installed.stderr
+os.environ["JUPYTER_PATH"] = str(PREFIX / "share" / "jupyter") + os.pathsep + os.environ.get("JUPYTER_PATH", "")
+TIMEOUT = 1800  # the first cell of a fresh engine directory compiles plumbline
+
+SVG = '<svg xmlns=\\"http://www.w3.org/2000/svg\\" width=\\"10\\" height=\\"10\\"></svg>'
+
+
+class PlumblineKernelTests(jupyter_kernel_test.KernelTests):
+    kernel_name = "plumbline"
+    language_name = "rust"
+    file_extension = ".rs"
+    timeout = TIMEOUT
+
+    code_hello_world = 'println!("hello, world");'
+    code_stderr = 'eprintln!("a note on stderr");'
+    code_execute_result = [{"code": "6 * 7", "result": "42"}]
+    code_display_data = [
+        {"code": 'show(&plumbline::plot::Svg { markup: "' + SVG + '".to_string(), title: "t".to_string() });',
+         "mime": "image/svg+xml"},
+    ]
+    complete_code_samples = ["let x = 1;", "fn f() { 1 }"]
+    incomplete_code_samples = ["fn f() {", "let v = vec![1,"]
+    invalid_code_samples = ["let x = 1; }"]
+    completion_samples = [{"text": "plumbline_session_rea", "matches": {"plumbline_session_ready"}}]
+    code_history_pattern = "6 *"
+    supported_history_operations = ("tail", "range", "search")
+    code_inspect_sample = "load"
+
+    @classmethod
+    def setUpClass(cls):
+        cls.km, cls.kc = start_new_kernel(kernel_name=cls.kernel_name, startup_timeout=120)
+        # Warm the engine before the harness's own timeouts apply.
+        cls.kc.execute_interactive("1", timeout=TIMEOUT)
+
+    def test_error_has_cell_coordinates(self):
+        reply, output_msgs = self.execute_helper(code='let s: i32 = "text";', timeout=TIMEOUT)
+        self.assertEqual(reply["content"]["status"], "error")
+        self.assertIn("cell line 1", "\n".join(reply["content"]["traceback"]))
+
+
+def test_a_fit_cell_sends_an_svg_display():
+    km, kc = start_new_kernel(kernel_name="plumbline", startup_timeout=120)
+    try:
+        data = REPO / "notebooks-demo" / "data" / "sales.csv"
+        outputs = []
+        code = (
+            f'let sales = load("{data}").unwrap();\n'
+            'let spec = ModelSpec::new("sale_price").log_target().term(Term::numeric("living_area").log()).numeric("age");\n'
+            "let model = fit(&sales, &spec).unwrap();\n"
+            "show(&plumbline::plot::residuals_vs_fitted(&model, Default::default()).unwrap());\n"
+            "model.report(0.95)"
+        )
+        reply = kc.execute_interactive(code, timeout=TIMEOUT, output_hook=outputs.append)
+        assert reply["content"]["status"] == "ok", reply["content"]
+        kinds = {m["msg_type"]: m["content"] for m in outputs}
+        assert "image/svg+xml" in kinds["display_data"]["data"]
+        result = kinds["execute_result"]["data"]
+        assert "text/html" in result and "application/vnd.plumbline.fit+json" in result
+    finally:
+        kc.stop_channels()
+        km.shutdown_kernel(now=True)
+
+
+def test_nbclient_runs_a_notebook():
+    data = REPO / "notebooks-demo" / "data"
+    cells = [
+        f'let sales = load("{data / "sales.csv"}").unwrap();\nsales.height()',
+        'let spec = ModelSpec::new("sale_price").log_target()\n'
+        '    .term(Term::numeric("living_area").log()).numeric("age").category("district");',
+        "let model = fit(&sales, &spec).unwrap();\nmodel.report(0.95)",
+        "plumbline::plot::diagnostic_sheet(&model, Default::default()).unwrap()",
+        f'let subjects = load("{data / "subjects.csv"}").unwrap();\nmodel.predict(&subjects, 0.95).unwrap()',
+        "model.explain(0.95)",
+    ]
+    nb = nbformat.v4.new_notebook()
+    nb.cells = [nbformat.v4.new_code_cell(c) for c in cells]
+    nb.metadata["kernelspec"] = {"name": "plumbline", "display_name": "Plumbline (Rust)", "language": "rust"}
+    client = NotebookClient(nb, kernel_name="plumbline", timeout=TIMEOUT, startup_timeout=120)
+    client.execute()
+    for cell in nb.cells:
+        assert not any(o.get("output_type") == "error" for o in cell.outputs), cell.outputs
+    assert any("image/svg+xml" in o.get("data", {}) for o in nb.cells[3].outputs)
