@@ -1,0 +1,70 @@
+#!/usr/bin/env python3
+"""Kernel latency benchmark: prints figures, asserts nothing.
+
+Measures, each as median and worst of several runs:
+  1. kernel start -> kernel_info reply;
+  2. first cell using plumbline in a fresh kernel (engine cache already warm);
+  3. warm trivial cells (`1 + 1`);
+  4. warm fit cells (a log-price model on the demo sales).
+Targets from the kernel issue (benchmarks, not tests): warm cells median <= 1.5 s and
+worst <= 3 s; first plumbline cell of a new kernel after install <= 10 s.
+
+Usage (after `plumbline install`, or with the test kernelspec):
+  JUPYTER_PATH=target/kernelspec/share/jupyter PLUMBLINE_ENGINE_DIR=... python3 kernel/bench/latency.py [--kernels 3] [--cells 5]
+"""
+import argparse
+import pathlib
+import statistics
+import time
+
+from jupyter_client.manager import start_new_kernel
+
+REPO = pathlib.Path(__file__).resolve().parents[2]
+SALES = REPO / "notebooks-demo" / "data" / "sales.csv"
+
+
+def timed(kc, code, timeout=3600):
+    start = time.perf_counter()
+    reply = kc.execute_interactive(code, timeout=timeout, output_hook=lambda m: None)
+    elapsed = time.perf_counter() - start
+    if reply["content"]["status"] != "ok":
+        raise SystemExit(f"cell failed: {code!r}: {reply['content']}")
+    return elapsed
+
+
+def summary(name, values, target=None):
+    line = f"{name:<44} median {statistics.median(values):7.2f} s   worst {max(values):7.2f} s   (n={len(values)})"
+    if target:
+        line += f"   target {target}"
+    print(line)
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--kernels", type=int, default=3)
+    parser.add_argument("--cells", type=int, default=5)
+    args = parser.parse_args()
+    info, first, trivial, fits = [], [], [], []
+    for _ in range(args.kernels):
+        start = time.perf_counter()
+        km, kc = start_new_kernel(kernel_name="plumbline", startup_timeout=120)
+        info.append(time.perf_counter() - start)
+        try:
+            first.append(timed(kc, f'let sales = load("{SALES}").unwrap();\nsales.height()'))
+            for _ in range(args.cells):
+                trivial.append(timed(kc, "1 + 1"))
+            for i in range(args.cells):
+                fits.append(timed(kc, f'let m{i} = fit(&sales, &ModelSpec::new("sale_price").log_target()'
+                                      f'.term(Term::numeric("living_area").log()).numeric("age").category("district")).unwrap();\n'
+                                      f'm{i}.statistics().r_squared'))
+        finally:
+            kc.stop_channels()
+            km.shutdown_kernel(now=True)
+    summary("kernel start -> kernel_info reply", info)
+    summary("first plumbline cell of a fresh kernel", first, "<= 10 s")
+    summary("warm trivial cell", trivial, "median <= 1.5 s, worst <= 3 s")
+    summary("warm fit cell", fits, "median <= 1.5 s, worst <= 3 s")
+
+
+if __name__ == "__main__":
+    main()
