@@ -74,12 +74,9 @@ pub enum PrecisionArg {
 pub struct FitArgs {
     /// Data file (.csv, .tsv, .txt or .parquet).
     pub data: PathBuf,
-    /// Column to explain.
-    #[arg(long)]
-    pub target: String,
-    /// Fit the natural log of the target.
-    #[arg(long)]
-    pub log_target: bool,
+    /// Target, intercept and weights.
+    #[command(flatten)]
+    pub model: ModelFlags,
     /// Numeric terms, comma-separated.
     #[arg(long, value_delimiter = ',')]
     pub terms: Vec<String>,
@@ -107,12 +104,6 @@ pub struct FitArgs {
     /// Interaction A*B of two columns (a column listed in --category is categorical, else numeric).
     #[arg(long, value_name = "A*B")]
     pub interact: Vec<String>,
-    /// Fit without an intercept (R² is then uncentered).
-    #[arg(long)]
-    pub no_intercept: bool,
-    /// Case-weight column for weighted least squares.
-    #[arg(long, value_name = "COL")]
-    pub weights: Option<String>,
     /// Covariance estimator for standard errors.
     #[arg(long, value_enum, default_value_t = CovarianceArg::Classical)]
     pub cov: CovarianceArg,
@@ -147,6 +138,40 @@ pub struct FitArgs {
     pub id: Option<String>,
 }
 
+/// Flags every model shares: the target, its transform, intercept and weights.
+#[derive(Debug, Args)]
+pub struct ModelFlags {
+    /// Column to explain.
+    #[arg(long)]
+    pub target: String,
+    /// Fit the natural log of the target.
+    #[arg(long)]
+    pub log_target: bool,
+    /// Fit without an intercept (R² is then uncentered).
+    #[arg(long)]
+    pub no_intercept: bool,
+    /// Case-weight column for weighted least squares.
+    #[arg(long, value_name = "COL")]
+    pub weights: Option<String>,
+}
+
+impl ModelFlags {
+    /// A specification with these settings and no terms yet.
+    pub fn base_spec(&self) -> plumbline::prelude::ModelSpec {
+        let mut spec = plumbline::prelude::ModelSpec::new(self.target.clone());
+        if self.log_target {
+            spec = spec.log_target();
+        }
+        if self.no_intercept {
+            spec = spec.without_intercept();
+        }
+        if let Some(w) = &self.weights {
+            spec = spec.weights(w.clone());
+        }
+        spec
+    }
+}
+
 /// Flags describing how to read a data file.
 #[derive(Debug, Args)]
 pub struct InputFlags {
@@ -172,21 +197,12 @@ pub struct InputFlags {
 pub struct CompareArgs {
     /// Data file (.csv, .tsv, .txt or .parquet).
     pub data: PathBuf,
-    /// Column to explain.
-    #[arg(long)]
-    pub target: String,
-    /// Fit the natural log of the target.
-    #[arg(long)]
-    pub log_target: bool,
+    /// Target, intercept and weights, shared by every candidate.
+    #[command(flatten)]
+    pub model: ModelFlags,
     /// A model's terms (repeat for each candidate; at least one).
     #[arg(long = "model", value_name = "TERMS", required = true)]
     pub models: Vec<String>,
-    /// Fit without an intercept.
-    #[arg(long)]
-    pub no_intercept: bool,
-    /// Case-weight column.
-    #[arg(long, value_name = "COL")]
-    pub weights: Option<String>,
     /// Covariance estimator for the standard errors shown.
     #[arg(long, value_enum, default_value_t = CovarianceArg::Classical)]
     pub cov: CovarianceArg,

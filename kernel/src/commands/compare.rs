@@ -22,29 +22,20 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
     let frame = load_with_flags(&args.data, &args.input)?;
     let mut specs = Vec::with_capacity(args.models.len());
     for text in &args.models {
-        let mut spec = ModelSpec::new(args.target.clone());
-        if args.log_target {
-            spec = spec.log_target();
-        }
-        if args.no_intercept {
-            spec = spec.without_intercept();
-        }
-        if let Some(w) = &args.weights {
-            spec = spec.weights(w.clone());
-        }
+        let mut spec = args.model.base_spec();
         for term in parse_term_list(text)? {
             spec = spec.term(term);
         }
         specs.push(spec);
     }
     // Fit every model on the rows that have every column any model uses.
-    let mut used: Vec<&str> = vec![args.target.as_str()];
+    let mut used: Vec<&str> = vec![args.model.target.as_str()];
     for spec in &specs {
         for term in spec.terms() {
             used.extend(term.columns());
         }
     }
-    used.extend(args.weights.as_deref());
+    used.extend(args.model.weights.as_deref());
     let common = rows_with_values(&frame, &used)?;
     let dropped = frame.height() - common.len();
     let frame = frame.subset(&common, "rows complete for every model")?;
@@ -122,8 +113,8 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
             let mut out = format!(
                 "Comparison of {} models of {}{} on {} rows ({} dropped for missing values)\n",
                 fits.len(),
-                if args.log_target { "log " } else { "" },
-                args.target,
+                if args.model.log_target { "log " } else { "" },
+                args.model.target,
                 frame.height(),
                 dropped
             );

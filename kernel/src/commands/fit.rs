@@ -44,16 +44,7 @@ pub fn csv_options(args: &InputFlags) -> Result<CsvOptions, CommandError> {
 
 /// The model the flags describe.
 pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
-    let mut spec = ModelSpec::new(args.target.clone());
-    if args.log_target {
-        spec = spec.log_target();
-    }
-    if args.no_intercept {
-        spec = spec.without_intercept();
-    }
-    if let Some(w) = &args.weights {
-        spec = spec.weights(w.clone());
-    }
+    let mut spec = args.model.base_spec();
     let references: BTreeMap<&str, &str> = args
         .reference
         .iter()
