@@ -25,6 +25,8 @@ pub enum Command {
     Compare(CompareArgs),
     /// Ratio study of values against sale prices: level, uniformity, vertical equity.
     Ratio(RatioArgs),
+    /// What moved between two runs: fit JSON files or executed notebooks.
+    Diff(DiffArgs),
     /// Score the solver on the NIST StRD linear-regression datasets (log relative error).
     Accuracy(AccuracyArgs),
 }
@@ -281,6 +283,18 @@ pub struct InstallArgs {
     /// Skip compiling the engine's dependency cache.
     #[arg(long)]
     pub no_warm: bool,
+}
+
+/// Arguments of `plumbline diff`.
+#[derive(Debug, Args)]
+pub struct DiffArgs {
+    /// The earlier run (`plumbline fit --format json` output, or an executed .ipynb).
+    pub old: PathBuf,
+    /// The later run.
+    pub new: PathBuf,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
 }
 
 /// Arguments of `plumbline accuracy`.

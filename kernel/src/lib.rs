@@ -15,5 +15,6 @@
 pub mod cli;
 pub mod commands;
 pub mod eval;
+pub mod notebook;
 pub mod server;
 pub mod wire;

@@ -18,10 +18,12 @@ pub fn escape(text: &str) -> String {
     out
 }
 
-pub(crate) const CARD: &str = "background:#fbfcfd;color:#222b3a;border:1px solid #d5dbe3;border-radius:6px;\
+/// Style of a report card.
+pub const CARD: &str = "background:#fbfcfd;color:#222b3a;border:1px solid #d5dbe3;border-radius:6px;\
 padding:12px 14px;margin:4px 0;font-family:system-ui,-apple-system,'Segoe UI',Roboto,'DejaVu Sans',sans-serif;\
 font-size:13px;line-height:1.45;max-width:100%;overflow-x:auto";
-pub(crate) const HEADING: &str = "font-size:15px;font-weight:600;margin:0 0 6px 0;color:#222b3a";
+/// Style of a card heading.
+pub const HEADING: &str = "font-size:15px;font-weight:600;margin:0 0 6px 0;color:#222b3a";
 pub(crate) const SUBTLE: &str = "color:#5b6777;font-size:12px";
 pub(crate) const TABLE: &str = "border-collapse:collapse;margin:6px 0;font-variant-numeric:tabular-nums";
 pub(crate) const TH: &str = "text-align:left;padding:3px 10px;border-bottom:2px solid #c6ced9;color:#222b3a;font-weight:600;white-space:nowrap";

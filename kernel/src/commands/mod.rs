@@ -3,6 +3,7 @@
 
 pub mod accuracy;
 pub mod compare;
+pub mod diff;
 pub mod fit;
 pub mod install;
 pub mod kernel;
