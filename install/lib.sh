@@ -4,7 +4,7 @@ step() { printf '\n==> %s\n' "$*"; }
 die() { printf '\nerror: %s\n' "$*" >&2; exit 1; }
 
 # The oldest toolchain the workspace builds with (Cargo.toml rust-version).
-MIN_RUST_MINOR=85
+MIN_RUST_MINOR=95
 
 require_rust() {
   command -v cargo >/dev/null 2>&1 || die "cargo not found. Install Rust with rustup (https://rustup.rs), then rerun."
