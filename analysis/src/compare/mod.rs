@@ -51,8 +51,7 @@ pub(crate) fn seeded_order(frame: &Frame, seed: u64, id_column: Option<&str>) ->
 pub fn rows_with_values(frame: &Frame, columns: &[&str]) -> Result<Vec<usize>> {
     let mut keep = vec![true; frame.height()];
     for column in columns {
-        frame.require_column(column)?;
-        let nulls = frame.data().column(column)?.is_null();
+        let nulls = frame.column_by_name(column)?.is_null();
         for (row, is_null) in nulls.iter().enumerate() {
             if is_null == Some(true) {
                 keep[row] = false;

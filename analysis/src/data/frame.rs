@@ -82,6 +82,16 @@ impl Frame {
         self.source_lines.as_ref().and_then(|lines| lines.get(row).copied())
     }
 
+    /// The column called `name`, found by scanning the names rather than through
+    /// polars' hashed schema lookup: in a notebook each cell is a separately
+    /// linked library with its own copy of polars, and a schema cached by one
+    /// copy must not be looked up through another's hasher.
+    pub fn column_by_name(&self, name: &str) -> Result<&polars::prelude::Column> {
+        self.require_column(name)?;
+        let index = self.data.get_column_names().iter().position(|c| c.as_str() == name).unwrap_or(0);
+        Ok(&self.data.columns()[index])
+    }
+
     /// Checks that `name` is a column, suggesting close names when it is not.
     pub fn require_column(&self, name: &str) -> Result<()> {
         if self.data.get_column_names().iter().any(|c| c.as_str() == name) {
@@ -102,8 +112,7 @@ impl Frame {
     /// A text column is accepted only when every present value parses as a
     /// number; otherwise the first offending row is reported with its value.
     pub fn numeric_column(&self, name: &str) -> Result<Vec<Option<f64>>> {
-        self.require_column(name)?;
-        let series = self.data.column(name)?.as_materialized_series().clone();
+        let series = self.column_by_name(name)?.as_materialized_series().clone();
         let values: Vec<Option<f64>> = match series.dtype() {
             DataType::String => {
                 let strings = series.str()?;
@@ -149,8 +158,7 @@ impl Frame {
     /// The column as text labels (numbers print as they would in a file), for
     /// use as a categorical term; `None` for missing values.
     pub fn label_column(&self, name: &str) -> Result<Vec<Option<String>>> {
-        self.require_column(name)?;
-        let series = self.data.column(name)?.as_materialized_series().clone();
+        let series = self.column_by_name(name)?.as_materialized_series().clone();
         let labels: Vec<Option<String>> = if series.dtype() == &DataType::String {
             series.str()?.iter().map(|v| v.map(str::to_string)).collect()
         } else {

@@ -34,7 +34,7 @@ pub struct ColumnProfile {
 pub fn profile(frame: &Frame) -> Result<Vec<ColumnProfile>> {
     let mut out = Vec::with_capacity(frame.width());
     for name in frame.column_names() {
-        let column = frame.data().column(&name)?;
+        let column = frame.column_by_name(&name)?;
         let dtype = column.dtype().clone();
         let missing = column.null_count();
         let is_numeric = dtype.is_primitive_numeric() || dtype.is_bool();
