@@ -87,3 +87,11 @@ pub(crate) fn median_of_sorted(sorted: &[f64]) -> Option<f64> {
         _ => Some(0.5 * (sorted[n / 2 - 1] + sorted[n / 2])),
     }
 }
+
+/// Quantile `q` of ascending data by linear interpolation between order
+/// statistics (numpy's default method); used for trimming fences and bin widths.
+pub(crate) fn quantile_of_sorted(sorted: &[f64], q: f64) -> f64 {
+    let position = q * (sorted.len() - 1) as f64;
+    let (i, frac) = (position.floor() as usize, position.fract());
+    if i + 1 < sorted.len() { sorted[i] + (sorted[i + 1] - sorted[i]) * frac } else { sorted[i] }
+}

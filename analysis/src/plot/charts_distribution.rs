@@ -7,11 +7,7 @@ use crate::data::Frame;
 use crate::error::{Error, Result};
 use plotters::prelude::*;
 
-fn quantile(sorted: &[f64], q: f64) -> f64 {
-    let position = q * (sorted.len() - 1) as f64;
-    let (i, frac) = (position.floor() as usize, position.fract());
-    if i + 1 < sorted.len() { sorted[i] * (1.0 - frac) + sorted[i + 1] * frac } else { sorted[i] }
-}
+use crate::data::profile::quantile_of_sorted as quantile;
 
 /// Histogram of `values` with a Gaussian kernel density curve scaled to counts.
 ///

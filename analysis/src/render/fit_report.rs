@@ -4,7 +4,7 @@
 use super::bundle::{MimeBundle, Report, FIT_JSON_MIME};
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_p_value, format_significant};
-use super::text::fit_text;
+use super::text::{fit_text, percent};
 use crate::fit::{CovarianceKind, Fit, SolverMethod};
 use crate::inference::Coefficient;
 use crate::model::design::INTERCEPT_NAME;
@@ -99,10 +99,6 @@ fn interval_bar(c: &Coefficient, lo: f64, hi: f64) -> String {
         b = x(c.ci_high),
         e = x(c.estimate),
     )
-}
-
-fn percent(level: f64) -> String {
-    format!("{}", (level * 100.0 * 1e6).round() / 1e6)
 }
 
 /// The fit as an HTML card.

@@ -146,7 +146,7 @@ pub fn predictions_text(predictions: &Predictions) -> String {
 }
 
 /// A confidence level as a percentage without trailing zeros (`95`, `99.5`).
-fn percent(level: f64) -> String {
+pub(crate) fn percent(level: f64) -> String {
     let value = (level * 100.0 * 1e6).round() / 1e6;
     format!("{value}")
 }

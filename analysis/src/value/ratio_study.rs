@@ -99,12 +99,7 @@ pub struct RatioStudy {
     pub standard: String,
 }
 
-/// Linear-interpolation quantile of sorted data (numpy's default method).
-fn quantile(sorted: &[f64], q: f64) -> f64 {
-    let position = q * (sorted.len() - 1) as f64;
-    let (i, frac) = (position.floor() as usize, position.fract());
-    if i + 1 < sorted.len() { sorted[i] + (sorted[i + 1] - sorted[i]) * frac } else { sorted[i] }
-}
+use crate::data::profile::quantile_of_sorted as quantile;
 
 fn median(sorted: &[f64]) -> f64 {
     crate::data::profile::median_of_sorted(sorted).unwrap_or(f64::NAN)
