@@ -105,6 +105,10 @@ pub enum Error {
     #[error("could not draw the chart: {0}")]
     Plot(String),
 
+    /// A result could not be written as its machine-readable JSON document.
+    #[error("could not write the result as JSON: {0}")]
+    Serialization(String),
+
     /// Polars reported an error while building or reading a frame.
     #[error("data frame error: {0}")]
     Frame(#[from] polars::error::PolarsError),

@@ -29,12 +29,15 @@
 //! | [`predict`] | predictions with confidence and prediction intervals |
 //! | [`diagnose`] | influence, collinearity, assumption tests, rows to check |
 //! | [`compare`] | nested tests, side-by-side tables, cross-validation, holdout splits |
+//! | [`value`] | ratio studies, sale-date adjustment, model values |
+//! | [`drift`] | what moved between two runs of a study |
 //! | [`render`] | every human-readable report |
 //! | [`numeric`] | double-double arithmetic and the extended-precision QR |
 
 pub mod compare;
 pub mod data;
 pub mod diagnose;
+pub mod drift;
 mod error;
 pub mod fit;
 pub mod inference;

@@ -25,6 +25,8 @@ pub enum Command {
     Compare(CompareArgs),
     /// Ratio study of values against sale prices: level, uniformity, vertical equity.
     Ratio(RatioArgs),
+    /// Execute a study notebook headlessly; save the executed notebook and an HTML report.
+    Run(RunArgs),
     /// What moved between two runs: fit JSON files or executed notebooks.
     Diff(DiffArgs),
     /// Score the solver on the NIST StRD linear-regression datasets (log relative error).
@@ -283,6 +285,33 @@ pub struct InstallArgs {
     /// Skip compiling the engine's dependency cache.
     #[arg(long)]
     pub no_warm: bool,
+}
+
+/// Arguments of `plumbline run`.
+///
+/// Cells run in order with the notebook's folder as the working directory; the
+/// run stops at the first failing cell. The input notebook is never changed
+/// unless `--in-place` is given.
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// The notebook to run (.ipynb, format 4).
+    pub notebook: PathBuf,
+    /// Set an input declared in the study's inputs cell (the code cell whose
+    /// first line is `// plumbline: study inputs`) for this run; repeatable.
+    #[arg(long = "set", value_name = "NAME=VALUE")]
+    pub set: Vec<String>,
+    /// Where to save the executed notebook [default: NOTEBOOK with `.run.ipynb`, beside it].
+    #[arg(short = 'o', long, value_name = "OUT.ipynb")]
+    pub output: Option<PathBuf>,
+    /// Save the executed notebook over the input notebook.
+    #[arg(long, conflicts_with = "output")]
+    pub in_place: bool,
+    /// Also write a standalone HTML report of the run here.
+    #[arg(long, value_name = "REPORT.html")]
+    pub html: Option<PathBuf>,
+    /// Print no progress lines.
+    #[arg(long)]
+    pub quiet: bool,
 }
 
 /// Arguments of `plumbline diff`.

@@ -8,6 +8,8 @@
 //! | [`commands::accuracy`] | `plumbline accuracy`: the NIST StRD log-relative-error table |
 //! | [`commands::compare`], [`commands::ratio`] | model comparison; ratio studies |
 //! | [`commands::kernel`], [`commands::install`] | the notebook kernel and its kernelspec |
+//! | [`commands::run`], [`commands::diff`] | headless study runs; the drift report between runs |
+//! | [`notebook`] | notebook documents, the inputs cell, the runner, the HTML report, run results |
 //! | [`wire`] | connection file, framing, HMAC signing |
 //! | [`server`] | the five sockets and every request |
 //! | [`eval`] | the evcxr session with `plumbline` preloaded |

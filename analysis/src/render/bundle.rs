@@ -14,6 +14,10 @@ use std::io::Write;
 pub const FIT_JSON_MIME: &str = "application/vnd.plumbline.fit+json";
 /// MIME type of the machine-readable comparison document.
 pub const COMPARISON_JSON_MIME: &str = "application/vnd.plumbline.comparison+json";
+/// MIME type of the machine-readable ratio-study document.
+pub const RATIO_JSON_MIME: &str = "application/vnd.plumbline.ratio-study+json";
+/// MIME type of the machine-readable drift report (schema `plumbline.drift`).
+pub const DRIFT_JSON_MIME: &str = "application/vnd.plumbline.drift+json";
 
 /// Renderings of one result, by MIME type, in a stable order.
 #[derive(Debug, Clone, Default, PartialEq, Eq)]

@@ -105,7 +105,7 @@ pub fn explanations(fit: &Fit, level: f64) -> crate::Result<Vec<(String, String)
         ),
     ));
     let logged = logged_columns(fit);
-    let level_pct = format!("{}", (level * 1000.0).round() / 10.0);
+    let level_pct = super::text::percent(level);
     for c in fit.coefficients(level)? {
         if c.term == INTERCEPT_NAME {
             out.push((

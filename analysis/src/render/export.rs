@@ -8,7 +8,7 @@ use crate::fit::Fit;
 pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
     let stats = fit.statistics();
     let prov = fit.provenance();
-    let pct = (level * 1000.0).round() / 10.0;
+    let pct = super::text::percent(level);
     let mut out = format!("### Least-squares fit of {}\n\n", fit.spec().target_label());
     out.push_str(&format!(
         "Data: `{}` (SHA-256 `{}`), {} rows used, dropped for missing values: {}. Standard errors: {}.\n\n",

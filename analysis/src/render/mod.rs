@@ -5,6 +5,7 @@
 
 mod bundle;
 mod diagnostics_text;
+mod drift_report;
 mod explain;
 mod export;
 mod fit_report;
@@ -15,8 +16,9 @@ mod ratio_report;
 mod result_reports;
 mod text;
 
-pub use bundle::{emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, FIT_JSON_MIME, KERNEL_DISPLAY_ENV, KERNEL_DISPLAY_MARKER};
+pub use bundle::{emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, RATIO_JSON_MIME, KERNEL_DISPLAY_ENV, KERNEL_DISPLAY_MARKER};
 pub use diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
+pub use drift_report::{drift_html, drift_text};
 pub use explain::{explanations, Explained};
 pub use export::{fit_csv, fit_markdown};
 pub use fit_report::{fit_html, fit_warnings, FitReport, VALUATION_CAUTION};

@@ -44,7 +44,7 @@ fn rows(s: &RatioStatistics) -> Vec<[String; 5]> {
 
 /// The study as aligned text.
 pub fn ratio_text(study: &RatioStudy) -> String {
-    let pct = format!("{}", (study.level * 1000.0).round() / 10.0);
+    let pct = super::text::percent(study.level);
     let mut out = format!(
         "Ratio study: {} sales with a value and a price, {} used after trimming\n  property class: {}\n",
         study.n_pairs,
@@ -96,7 +96,7 @@ pub fn ratio_text(study: &RatioStudy) -> String {
 
 /// The study as an HTML card.
 pub fn ratio_html(study: &RatioStudy) -> String {
-    let pct = format!("{}", (study.level * 1000.0).round() / 10.0);
+    let pct = super::text::percent(study.level);
     let mut out = String::new();
     card_start(&mut out, &format!("Ratio study — {} sales", study.overall.count));
     out.push_str(&format!(
@@ -145,6 +145,6 @@ pub fn ratio_html(study: &RatioStudy) -> String {
 impl Report for RatioStudy {
     fn bundle(&self) -> MimeBundle {
         let json = serde_json::to_string(self).unwrap_or_else(|_| "{}".into());
-        MimeBundle::text_and_html(ratio_text(self), ratio_html(self)).with("application/vnd.plumbline.ratio-study+json", json)
+        MimeBundle::text_and_html(ratio_text(self), ratio_html(self)).with(super::bundle::RATIO_JSON_MIME, json)
     }
 }

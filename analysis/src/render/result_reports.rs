@@ -173,7 +173,7 @@ impl Report for Predictions {
         let mut text = predictions_text(self);
         text.push_str(&format!("  {VALUATION_CAUTION}\n"));
         let mut html = String::new();
-        card_start(&mut html, &format!("Predictions with {} % intervals", (self.level * 1000.0).round() / 10.0));
+        card_start(&mut html, &format!("Predictions with {} % intervals", super::text::percent(self.level)));
         let log_scale = self.rows.iter().any(|p| p.median_original.is_some());
         let rows: Vec<Vec<String>> = self
             .rows

@@ -8,6 +8,7 @@ pub mod fit;
 pub mod install;
 pub mod kernel;
 pub mod ratio;
+pub mod run;
 
 /// Why a subcommand failed.
 #[derive(Debug, thiserror::Error)]
@@ -18,6 +19,9 @@ pub enum CommandError {
     /// A flag's value could not be understood.
     #[error("{0}")]
     Usage(String),
+    /// A notebook run stopped or could not start.
+    #[error("{0}")]
+    Run(String),
     /// Reference data for a check is missing or malformed.
     #[error("{0}")]
     Reference(String),

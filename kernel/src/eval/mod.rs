@@ -10,3 +10,31 @@ pub mod diagnostics;
 mod session;
 
 pub use session::{CellError, CompleteOutcome, EngineConfig, ExecOutcome, Interrupter, Session, StreamLine};
+
+use serde_json::{Map, Value};
+
+/// A display value as the protocol and nbformat carry it: JSON MIME types as
+/// JSON, everything else as text.
+pub fn mime_value(mime: &str, text: String) -> Value {
+    if mime.ends_with("+json") || mime == "application/json" {
+        serde_json::from_str(&text).unwrap_or(Value::String(text))
+    } else {
+        Value::String(text)
+    }
+}
+
+/// The display bundle an output line carries when `plumbline::render::show`
+/// wrote it (the line starts with [`plumbline::render::KERNEL_DISPLAY_MARKER`]).
+pub fn display_bundle(line: &str) -> Option<Map<String, Value>> {
+    let json = line.trim_end_matches('\n').strip_prefix(plumbline::render::KERNEL_DISPLAY_MARKER)?;
+    let entries: Map<String, Value> = serde_json::from_str(json).ok()?;
+    Some(
+        entries
+            .into_iter()
+            .map(|(mime, v)| match v {
+                Value::String(text) => (mime.clone(), mime_value(&mime, text)),
+                other => (mime, other),
+            })
+            .collect(),
+    )
+}

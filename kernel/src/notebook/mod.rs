@@ -1,4 +1,17 @@
-//! Notebook-level work: reading the machine-readable results that runs leave
-//! behind, and the run-to-run drift report.
+//! Notebook-level work: the documents themselves, the study's inputs cell,
+//! headless runs with their HTML report, and reading the machine-readable
+//! results a run leaves behind for the drift report.
+//!
+//! | module | responsibility |
+//! |---|---|
+//! | [`document`] | nbformat 4 documents: cells, outputs, atomic write |
+//! | [`inputs`] | the inputs cell marker and `--set NAME=VALUE` |
+//! | [`runner`] | executing every code cell with the engine, progress |
+//! | [`report`] | the standalone HTML report of a run |
+//! | [`results`] | fit and ratio-study documents out of a run's files |
 
-pub mod drift;
+pub mod document;
+pub mod inputs;
+pub mod report;
+pub mod results;
+pub mod runner;

@@ -1,6 +1,7 @@
 //! What the kernel does with each request.
 
-use super::{Shared, DISPLAY_MARKER};
+use super::Shared;
+use crate::eval::{display_bundle, mime_value};
 use crate::eval::completeness::{check, Completeness};
 use crate::eval::StreamLine;
 use crate::wire::{Message, WireError, PROTOCOL_VERSION};
@@ -24,11 +25,9 @@ pub(crate) fn decode(shared: &Shared, frames: Vec<Vec<u8>>) -> Option<Message> {
 /// Publishes a line of cell output: a display bundle when it carries our
 /// marker, a stream message otherwise.
 pub(crate) fn forward_output(shared: &Shared, parent: Option<&Message>, line: StreamLine) {
-    if let Some(json) = line.text.trim_end_matches('\n').strip_prefix(DISPLAY_MARKER) {
-        if let Ok(data) = serde_json::from_str::<Value>(json) {
-            shared.publish(parent, "display_data", json!({ "data": data, "metadata": {}, "transient": {} }));
-            return;
-        }
+    if let Some(data) = display_bundle(&line.text) {
+        shared.publish(parent, "display_data", json!({ "data": data, "metadata": {}, "transient": {} }));
+        return;
     }
     shared.publish(parent, "stream", json!({ "name": line.name, "text": line.text }));
 }
@@ -285,13 +284,4 @@ async fn execute(shared: &std::sync::Arc<Shared>, request: &Message) -> (Message
     }
     let reply = json!({ "status": "ok", "execution_count": count, "user_expressions": user_expressions, "payload": [] });
     (request.child("execute_reply", reply), false)
-}
-
-/// JSON MIME types travel as JSON objects, everything else as text.
-fn mime_value(mime: &str, text: String) -> Value {
-    if mime.ends_with("+json") || mime == "application/json" {
-        serde_json::from_str(&text).unwrap_or(Value::String(text))
-    } else {
-        Value::String(text)
-    }
 }

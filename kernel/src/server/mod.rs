@@ -23,8 +23,6 @@ use zeromq::{PubSocket, RepSocket, RouterSocket, Socket, SocketRecv, SocketSend,
 /// Environment variable the kernel sets so that `plumbline::render::show`
 /// sends its displays to the notebook rather than to standard output.
 pub const DISPLAY_ENV: &str = plumbline::render::KERNEL_DISPLAY_ENV;
-/// Prefix of an output line that carries a display bundle (see `plumbline::render::show`).
-pub const DISPLAY_MARKER: &str = plumbline::render::KERNEL_DISPLAY_MARKER;
 
 /// Why the kernel could not serve.
 #[derive(Debug, thiserror::Error)]

@@ -1,0 +1,199 @@
+//! The drift report between two runs as text and HTML: data changes first,
+//! then the coefficients that left their old interval, the fit statistics,
+//! and the ratio-study statistics beside their ranges with the crossings
+//! marked.
+
+use super::bundle::{MimeBundle, Report, DRIFT_JSON_MIME};
+use super::fit_report::VALUATION_CAUTION;
+use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
+use super::numbers::format_trimmed;
+use crate::drift::{CoefficientDrift, DataStamp, DriftReport, FitDrift, ThresholdDrift};
+
+fn number(v: Option<f64>) -> String {
+    v.map(|x| format_trimmed(x, 5)).unwrap_or_else(|| "—".into())
+}
+
+fn data_line(f: &FitDrift) -> String {
+    let short = |d: &DataStamp| d.1.get(..12).unwrap_or("").to_string();
+    format!(
+        "{} rows → {} rows; {}",
+        f.data_old.2,
+        f.data_new.2,
+        if f.data_changed {
+            format!("contents changed (sha256 {}… → {}…)", short(&f.data_old), short(&f.data_new))
+        } else {
+            "same bytes".into()
+        }
+    )
+}
+
+fn moved_line(c: &CoefficientDrift) -> (String, String, String) {
+    let (o, n) = (c.old.unwrap_or_default(), c.new.unwrap_or_default());
+    (c.term.clone(), format!("{} [{}, {}]", number(Some(o.0)), number(Some(o.1)), number(Some(o.2))), number(Some(n.0)))
+}
+
+fn membership(term: &CoefficientDrift) -> Option<&'static str> {
+    match (term.old, term.new) {
+        (None, Some(_)) => Some("new term"),
+        (Some(_), None) => Some("dropped"),
+        _ => None,
+    }
+}
+
+fn verdict(inside: Option<bool>) -> &'static str {
+    match inside {
+        Some(true) => "inside",
+        Some(false) => "outside",
+        None => "no range",
+    }
+}
+
+fn range_text(t: &ThresholdDrift) -> String {
+    t.range.map(|(lo, hi)| format!("{} – {}", format_trimmed(lo, 3), format_trimmed(hi, 3))).unwrap_or_else(|| "—".into())
+}
+
+fn threshold_label(t: &ThresholdDrift) -> String {
+    if t.scope == "overall" {
+        t.statistic.clone()
+    } else {
+        format!("{} ({})", t.statistic, t.scope)
+    }
+}
+
+/// The report as aligned text.
+pub fn drift_text(report: &DriftReport) -> String {
+    let mut out = format!("Drift from {}\n        to {}\n", report.old, report.new);
+    let moved_total = report.moved_coefficients().count();
+    let crossed_total = report.crossed_thresholds().count();
+    out.push_str(&format!(
+        "  {} coefficient(s) outside their old interval; {} ratio-study statistic(s) crossed their range\n",
+        moved_total, crossed_total
+    ));
+    for (i, f) in report.fits.iter().enumerate() {
+        out.push_str(&format!("\nFit {} — {}\n", i + 1, f.target));
+        out.push_str(&format!("  data: {}\n", data_line(f)));
+        for s in &f.statistics {
+            out.push_str(&format!("  {:<20} {:>12} → {:>12}\n", s.statistic, number(s.old), number(s.new)));
+        }
+        let moved: Vec<&CoefficientDrift> = f.coefficients.iter().filter(|c| c.moved).collect();
+        out.push_str(&format!("  coefficients outside their old interval: {}\n", moved.len()));
+        for c in moved {
+            let (term, old, new) = moved_line(c);
+            out.push_str(&format!("    {term:<28} {old} → {new}\n"));
+        }
+        for c in &f.coefficients {
+            if let Some(what) = membership(c) {
+                out.push_str(&format!("    {:<28} {what}\n", c.term));
+            }
+        }
+    }
+    for (i, r) in report.ratio_studies.iter().enumerate() {
+        out.push_str(&format!("\nRatio study {} — sales used {} → {}\n", i + 1, number(r.count_old.map(|c| c as f64)), number(r.count_new.map(|c| c as f64))));
+        out.push_str(&format!("  {:<28} {:>10} → {:>10}  {:>12}  {}\n", "statistic", "old", "new", "range", "verdict"));
+        for t in &r.statistics {
+            let verdicts = format!("{} → {}{}", verdict(t.old_inside), verdict(t.new_inside), if t.crossed { "  CROSSED" } else { "" });
+            out.push_str(&format!(
+                "  {:<28} {:>10} → {:>10}  {:>12}  {verdicts}\n",
+                threshold_label(t),
+                number(t.old),
+                number(t.new),
+                range_text(t)
+            ));
+        }
+        if !r.standard.is_empty() {
+            out.push_str(&format!("  ranges: {}\n", r.standard));
+        }
+    }
+    if report.unpaired_fits > 0 {
+        out.push_str(&format!("\n{} fit(s) appear in only one of the runs and were not compared.\n", report.unpaired_fits));
+    }
+    if report.unpaired_ratio_studies > 0 {
+        out.push_str(&format!(
+            "\n{} ratio stud(ies) appear in only one of the runs and were not compared.\n",
+            report.unpaired_ratio_studies
+        ));
+    }
+    out
+}
+
+/// The report as an HTML card.
+pub fn drift_html(report: &DriftReport) -> String {
+    let mut out = String::new();
+    card_start(&mut out, "What moved between the runs");
+    out.push_str(&format!(
+        "<div style=\"{SUBTLE}\">from {}<br>to {}</div>\n",
+        escape(&report.old),
+        escape(&report.new)
+    ));
+    let moved_total = report.moved_coefficients().count();
+    let crossed_total = report.crossed_thresholds().count();
+    if moved_total + crossed_total > 0 {
+        out.push_str(&format!(
+            "<div style=\"{NOTE}\">{moved_total} coefficient(s) outside their old interval; {crossed_total} ratio-study statistic(s) crossed their range.</div>\n"
+        ));
+    }
+    for (i, f) in report.fits.iter().enumerate() {
+        out.push_str(&format!(
+            "<div style=\"margin-top:8px\"><b>Fit {} — {}</b> <span style=\"{SUBTLE}\">data: {}</span></div>\n",
+            i + 1,
+            escape(&f.target),
+            escape(&data_line(f))
+        ));
+        let stats: Vec<Vec<String>> =
+            f.statistics.iter().map(|s| vec![escape(&s.statistic), number(s.old), number(s.new)]).collect();
+        table(&mut out, &["statistic", "old", "new"], &[false, true, true], &stats);
+        let mut terms: Vec<Vec<String>> = f
+            .coefficients
+            .iter()
+            .filter(|c| c.moved)
+            .map(|c| {
+                let (term, old, new) = moved_line(c);
+                vec![escape(&term), escape(&old), escape(&new), "<b style=\"color:#c24e2f\">left its interval</b>".into()]
+            })
+            .collect();
+        for c in &f.coefficients {
+            if let Some(what) = membership(c) {
+                terms.push(vec![escape(&c.term), number(c.old.map(|o| o.0)), number(c.new.map(|n| n.0)), escape(what)]);
+            }
+        }
+        if terms.is_empty() {
+            out.push_str(&format!("<div style=\"{SUBTLE}\">Every coefficient stayed inside its old interval.</div>\n"));
+        } else {
+            table(&mut out, &["term", "old estimate [interval]", "new estimate", ""], &[false, true, true, false], &terms);
+        }
+    }
+    for (i, r) in report.ratio_studies.iter().enumerate() {
+        out.push_str(&format!(
+            "<div style=\"margin-top:8px\"><b>Ratio study {}</b> <span style=\"{SUBTLE}\">sales used {} → {}</span></div>\n",
+            i + 1,
+            number(r.count_old.map(|c| c as f64)),
+            number(r.count_new.map(|c| c as f64))
+        ));
+        let rows: Vec<Vec<String>> = r
+            .statistics
+            .iter()
+            .map(|t| {
+                let mark = if t.crossed {
+                    format!("<b style=\"color:#c24e2f\">{} → {}</b>", verdict(t.old_inside), verdict(t.new_inside))
+                } else {
+                    escape(verdict(t.new_inside))
+                };
+                vec![escape(&threshold_label(t)), number(t.old), number(t.new), escape(&range_text(t)), mark]
+            })
+            .collect();
+        table(&mut out, &["statistic", "old", "new", "range", "verdict"], &[false, true, true, true, false], &rows);
+        if !r.standard.is_empty() {
+            out.push_str(&format!("<div style=\"{SUBTLE}\">Ranges: {}</div>\n", escape(&r.standard)));
+        }
+    }
+    out.push_str(&format!("<div style=\"{CAUTION}\">{}</div>\n", escape(VALUATION_CAUTION)));
+    card_end(&mut out);
+    out
+}
+
+impl Report for DriftReport {
+    fn bundle(&self) -> MimeBundle {
+        let json = serde_json::to_string(self).unwrap_or_else(|_| "{}".into());
+        MimeBundle::text_and_html(drift_text(self), drift_html(self)).with(DRIFT_JSON_MIME, json)
+    }
+}
