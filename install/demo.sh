@@ -1,7 +1,17 @@
 #!/usr/bin/env bash
-# The main job on the shipped demo data: fit a log-price valuation model to the
-# sales of the invented town of Wrenmoor and value its 40 unsold subject
-# properties with 95 % prediction intervals. Needs only a Rust toolchain.
+# The main job on the shipped demo data: run the Wrenmoor valuation study
+# notebook headlessly — load and screen the sales, compare candidate models,
+# check diagnostics, choose a model, run the ratio study and value the 40
+# subject properties — and write the executed notebook and its HTML report.
+# Needs only a Rust toolchain.
+#
+#   ./install/demo.sh                 # outputs in target/study/
+#   PLUMBLINE_STUDY_OUT=DIR ./install/demo.sh
+#
+# The evaluation engine builds plumbline once into its own folder (several
+# minutes the first time). Unless PLUMBLINE_ENGINE_DIR / PLUMBLINE_ENGINE_OPT
+# are set, the demo uses target/engine-demo at optimisation level 0, which
+# compiles fastest and runs this study in about a minute.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 source install/lib.sh
@@ -10,16 +20,21 @@ require_rust
 step "building plumbline (the first build compiles polars and faer; a few minutes)"
 cargo build -p plumbline-kernel --locked
 
-step "fitting the Wrenmoor valuation model and valuing the subject properties"
-./target/debug/plumbline fit notebooks-demo/data/sales.csv \
-  --target sale_price --log-target \
-  --log living_area --log lot_size \
-  --terms age,quality,bathrooms,months_since_start \
-  --category district --reference district=Larkfield \
-  --cov hc3 \
-  --predict notebooks-demo/data/subjects.csv
+out="${PLUMBLINE_STUDY_OUT:-target/study}"
+export PLUMBLINE_ENGINE_DIR="${PLUMBLINE_ENGINE_DIR:-$PWD/target/engine-demo}"
+export PLUMBLINE_ENGINE_OPT="${PLUMBLINE_ENGINE_OPT:-0}"
+step "running the Wrenmoor valuation study (the first run builds the engine's copy of plumbline)"
+./target/debug/plumbline run notebooks-demo/valuation-study.ipynb \
+  -o "$out/valuation-study.ipynb" --html "$out/valuation-study.html"
 
 cat <<'NOTE'
+
+Open the HTML report in a browser, or the executed notebook in any Jupyter
+front end. To rerun the study on next quarter's sales and see what moved:
+
+  ./target/debug/plumbline run notebooks-demo/valuation-study.ipynb -o target/study/rerun.ipynb \
+      --set sales_file=data/sales-next-quarter.csv --set valuation_month=39
+  ./target/debug/plumbline diff notebooks-demo/valuation-study.ipynb target/study/rerun.ipynb
 
 These figures are analytical estimates from invented demo data, not appraisals.
 Real valuations follow local assessment law and licensed appraisal practice.

@@ -310,7 +310,7 @@ pub struct RunArgs {
     #[arg(long, value_name = "REPORT.html")]
     pub html: Option<PathBuf>,
     /// Print no progress lines.
-    #[arg(long)]
+    #[arg(short = 'q', long)]
     pub quiet: bool,
 }
 

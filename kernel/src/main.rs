@@ -7,7 +7,9 @@ use std::process::ExitCode;
 
 fn main() -> ExitCode {
     // The evaluation engine runs cells in a child copy of this same program;
-    // this call turns such a child into the engine's runtime and never returns there.
+    // in such a child, first put our relay on its output (it marks cells that
+    // stopped at a `?`), then let the engine take over — it never returns there.
+    plumbline_kernel::eval::relay_cell_process_output();
     evcxr::runtime_hook();
     let cli = Cli::parse();
     let outcome = match cli.command {

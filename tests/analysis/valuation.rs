@@ -64,3 +64,69 @@ fn model_values_retransform_as_documented() {
         assert!((s / m - smear).abs() < 1e-12);
     }
 }
+
+/// Values moved to a valuation date by `model_values_at` must, divided by the
+/// prices moved there by `time_adjust`, give the same ratio as value ÷ price at
+/// the sale date (the trend factor cancels for a logged target: an identity of
+/// the definitions in `shared/reference/ratio-study.md`).
+#[test]
+fn values_at_a_date_keep_each_sales_ratio() {
+    let frame = sales();
+    let model = fit(&frame, &ModelSpec::new("price").log_target().numeric("area").numeric("months")).expect("fit");
+    let at_sale = model_values(&model, &frame, Retransform::Median).expect("values");
+    let at_date = plumbline::value::model_values_at(&model, &frame, "months", 15.0, Retransform::Median).expect("values at");
+    let adjusted = time_adjust(&model, &frame, "months", "price", 15.0).expect("adjust");
+    let prices = frame.numeric_column("price").expect("price");
+    for i in 0..frame.height() {
+        let before = at_sale[i].expect("v") / prices[i].expect("p");
+        let after = at_date[i].expect("v") / adjusted[i].expect("a");
+        assert!((before - after).abs() <= 1e-13 * before, "row {i}: {before} vs {after}");
+    }
+}
+
+/// The drift report on constructed runs with known answers: a coefficient
+/// moved outside its old interval is named, and a COD that leaves the IAAO
+/// range for homogeneous residential property (5–10, recalled from memory —
+/// see `plumbline::value::standards`) is marked as crossed.
+#[test]
+fn drift_names_moved_coefficients_and_crossed_ranges() {
+    use plumbline::drift::{drift, RunResults};
+    use plumbline::value::{ratio_study, RatioOptions};
+    let frame = sales();
+    let spec = ModelSpec::new("price").log_target().numeric("area").numeric("months");
+    let old_fit = fit(&frame, &spec).expect("fit");
+    // The same market with prices 10 % higher per month: the trend must move.
+    let dir = scratch_dir("valuation-drift");
+    let mut body = String::from("price,area,months\n");
+    let prices = frame.numeric_column("price").expect("price");
+    let areas = frame.numeric_column("area").expect("area");
+    let months = frame.numeric_column("months").expect("months");
+    for i in 0..frame.height() {
+        let (p, a, m) = (prices[i].expect("p"), areas[i].expect("a"), months[i].expect("m"));
+        body.push_str(&format!("{},{a},{m}\n", p * (0.1 * m).exp()));
+    }
+    let new_frame = load_csv(write_file(&dir, "sales.csv", &body), &CsvOptions::default()).expect("load");
+    let new_fit = fit(&new_frame, &spec).expect("fit");
+    // Old ratios 1 ± 7 % (COD 7, inside 5–10); new ratios 1 ± 30 % (COD 30, outside).
+    let spread = |width: f64| -> (Vec<Option<f64>>, Vec<Option<f64>>) {
+        let values = (0..40).map(|i| Some(100.0 * (1.0 + width * if i % 2 == 0 { 1.0 } else { -1.0 }))).collect();
+        (values, vec![Some(100.0); 40])
+    };
+    let options = RatioOptions { trim: None, ..Default::default() };
+    let (v_old, p_old) = spread(0.07);
+    let (v_new, p_new) = spread(0.30);
+    let old_study = ratio_study(&v_old, &p_old, None, &options).expect("old study");
+    let new_study = ratio_study(&v_new, &p_new, None, &options).expect("new study");
+    let old = RunResults::new("old").with_fit(&old_fit, 0.95).expect("old").with_ratio_study(&old_study).expect("old");
+    let new = RunResults::new("new").with_fit(&new_fit, 0.95).expect("new").with_ratio_study(&new_study).expect("new");
+    let report = drift(&old, &new);
+    let moved: Vec<&str> = report.moved_coefficients().map(|c| c.term.as_str()).collect();
+    assert!(moved.contains(&"months"), "{moved:?}");
+    // COD of ±w around a median of 1 is exactly 100·w: 7 (inside 5–10) → 30 (outside).
+    let cod = report.ratio_studies[0].statistics.iter().find(|t| t.statistic == "COD").expect("COD");
+    assert!((cod.old.expect("old") - 7.0).abs() < 1e-9 && (cod.new.expect("new") - 30.0).abs() < 1e-9);
+    assert_eq!((cod.old_inside, cod.new_inside, cod.crossed), (Some(true), Some(false), true));
+    assert_eq!(report.crossed_thresholds().count(), 1, "only the COD crossed: {:?}", report.ratio_studies);
+    let text = plumbline::render::drift_text(&report);
+    assert!(text.contains("CROSSED") && text.contains("months"), "{text}");
+}

@@ -3,10 +3,12 @@
 The binary is the one `cargo build` produced (target/debug/plumbline), or
 $PLUMBLINE_BIN. If it is missing the tests fail loudly rather than skip.
 """
+import functools
 import json
 import os
 import pathlib
 import subprocess
+import tempfile
 
 import numpy as np
 import pytest
@@ -15,6 +17,10 @@ REPO = pathlib.Path(__file__).resolve().parents[2]
 # External reference data: ../shared/reference beside the checkout, or $PLUMBLINE_REFERENCE_DIR.
 REFERENCE = pathlib.Path(os.environ.get("PLUMBLINE_REFERENCE_DIR", REPO.parent / "shared" / "reference"))
 NIST = REFERENCE / "nist-strd"
+# Every kernel and notebook run in the tests shares one engine build directory,
+# compiled at optimisation level 0 (install/test.sh warms it first).
+os.environ.setdefault("PLUMBLINE_ENGINE_DIR", str(REPO / "target" / "engine-test"))
+os.environ.setdefault("PLUMBLINE_ENGINE_OPT", "0")
 
 
 def require_nist(name):
@@ -33,6 +39,21 @@ def plumbline_binary() -> pathlib.Path:
         pytest.fail(f"plumbline binary not found at {path}; run `cargo build --workspace` first "
                     "or set PLUMBLINE_BIN", pytrace=False)
     return path
+
+
+@functools.cache
+def install_kernelspec() -> pathlib.Path:
+    """Installs the Plumbline kernelspec into a scratch prefix (once per session) and
+    puts it on JUPYTER_PATH, so that jupyter_client and nbclient find kernel "plumbline".
+
+    Kernels share the engine build directory set above.
+    """
+    prefix = pathlib.Path(tempfile.mkdtemp(prefix="plumbline-kernelspec-"))
+    installed = subprocess.run([str(plumbline_binary()), "install", "--prefix", str(prefix), "--no-warm"],
+                               capture_output=True, text=True)
+    assert installed.returncode == 0, installed.stderr
+    os.environ["JUPYTER_PATH"] = str(prefix / "share" / "jupyter") + os.pathsep + os.environ.get("JUPYTER_PATH", "")
+    return prefix
 
 
 def run_fit(csv_path, *args):

@@ -5,10 +5,6 @@ jupyter_client's blocking client and nbclient running a notebook.
 The kernelspec is installed into a scratch prefix with `plumbline install`; the
 engine's build directory is shared with the Rust kernel test ($PLUMBLINE_ENGINE_DIR).
 """
-import os
-import pathlib
-import subprocess
-import tempfile
 import unittest
 
 import jupyter_kernel_test
@@ -16,15 +12,9 @@ import nbformat
 from jupyter_client.manager import start_new_kernel
 from nbclient import NotebookClient
 
-from conftest import REPO, plumbline_binary
+from conftest import REPO, install_kernelspec
 
-PREFIX = pathlib.Path(tempfile.mkdtemp(prefix="plumbline-kernelspec-"))
-os.environ.setdefault("PLUMBLINE_ENGINE_DIR", str(REPO / "target" / "engine-test"))
-os.environ.setdefault("PLUMBLINE_ENGINE_OPT", "0")
-_installed = subprocess.run([str(plumbline_binary()), "install", "--prefix", str(PREFIX), "--no-warm"],
-                            capture_output=True, text=True)
-assert _installed.returncode == 0, _installed.stderr
-os.environ["JUPYTER_PATH"] = str(PREFIX / "share" / "jupyter") + os.pathsep + os.environ.get("JUPYTER_PATH", "")
+install_kernelspec()
 TIMEOUT = 1800  # the first cell of a fresh engine directory compiles plumbline
 
 SVG = '<svg xmlns=\\"http://www.w3.org/2000/svg\\" width=\\"10\\" height=\\"10\\"></svg>'
@@ -81,6 +71,10 @@ def test_a_fit_cell_sends_an_svg_display():
         assert "image/svg+xml" in kinds["display_data"]["data"]
         result = kinds["execute_result"]["data"]
         assert "text/html" in result and "application/vnd.plumbline.fit+json" in result
+        # A `?` that returns an error fails the cell (the engine alone would report success).
+        failed = kc.execute_interactive('let missing = load("no-such-file.csv")?;\n1', timeout=TIMEOUT)
+        assert failed["content"]["status"] == "error", failed["content"]
+        assert "no-such-file.csv" in failed["content"]["evalue"]
     finally:
         kc.stop_channels()
         km.shutdown_kernel(now=True)

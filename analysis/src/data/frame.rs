@@ -41,6 +41,18 @@ impl Frame {
         Ok(Frame { data, provenance, source_lines })
     }
 
+    /// A copy with `column` set to `value` on every row (added when absent) —
+    /// for example subject properties valued as of one month.
+    pub fn with_number(&self, column: &str, value: f64) -> Result<Frame> {
+        let mut data = self.data.clone();
+        let filled = polars::prelude::Column::new(column.into(), vec![value; data.height()]);
+        data.with_column(filled)?;
+        let mut provenance = self.provenance.clone();
+        provenance.path = format!("{} [{column} = {value}]", self.provenance.path);
+        provenance.cols = data.width();
+        Ok(Frame { data, provenance, source_lines: self.source_lines.clone() })
+    }
+
     /// A stable text key of row `row` built from every column's value, used to
     /// place rows in folds independently of their order in the file.
     pub fn row_key(&self, row: usize) -> String {

@@ -7,18 +7,21 @@
 //!   null markers and per-column type overrides.
 //! * [`load_parquet`] — Apache Parquet through polars.
 //! * [`profile`] — a per-column summary (type, missing, min/median/max, levels).
+//! * [`Screen`] — rows kept by a stated rule, with a record of the rows set aside.
 
 mod csv_reader;
 mod frame;
 mod parquet_reader;
 pub mod profile;
 mod provenance;
+mod screen;
 
 pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
 pub use parquet_reader::load_parquet;
 pub use profile::{profile, ColumnProfile};
 pub use provenance::{sha256_hex, Provenance};
+pub use screen::{ExcludedRow, Screen};
 
 use crate::error::{Error, Result};
 use std::path::Path;

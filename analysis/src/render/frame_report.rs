@@ -206,3 +206,38 @@ impl Report for ProfileReport {
         MimeBundle::text_and_html(text, html)
     }
 }
+
+/// A screen: the rule, how many rows passed, and every row set aside.
+impl Report for crate::data::Screen {
+    fn bundle(&self) -> MimeBundle {
+        let line = |l: Option<u64>| l.map(|l| l.to_string()).unwrap_or_else(|| "·".into());
+        let mut text = format!(
+            "Screen: {}\n  {} of {} rows kept; {} set aside (column `{}`)\n",
+            self.rule,
+            self.kept.height(),
+            self.screened,
+            self.excluded.len(),
+            self.column
+        );
+        for e in &self.excluded {
+            text.push_str(&format!("    row {:>6}  file line {:>6}  {} = {}\n", e.row, line(e.line), self.column, e.value));
+        }
+        let mut html = String::new();
+        card_start(&mut html, &format!("Screen — {}", self.rule));
+        html.push_str(&format!(
+            "<div style=\"{SUBTLE}\">{} of {} rows kept; {} set aside by column <code>{}</code></div>\n",
+            self.kept.height(),
+            self.screened,
+            self.excluded.len(),
+            escape(&self.column)
+        ));
+        if !self.excluded.is_empty() {
+            let body: Vec<Vec<String>> =
+                self.excluded.iter().map(|e| vec![e.row.to_string(), line(e.line), escape(&e.value)]).collect();
+            let value_header = format!("{} (set aside)", self.column);
+            table(&mut html, &["row", "file line", &value_header], &[true, true, false], &body);
+        }
+        card_end(&mut html);
+        MimeBundle::text_and_html(text, html)
+    }
+}

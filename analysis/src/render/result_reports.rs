@@ -3,12 +3,12 @@
 //! uses the same card and table style as fits and frames.
 
 use super::bundle::{MimeBundle, Report, COMPARISON_JSON_MIME};
-use super::diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, tests_text};
+use super::diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
 use super::fit_report::VALUATION_CAUTION;
 use super::html::{card_end, card_start, escape, table, CAUTION};
 use super::numbers::{format_p_value, format_significant};
 use super::text::predictions_text;
-use crate::compare::{Comparison, CrossValidationResult};
+use crate::compare::{Comparison, CrossValidationResult, NestedTest};
 use crate::diagnose::{Collinearity, RowFlags, TestResult};
 use crate::plot::Svg;
 use crate::predict::Predictions;
@@ -16,6 +16,32 @@ use crate::predict::Predictions;
 impl Report for Svg {
     fn bundle(&self) -> MimeBundle {
         MimeBundle::default().with("text/plain", format!("[chart: {}]", self.title)).with("image/svg+xml", self.markup.clone())
+    }
+}
+
+/// A nested-model test: does the larger model improve on the smaller one?
+impl Report for NestedTest {
+    fn bundle(&self) -> MimeBundle {
+        let text = nested_text("smaller model", "larger model", self);
+        let mut html = String::new();
+        card_start(&mut html, &format!("Nested test — {} added coefficient(s)", self.q));
+        let rows = vec![
+            vec!["coefficients".into(), self.k_restricted.to_string(), self.k_full.to_string()],
+            vec!["residual sum of squares".into(), format_significant(self.rss_restricted, 6), format_significant(self.rss_full, 6)],
+        ];
+        table(&mut html, &["", "smaller model", "larger model"], &[false, true, true], &rows);
+        let tests = vec![
+            vec![
+                "F".into(),
+                format_significant(self.f_statistic, 5),
+                format!("({}, {})", self.q, self.df_resid_full),
+                format_p_value(Some(self.f_p_value)),
+            ],
+            vec!["likelihood ratio".into(), format_significant(self.lr_statistic, 5), self.q.to_string(), format_p_value(Some(self.lr_p_value))],
+        ];
+        table(&mut html, &["test", "statistic", "df", "p-value"], &[false, true, true, true], &tests);
+        card_end(&mut html);
+        MimeBundle::text_and_html(text, html)
     }
 }
 

@@ -36,6 +36,22 @@ pub fn model_values(fit: &Fit, frame: &Frame, retransform: Retransform) -> Resul
 /// a base date) with coefficient `b`. For a logged target the adjustment is
 /// `price · exp(b · (to_month − month))`; otherwise `price + b · (to_month − month)`.
 pub fn time_adjust(fit: &Fit, frame: &Frame, time_column: &str, price_column: &str, to_month: f64) -> Result<Vec<Option<f64>>> {
+    let prices = frame.numeric_column(price_column)?;
+    move_along_trend(fit, frame, time_column, to_month, &prices)
+}
+
+/// The model's value for every row of `frame` as of `month`: each row's value
+/// at its own `time_column` moved along the fitted trend to `month` (by
+/// `exp(b · (month − t))` for a logged target, `+ b · (month − t)` otherwise)
+/// — the values a ratio study compares with prices adjusted by [`time_adjust`]
+/// to the same date.
+pub fn model_values_at(fit: &Fit, frame: &Frame, time_column: &str, month: f64, retransform: Retransform) -> Result<Vec<Option<f64>>> {
+    let values = model_values(fit, frame, retransform)?;
+    move_along_trend(fit, frame, time_column, month, &values)
+}
+
+/// Moves `amounts` (one per row of `frame`) from each row's month to `to_month`.
+fn move_along_trend(fit: &Fit, frame: &Frame, time_column: &str, to_month: f64, amounts: &[Option<f64>]) -> Result<Vec<Option<f64>>> {
     let position = fit.estimated_names().iter().position(|n| *n == time_column).ok_or_else(|| {
         Error::Specification(format!(
             "`{time_column}` is not a plain numeric term of this model, so there is no time trend to adjust by (add it as a term)"
@@ -43,11 +59,10 @@ pub fn time_adjust(fit: &Fit, frame: &Frame, time_column: &str, price_column: &s
     })?;
     let slope = fit.solution().coefficients[position];
     let months = frame.numeric_column(time_column)?;
-    let prices = frame.numeric_column(price_column)?;
     let logged = fit.spec().target_transform() == TargetTransform::Log;
     Ok(months
         .iter()
-        .zip(&prices)
+        .zip(amounts)
         .map(|(m, p)| match (m, p) {
             (Some(m), Some(p)) if logged => Some(p * (slope * (to_month - m)).exp()),
             (Some(m), Some(p)) => Some(p + slope * (to_month - m)),

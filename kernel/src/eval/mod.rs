@@ -7,8 +7,10 @@
 
 pub mod completeness;
 pub mod diagnostics;
+mod runtime_relay;
 mod session;
 
+pub use runtime_relay::{relay_cell_process_output, CELL_ERROR_MARKER};
 pub use session::{CellError, CompleteOutcome, EngineConfig, ExecOutcome, Interrupter, Session, StreamLine};
 
 use serde_json::{Map, Value};

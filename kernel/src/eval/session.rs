@@ -4,6 +4,7 @@ use super::diagnostics;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 use std::process::Child;
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc;
 use std::sync::{Arc, Mutex};
 use std::time::Duration;
@@ -87,6 +88,53 @@ enum Request {
     Execute { code: String, reply: mpsc::Sender<ExecOutcome> },
     Complete { code: String, cursor: usize, reply: mpsc::Sender<CompleteOutcome> },
     Inspect { code: String, cursor: usize, reply: mpsc::Sender<Option<(String, String)>> },
+}
+
+/// What the output readers noticed while a cell ran: whether it stopped at a
+/// `?` (our relay's marker line, see `runtime_relay`), and its latest
+/// standard-error lines, where the engine printed that error.
+#[derive(Default)]
+struct CellSignals {
+    stopped_at_question_mark: AtomicBool,
+    recent_stderr: Mutex<Vec<String>>,
+}
+
+impl CellSignals {
+    fn reset(&self) {
+        self.stopped_at_question_mark.store(false, Ordering::SeqCst);
+        if let Ok(mut lines) = self.recent_stderr.lock() {
+            lines.clear();
+        }
+    }
+
+    /// Handles one output line of the cell process: our `?` marker sets the
+    /// flag, anything else goes to `streams` (standard error is also kept for
+    /// the error message). Returns false once nobody listens any more.
+    fn route(&self, name: &'static str, line: String, streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>) -> bool {
+        if name == "stdout" && line == super::CELL_ERROR_MARKER {
+            self.stopped_at_question_mark.store(true, Ordering::SeqCst);
+            return true;
+        }
+        if name == "stderr" {
+            if let Ok(mut recent) = self.recent_stderr.lock() {
+                if recent.len() >= 64 {
+                    recent.remove(0);
+                }
+                recent.push(line.clone());
+            }
+        }
+        streams.send(StreamLine { name, text: line + "\n" }).is_ok()
+    }
+
+    /// The error message the engine printed, if the cell stopped at a `?`.
+    fn question_mark_error(&self) -> Option<String> {
+        if !self.stopped_at_question_mark.swap(false, Ordering::SeqCst) {
+            return None;
+        }
+        let lines = self.recent_stderr.lock().map(|l| l.clone()).unwrap_or_default();
+        let message = lines.iter().rev().find(|l| !l.trim().is_empty()).cloned();
+        Some(message.unwrap_or_else(|| "a `?` in the cell returned an error".into()))
+    }
 }
 
 /// Stops the running cell by killing the engine's worker process.
@@ -198,7 +246,8 @@ fn engine_thread(
     streams: tokio::sync::mpsc::UnboundedSender<StreamLine>,
     interrupter: Interrupter,
 ) {
-    let startup = start_engine(&config, &streams, &interrupter);
+    let signals = Arc::new(CellSignals::default());
+    let startup = start_engine(&config, &streams, &interrupter, &signals);
     let (mut ctx, stdout, stderr) = match startup {
         Ok(parts) => parts,
         Err(message) => {
@@ -222,22 +271,34 @@ fn engine_thread(
     let drain = |streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>| {
         std::thread::sleep(Duration::from_millis(30));
         while let Ok(line) = stdout.try_recv() {
-            let _ = streams.send(StreamLine { name: "stdout", text: line + "\n" });
+            signals.route("stdout", line, streams);
         }
         while let Ok(line) = stderr.try_recv() {
-            let _ = streams.send(StreamLine { name: "stderr", text: line + "\n" });
+            signals.route("stderr", line, streams);
         }
     };
     for request in inbox {
         match request {
             Request::Execute { code, reply } => {
                 let before: Vec<String> = ctx.variables_and_types().map(|(n, _)| n.to_string()).collect();
+                signals.reset();
                 let result = ctx.execute(&code);
                 drain(&streams);
                 if let Ok(mut slot) = interrupter.child.lock() {
                     *slot = Some(ctx.process_handle());
                 }
                 let outcome = match result {
+                    Ok(_) if signals.stopped_at_question_mark.load(Ordering::SeqCst) => {
+                        let message = signals.question_mark_error().unwrap_or_default();
+                        failure(
+                            "Error",
+                            message.clone(),
+                            vec![
+                                format!("The cell stopped at a `?`: {message}"),
+                                "Statements after it did not run, and variables it would have defined were not kept.".into(),
+                            ],
+                        )
+                    }
                     Ok(outputs) => {
                         let mut data: BTreeMap<String, String> = outputs.content_by_mime_type.into_iter().collect();
                         match data.remove(PANIC_MIME) {
@@ -311,6 +372,7 @@ fn start_engine(
     config: &EngineConfig,
     streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>,
     interrupter: &Interrupter,
+    signals: &Arc<CellSignals>,
 ) -> Result<EngineParts, String> {
     if let Some(problem) = toolchain_problem() {
         return Err(problem);
@@ -330,10 +392,11 @@ fn start_engine(
     let (stdout, stderr) = (outputs.stdout, outputs.stderr);
     for (name, channel) in [("stdout", stdout.clone()), ("stderr", stderr.clone())] {
         let streams = streams.clone();
+        let signals = Arc::clone(signals);
         let name: &'static str = if name == "stdout" { "stdout" } else { "stderr" };
         std::thread::spawn(move || {
             while let Ok(line) = channel.recv() {
-                if streams.send(StreamLine { name, text: line + "\n" }).is_err() {
+                if !signals.route(name, line, &streams) {
                     break;
                 }
             }

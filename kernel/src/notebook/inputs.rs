@@ -149,10 +149,17 @@ fn new_expression(name: &str, old: &str, value: &str) -> Result<String, InputErr
         // Debug formatting of a str is a valid Rust string literal.
         return Ok(format!("{value:?}"));
     }
+    let value = value.trim();
     if is_number(old) && !is_number(value) {
         return Err(InputError::NotANumber { name: name.to_string(), old: old.to_string(), value: value.to_string() });
     }
-    Ok(value.trim().to_string())
+    // A floating-point input stays one: `39` replacing `36.0` is written `39.0`
+    // (Rust does not turn an integer literal into an f64).
+    let float_old = is_number(old) && (old.contains('.') || old.ends_with("f64") || old.ends_with("f32"));
+    if float_old && value.chars().all(|c| c.is_ascii_digit() || c == '-' || c == '_') {
+        return Ok(format!("{value}.0"));
+    }
+    Ok(value.to_string())
 }
 
 /// Applies `assignments` to the notebook's inputs cell; returns what changed.
@@ -243,6 +250,9 @@ mod tests {
         let mut nb = notebook(CELL);
         let err = apply(&mut nb, &[("sale_file".into(), "x".into())]).unwrap_err();
         assert_eq!(err.to_string(), "the inputs cell (cell 2) declares no input `sale_file`; it declares: sales_file, level, folds");
+        let mut floats = notebook(CELL);
+        apply(&mut floats, &[("level".into(), "1".into())]).unwrap();
+        assert!(floats.source(1).contains("let mut level: f64 = 1.0;"));
         let err = apply(&mut nb, &[("folds".into(), "ten".into())]).unwrap_err();
         assert!(matches!(err, InputError::NotANumber { .. }));
         let mut plain = notebook("let x = 1;");

@@ -28,6 +28,9 @@ section.prose h1{font-size:24px}section.prose h2{font-size:20px;border-bottom:1p
 section.prose h3{font-size:17px}
 section.prose table{border-collapse:collapse}section.prose td,section.prose th{border:1px solid #d5dbe3;padding:3px 8px}
 section.prose code{background:#e3e8ef;padding:0 3px;border-radius:3px;font-size:90%}
+section.prose pre{background:#e3e8ef;padding:8px 12px;border-radius:5px;overflow-x:auto;font-size:12.5px}
+section.prose pre code{background:none;padding:0;font-size:inherit}
+section.prose blockquote{border-left:3px solid #3d5a80;background:#eef3f7;margin:10px 0;padding:2px 14px;color:#24364f}
 section.code{margin:10px 0 14px 0}
 .source{display:flex;gap:8px;align-items:flex-start}
 .source .count{color:#7a8799;font-family:ui-monospace,'DejaVu Sans Mono',monospace;font-size:12px;min-width:44px;text-align:right;padding-top:7px}

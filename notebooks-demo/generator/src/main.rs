@@ -20,6 +20,8 @@
 //!   three family transfers far below market (`sale_type = non-arms-length`),
 //!   and twelve missing lot sizes.
 //! * `subjects.csv` — 40 unsold properties to value (no price).
+//! * `truth.json` — the true coefficients above, named as the design columns
+//!   of a Plumbline fit (for the check that the study recovers them).
 //! * `sales-next-quarter.csv` — the same market one quarter on: 3,000 earlier
 //!   sales plus 300 new ones from January–March 2026, in which prices rose a
 //!   further 3 % (`ln` shift 0.0296) on top of the monthly trend.
@@ -42,6 +44,38 @@ const DISTRICTS: [(&str, f64, f64); 6] = [
     ("Copperbeck", 0.05, 0.16),
 ];
 const NEXT_QUARTER_SHIFT: f64 = 0.0296;
+// The true model's coefficients (see the module documentation).
+const TRUE_INTERCEPT: f64 = 7.15;
+const TRUE_LOG_AREA: f64 = 0.62;
+const TRUE_LOG_LOT: f64 = 0.11;
+const TRUE_AGE_DECLINE: f64 = 0.0042;
+const TRUE_QUALITY: f64 = 0.085;
+const TRUE_BATHROOMS: f64 = 0.045;
+const TRUE_MONTHLY_TREND: f64 = 0.0040;
+
+/// The true model as a JSON document whose coefficient names are the design
+/// columns a Plumbline fit of the same specification produces (quality enters
+/// uncentred, so the intercept absorbs −3 × its coefficient).
+fn truth_json() -> String {
+    let mut terms = vec![
+        ("intercept".to_string(), TRUE_INTERCEPT - 3.0 * TRUE_QUALITY),
+        ("log(living_area)".to_string(), TRUE_LOG_AREA),
+        ("log(lot_size)".to_string(), TRUE_LOG_LOT),
+        ("age".to_string(), -TRUE_AGE_DECLINE),
+        ("quality".to_string(), TRUE_QUALITY),
+        ("bathrooms".to_string(), TRUE_BATHROOMS),
+    ];
+    for (name, effect, _) in DISTRICTS.iter().skip(1) {
+        terms.push((format!("district={name}"), *effect));
+    }
+    terms.push(("months_since_start".to_string(), TRUE_MONTHLY_TREND));
+    let body: Vec<String> = terms.iter().map(|(name, value)| format!("    \"{name}\": {value}")).collect();
+    format!(
+        "{{\n  \"target\": \"log(sale_price)\",\n  \"reference_district\": \"{}\",\n  \"next_quarter_log_shift\": {NEXT_QUARTER_SHIFT},\n  \"coefficients\": {{\n{}\n  }}\n}}\n",
+        DISTRICTS[0].0,
+        body.join(",\n")
+    )
+}
 
 struct Property {
     parcel: String,
@@ -78,11 +112,11 @@ fn draw_property(rng: &mut ChaCha20Rng, index: usize) -> Property {
 
 fn log_price(p: &Property, months: f64, sale_year: i32, rng: &mut ChaCha20Rng, shift: f64) -> f64 {
     let age = (sale_year - p.year_built).max(0) as f64;
-    let mean = 7.15 + 0.62 * p.living_area.ln() + 0.11 * p.lot_size.ln() - 0.0042 * age
-        + 0.085 * (p.quality - 3) as f64
-        + 0.045 * p.bathrooms
+    let mean = TRUE_INTERCEPT + TRUE_LOG_AREA * p.living_area.ln() + TRUE_LOG_LOT * p.lot_size.ln() - TRUE_AGE_DECLINE * age
+        + TRUE_QUALITY * (p.quality - 3) as f64
+        + TRUE_BATHROOMS * p.bathrooms
         + DISTRICTS[p.district].1
-        + 0.0040 * months
+        + TRUE_MONTHLY_TREND * months
         + shift;
     let sigma = 0.085 * (p.living_area / 1800.0).powf(0.35);
     mean + Normal::new(0.0, sigma).expect("valid sd").sample(rng)
@@ -181,7 +215,8 @@ fn main() -> std::process::ExitCode {
         eprintln!("error: cannot create `{}`: {e}", out_dir.display());
         return std::process::ExitCode::FAILURE;
     }
-    for (name, body) in [("sales.csv", &sales), ("sales-next-quarter.csv", &next), ("subjects.csv", &subjects)] {
+    let truth = truth_json();
+    for (name, body) in [("sales.csv", &sales), ("sales-next-quarter.csv", &next), ("subjects.csv", &subjects), ("truth.json", &truth)] {
         let path = out_dir.join(name);
         if let Err(e) = std::fs::write(&path, body) {
             eprintln!("error: cannot write `{}`: {e}", path.display());
