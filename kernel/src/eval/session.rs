@@ -366,6 +366,38 @@ fn engine_thread(
     }
 }
 
+/// Package name of the crate through which cells see `plumbline`.
+const SHARED_LIBRARY_PACKAGE: &str = "plumbline-session";
+
+/// Writes, in the engine's build directory, a one-line crate of type `dylib`
+/// that re-exports the analysis crate, and returns its folder. Cells depend on
+/// it under the name `plumbline`, so `plumbline::…` paths are unchanged, but
+/// polars, faer and the analysis code are linked once into this shared library
+/// instead of into every cell's library: cells link faster, the cell process
+/// does not grow by a polars copy (and its thread pools) per cell, and values
+/// kept across cells are all built by the same copy of the code.
+fn write_shared_library_crate(config: &EngineConfig) -> Result<PathBuf, String> {
+    let dir = config.build_dir.join("shared-library");
+    let source = dir.join("src");
+    std::fs::create_dir_all(&source).map_err(|e| format!("cannot create `{}`: {e}", source.display()))?;
+    let manifest = format!(
+        "# Written by the Plumbline kernel: cells see the analysis crate through this shared library.\n\
+         [package]\nname = \"{SHARED_LIBRARY_PACKAGE}\"\nversion = \"{}\"\nedition = \"2021\"\npublish = false\n\n\
+         [lib]\npath = \"src/lib.rs\"\ncrate-type = [\"dylib\"]\n\n\
+         [dependencies]\nplumbline = {{ path = \"{}\" }}\n",
+        env!("CARGO_PKG_VERSION"),
+        config.analysis_path.display().to_string().replace('\\', "/")
+    );
+    let library = "//! The analysis crate, re-exported as one shared library for notebook cells.\npub use plumbline::*;\n";
+    // Rewrite only on change, so cargo does not rebuild the library at every start.
+    for (path, text) in [(dir.join("Cargo.toml"), manifest), (source.join("lib.rs"), library.to_string())] {
+        if std::fs::read_to_string(&path).ok().as_deref() != Some(text.as_str()) {
+            std::fs::write(&path, text).map_err(|e| format!("cannot write `{}`: {e}", path.display()))?;
+        }
+    }
+    Ok(dir)
+}
+
 type EngineParts = (evcxr::CommandContext, crossbeam_channel::Receiver<String>, crossbeam_channel::Receiver<String>);
 
 fn start_engine(
@@ -406,7 +438,11 @@ fn start_engine(
     if let Some(level) = &config.opt_level {
         prelude.push(format!(":opt {level}"));
     }
-    prelude.push(format!(":dep plumbline = {{ path = \"{}\" }}", config.analysis_path.display().to_string().replace('\\', "/")));
+    let shared_library = write_shared_library_crate(config)?;
+    prelude.push(format!(
+        ":dep plumbline = {{ path = \"{}\", package = \"{SHARED_LIBRARY_PACKAGE}\" }}",
+        shared_library.display().to_string().replace('\\', "/")
+    ));
     prelude.push("use plumbline::prelude::*;".into());
     prelude.push(format!(
         "std::panic::set_hook(Box::new(|info| {{ println!(\"EVCXR_BEGIN_CONTENT {PANIC_MIME}\\n{{}}\\nEVCXR_END_CONTENT\", info); }}));"
