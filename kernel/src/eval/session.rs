@@ -447,7 +447,11 @@ fn start_engine(
     prelude.push(format!(
         "std::panic::set_hook(Box::new(|info| {{ println!(\"EVCXR_BEGIN_CONTENT {PANIC_MIME}\\n{{}}\\nEVCXR_END_CONTENT\", info); }}));"
     ));
-    prelude.push("let plumbline_session_ready = true;".into());
+    // A `?` in the prelude: the engine enables `?` in cells only after a first
+    // compile error caused by one, and if that first `?` sits in a cell's final
+    // expression the engine also drops that cell's rich display for plain
+    // `Debug` text. Paying that retry here keeps every user cell rich.
+    prelude.push("let plumbline_session_ready: bool = \"true\".parse::<bool>()?;".into());
     for command in &prelude {
         ctx.execute(command).map_err(|e| format!("preparing the session failed at `{command}`: {e}"))?;
     }
