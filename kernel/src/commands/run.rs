@@ -74,7 +74,7 @@ pub fn run(args: &RunArgs) -> Result<String, CommandError> {
     if let Some(path) = &html {
         let facts = RunFacts {
             notebook: args.notebook.display().to_string(),
-            started_at: notebook.json()["metadata"]["plumbline"]["run"]["started_at"].as_str().unwrap_or("").to_string(),
+            started_at: outcome.started_at.clone(),
             duration: clock(outcome.elapsed),
             inputs: applied.iter().map(|a| format!("{} = {} (was {})", a.name, a.new, a.old)).collect(),
             cells: format!("{} of {}", outcome.executed, outcome.code_cells),

@@ -25,6 +25,11 @@ pub fn mime_value(mime: &str, text: String) -> Value {
     }
 }
 
+/// A cell's MIME bundle as the protocol and nbformat carry it ([`mime_value`] per entry).
+pub fn bundle_json(data: impl IntoIterator<Item = (String, String)>) -> Map<String, Value> {
+    data.into_iter().map(|(mime, text)| (mime.clone(), mime_value(&mime, text))).collect()
+}
+
 /// The display bundle an output line carries when `plumbline::render::show`
 /// wrote it (the line starts with [`plumbline::render::KERNEL_DISPLAY_MARKER`]).
 pub fn display_bundle(line: &str) -> Option<Map<String, Value>> {

@@ -287,9 +287,10 @@ fn engine_thread(
                 if let Ok(mut slot) = interrupter.child.lock() {
                     *slot = Some(ctx.process_handle());
                 }
+                let question_mark_error = signals.question_mark_error();
                 let outcome = match result {
-                    Ok(_) if signals.stopped_at_question_mark.load(Ordering::SeqCst) => {
-                        let message = signals.question_mark_error().unwrap_or_default();
+                    Ok(_) if question_mark_error.is_some() => {
+                        let message = question_mark_error.unwrap_or_default();
                         failure(
                             "Error",
                             message.clone(),
@@ -417,6 +418,8 @@ fn start_engine(
     unsafe {
         std::env::set_var("EVCXR_TMPDIR", config.build_dir.join("work"));
         std::env::set_var("EVCXR_CONFIG_DIR", &config_dir);
+        // `plumbline::render::show` then sends whole display bundles as marked lines.
+        std::env::set_var(plumbline::render::KERNEL_DISPLAY_ENV, "1");
     }
     let (eval_context, outputs) =
         evcxr::EvalContext::new().map_err(|e| format!("the evaluation engine did not start: {e}"))?;

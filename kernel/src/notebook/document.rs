@@ -57,7 +57,11 @@ impl Notebook {
 
     /// Parses a notebook document.
     pub fn parse(text: &str) -> Result<Notebook, String> {
-        let root: Value = serde_json::from_str(text).map_err(|e| format!("invalid JSON ({e})"))?;
+        Self::from_json(serde_json::from_str(text).map_err(|e| format!("invalid JSON ({e})"))?)
+    }
+
+    /// Checks an already parsed document is a notebook of format 4.
+    pub fn from_json(root: Value) -> Result<Notebook, String> {
         match root.get("nbformat").and_then(Value::as_u64) {
             Some(4) => {}
             Some(other) => return Err(format!("format {other} (convert it to format 4 first)")),
@@ -67,11 +71,6 @@ impl Notebook {
             return Err("no `cells` list".into());
         }
         Ok(Notebook { root })
-    }
-
-    /// The whole document.
-    pub fn json(&self) -> &Value {
-        &self.root
     }
 
     fn cells_value(&self) -> &[Value] {

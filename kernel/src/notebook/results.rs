@@ -28,7 +28,7 @@ pub fn read_run(path: &Path) -> Result<RunResults, ResultsError> {
     if root.get("schema").and_then(Value::as_str) == Some("plumbline.fit") {
         run.add_document(plumbline::render::FIT_JSON_MIME, &root);
     } else if root.get("cells").is_some() {
-        let notebook = Notebook::parse(&text).map_err(unreadable)?;
+        let notebook = Notebook::from_json(root).map_err(unreadable)?;
         for cell in 0..notebook.len() {
             for output in notebook.outputs(cell) {
                 if let Some(data) = output.get("data").and_then(Value::as_object) {

@@ -11,8 +11,8 @@
 
 use super::document::{CellKind, Notebook};
 use super::inputs::AppliedInput;
-use crate::eval::{display_bundle, mime_value, CellError, EngineConfig, Session, StreamLine};
-use serde_json::{json, Map, Value};
+use crate::eval::{bundle_json, display_bundle, CellError, EngineConfig, Session, StreamLine};
+use serde_json::{json, Value};
 use std::io::Write;
 use std::time::{Duration, Instant};
 
@@ -30,6 +30,8 @@ pub struct FailedCell {
 /// What a run did.
 #[derive(Debug, Clone)]
 pub struct RunOutcome {
+    /// When the run started (UTC, RFC 3339, whole seconds).
+    pub started_at: String,
     /// Code cells executed (including a failed one).
     pub executed: usize,
     /// Code cells in the notebook.
@@ -101,14 +103,10 @@ fn stream_outputs(lines: Vec<StreamLine>) -> Vec<Value> {
 pub fn execute(notebook: &mut Notebook, config: EngineConfig, applied: &[AppliedInput], progress: &mut dyn Progress) -> RunOutcome {
     let started = Instant::now();
     let started_at = chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true);
-    // SAFETY-free: set before the engine thread starts, so the cell process inherits it.
-    unsafe {
-        std::env::set_var(plumbline::render::KERNEL_DISPLAY_ENV, "1");
-    }
     let (lines_tx, mut lines_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
     let session = Session::start(config, lines_tx);
     let code_cells: Vec<usize> = (0..notebook.len()).filter(|&i| notebook.kind(i) == CellKind::Code).collect();
-    let mut outcome = RunOutcome { executed: 0, code_cells: code_cells.len(), elapsed: Duration::ZERO, failure: None };
+    let mut outcome = RunOutcome { started_at, executed: 0, code_cells: code_cells.len(), elapsed: Duration::ZERO, failure: None };
     let mut execution_count = 0u64;
     for (position, &cell) in code_cells.iter().enumerate() {
         if outcome.failure.is_some() {
@@ -130,7 +128,7 @@ pub fn execute(notebook: &mut Notebook, config: EngineConfig, applied: &[Applied
         }
         let mut outputs = stream_outputs(lines);
         if !result.data.is_empty() {
-            let data: Map<String, Value> = result.data.into_iter().map(|(k, v)| (k.clone(), mime_value(&k, v))).collect();
+            let data = bundle_json(result.data);
             outputs.push(json!({ "output_type": "execute_result", "data": data, "metadata": {}, "execution_count": execution_count }));
         }
         if let Some(error) = result.error {
@@ -149,7 +147,7 @@ pub fn execute(notebook: &mut Notebook, config: EngineConfig, applied: &[Applied
         "plumbline",
         json!({
             "run": {
-                "started_at": started_at,
+                "started_at": outcome.started_at,
                 "seconds": (outcome.elapsed.as_secs_f64() * 10.0).round() / 10.0,
                 "plumbline_version": env!("CARGO_PKG_VERSION"),
                 "inputs_set": applied,

@@ -1,7 +1,7 @@
 //! What the kernel does with each request.
 
 use super::Shared;
-use crate::eval::{display_bundle, mime_value};
+use crate::eval::{bundle_json, display_bundle};
 use crate::eval::completeness::{check, Completeness};
 use crate::eval::StreamLine;
 use crate::wire::{Message, WireError, PROTOCOL_VERSION};
@@ -262,7 +262,7 @@ async fn execute(shared: &std::sync::Arc<Shared>, request: &Message) -> (Message
         }
     }
     if !silent && !outcome.data.is_empty() {
-        let data: Map<String, Value> = outcome.data.into_iter().map(|(k, v)| (k.clone(), mime_value(&k, v))).collect();
+        let data = bundle_json(outcome.data);
         shared.publish(Some(request), "execute_result", json!({ "execution_count": count, "data": data, "metadata": {} }));
     }
     let mut user_expressions = Map::new();
@@ -274,7 +274,7 @@ async fn execute(shared: &std::sync::Arc<Shared>, request: &Message) -> (Message
             let result = tokio::task::spawn_blocking(move || engine.execute(&expr)).await.unwrap_or_default();
             let value = match result.error {
                 None => {
-                    let data: Map<String, Value> = result.data.into_iter().map(|(k, v)| (k.clone(), mime_value(&k, v))).collect();
+                    let data = bundle_json(result.data);
                     json!({ "status": "ok", "data": data, "metadata": {} })
                 }
                 Some(e) => json!({ "status": "error", "ename": e.ename, "evalue": e.evalue, "traceback": e.traceback }),

@@ -20,9 +20,6 @@ use serde_json::{json, Value};
 use std::sync::{Arc, Mutex};
 use zeromq::{PubSocket, RepSocket, RouterSocket, Socket, SocketRecv, SocketSend, ZmqMessage};
 
-/// Environment variable the kernel sets so that `plumbline::render::show`
-/// sends its displays to the notebook rather than to standard output.
-pub const DISPLAY_ENV: &str = plumbline::render::KERNEL_DISPLAY_ENV;
 
 /// Why the kernel could not serve.
 #[derive(Debug, thiserror::Error)]
@@ -120,10 +117,6 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
     });
 
     // The engine, with its output lines forwarded to iopub.
-    // SAFETY-free: set before the engine thread starts, so the cell process inherits it.
-    unsafe {
-        std::env::set_var(DISPLAY_ENV, "1");
-    }
     let (stream_tx, mut stream_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
     let engine = Arc::new(Session::start(EngineConfig::from_environment(), stream_tx));
     let shared = Arc::new(Shared {
