@@ -33,7 +33,7 @@ Open the HTML report in a browser, or the executed notebook in any Jupyter
 front end. To rerun the study on next quarter's sales and see what moved:
 
   ./target/debug/plumbline run notebooks-demo/valuation-study.ipynb -o target/study/rerun.ipynb \
-      --set sales_file=data/sales-next-quarter.csv --set valuation_month=39
+      --set sales_file=data/sales-next-quarter.csv --set valuation_date=2026-04-01
   ./target/debug/plumbline diff notebooks-demo/valuation-study.ipynb target/study/rerun.ipynb
 
 These figures are analytical estimates from invented demo data, not appraisals.

@@ -42,15 +42,36 @@ pub enum Error {
     ColumnNotFound { name: String, source_label: String, suggestions: Vec<String>, available: Vec<String> },
 
     /// A value that should be a number is not one.
-    #[error("column `{column}` must be numeric, but data row {row}{} holds `{value}`; correct that value, or mark it missing with a null marker", line_text(*.line))]
-    NotNumeric { column: String, row: usize, line: Option<u64>, value: String },
+    #[error("column `{column}` must be numeric, but data row {row}{} holds `{value}`; {}", line_text(*.line), .hint.clone().unwrap_or_else(|| "correct that value, or mark it missing with a null marker".into()))]
+    NotNumeric { column: String, row: usize, line: Option<u64>, value: String, hint: Option<String> },
+
+    /// A number the model uses is NaN or infinite (or was written beyond the
+    /// range of a 64-bit float).
+    #[error("column `{column}` holds a value that is not a finite number at data row {row}{}: {value}{}; correct it, or treat such values as missing (command line `--non-finite missing`; library `CsvOptions::non_finite_as_missing()` or `Frame::non_finite_as_missing()`)", line_text(*.line), overflow_note(*.value))]
+    NonFinite { column: String, row: usize, line: Option<u64>, value: f64 },
+
+    /// A field of a text file is not valid in the file's encoding.
+    #[error("`{path}` line {line}, {place}: byte {byte_in_field} of the field (0x{byte:02X}) is not valid UTF-8 (the field reads `{preview}`); the file is probably in an office program's encoding: load it with `--encoding windows-1252` (or `latin-1`; library: `CsvOptions::encoding(TextEncoding::Windows1252)`)")]
+    NotUtf8 { path: PathBuf, line: u64, place: String, byte_in_field: usize, byte: u8, preview: String },
+
+    /// A value of a date column is not a date in the column's format.
+    #[error("column `{column}` holds dates written as `{format}`, but data row {row}{} holds `{value}`; correct that value, or give the column's format (`--date-format {column}=FORMAT`, e.g. `%d/%m/%Y`)", line_text(*.line))]
+    BadDate { column: String, row: usize, line: Option<u64>, value: String, format: String },
+
+    /// A date column was used where numbers are needed.
+    #[error("column `{column}` holds dates, not numbers; use it through a date term (months or days since a reference date, year, quarter or month of the year), e.g. `Term::months_since(\"{column}\", \"2023-01-01\")` or `months:{column}:2023-01-01`")]
+    DatesNotNumbers { column: String },
+
+    /// A column used as dates does not hold dates.
+    #[error("column `{column}` is used as a date but holds {found}; load it as a date column (`--column-type {column}=date`, or `--date-format {column}=FORMAT`)")]
+    NotDates { column: String, found: String },
 
     /// A column the model needs has no value at all.
     #[error("column `{column}` is missing on every row, so it cannot be used in a model")]
     ColumnAllMissing { column: String },
 
     /// A schema override names a type we do not know.
-    #[error("unknown column type `{given}` for `{column}`; use one of: number, integer, text")]
+    #[error("unknown column type `{given}` for `{column}`; use one of: number, integer, text, date, formatted-number")]
     UnknownColumnType { column: String, given: String },
 
     /// A transform met a value outside its domain (e.g. log of a non-positive number).
@@ -119,6 +140,14 @@ fn suggestion_text(suggestions: &[String]) -> String {
         [] => String::new(),
         [one] => format!(" — did you mean `{one}`?"),
         many => format!(" — did you mean one of `{}`?", many.join("`, `")),
+    }
+}
+
+fn overflow_note(value: f64) -> &'static str {
+    if value.is_infinite() {
+        " (an infinite value, or a number beyond ±1.8e308 written in the file)"
+    } else {
+        ""
     }
 }
 

@@ -274,6 +274,7 @@ impl Fit {
             n_obs: stats.n_obs,
             n_dropped: dropped.total,
             dropped_by_column: dropped.by_column.clone(),
+            non_finite_by_column: dropped.non_finite_by_column.clone(),
             df_model: stats.df_model,
             df_resid: stats.df_resid,
             intercept: self.spec().has_intercept(),
@@ -317,6 +318,9 @@ pub struct FitSummary {
     pub n_dropped: usize,
     /// Rows missing each model column (a row can count under several).
     pub dropped_by_column: Vec<(String, usize)>,
+    /// Of those, values that were present but not finite and were read as
+    /// missing because the data's rule said so (`--non-finite missing`).
+    pub non_finite_by_column: Vec<(String, usize)>,
     /// Model degrees of freedom.
     pub df_model: usize,
     /// Residual degrees of freedom.

@@ -58,7 +58,9 @@ pub use faer;
 
 /// Everything a notebook cell or a small program needs, in one `use`.
 pub mod prelude {
-    pub use crate::data::{load, load_csv, load_parquet, profile, ColumnProfile, ColumnType, CsvOptions, Frame, Provenance, Screen};
+    pub use crate::data::{
+        load, load_csv, load_parquet, profile, ColumnProfile, ColumnType, CsvOptions, Frame, NonFinite, Provenance, Screen, TextEncoding,
+    };
     pub use crate::fit::{fit, fit_with, CovarianceKind, Fit, FitOptions, Precision};
     pub use crate::inference::{Coefficient, FitStatistics, FitSummary};
     pub use crate::model::{ModelSpec, TargetTransform, Term, Transform};

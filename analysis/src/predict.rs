@@ -60,7 +60,8 @@ impl Fit {
     /// Predicts every row of `frame` that has all term values.
     pub fn predict(&self, frame: &Frame, level: f64) -> Result<Predictions> {
         check_level(level)?;
-        let (columns, rows) = self.design.recipe.apply(frame)?;
+        let applied = self.design.recipe.apply(frame)?;
+        let (columns, rows) = (&applied.columns, &applied.rows);
         if rows.is_empty() {
             return Err(Error::Prediction("no row of the new data has every value the model needs".into()));
         }
@@ -75,14 +76,12 @@ impl Fit {
             None
         };
         let ranges = &self.design.recipe.numeric_ranges;
-        let raw: Vec<Vec<Option<f64>>> = ranges.iter().map(|(c, _, _)| frame.numeric_column(c)).collect::<Result<_>>()?;
         let mut predictions = Vec::with_capacity(rows.len());
         for (i, &row) in rows.iter().enumerate() {
             let outside_range = ranges
                 .iter()
-                .zip(&raw)
-                .filter(|((_, lo, hi), values)| values[row].is_some_and(|v| v < *lo || v > *hi))
-                .map(|((c, _, _), _)| c.clone())
+                .filter(|(c, lo, hi)| applied.numbers.get(c).is_some_and(|values| values[i] < *lo || values[i] > *hi))
+                .map(|(c, _, _)| c.clone())
                 .collect();
             let x: Vec<f64> = kept.iter().map(|&j| columns[j].hi[i]).collect();
             let estimate: f64 = x.iter().zip(&self.solution.coefficients).map(|(a, b)| a * b).sum();

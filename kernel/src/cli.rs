@@ -108,6 +108,12 @@ pub struct FitArgs {
     /// Interaction A*B of two columns (a column listed in --category is categorical, else numeric).
     #[arg(long, value_name = "A*B")]
     pub interact: Vec<String>,
+    /// A term built from a date column, in the compact term syntax:
+    /// `months:sale_date:2023-01-01` or `days:sale_date:2023-01-01` (a time
+    /// trend), `year:sale_date`, `quarter:sale_date`, `month:sale_date`
+    /// (categories; `=LEVEL` names the reference) (repeatable).
+    #[arg(long = "date-term", value_name = "TERM")]
+    pub date_terms: Vec<String>,
     /// Covariance estimator for standard errors.
     #[arg(long, value_enum, default_value_t = CovarianceArg::Classical)]
     pub cov: CovarianceArg,
@@ -185,16 +191,30 @@ pub struct InputFlags {
     /// A field value meaning "missing" (repeatable; the empty field always is).
     #[arg(long = "null", value_name = "MARKER")]
     pub null_markers: Vec<String>,
-    /// Column type override COL=number|integer|text (repeatable).
+    /// Column type override COL=number|integer|text|date|formatted-number
+    /// (repeatable). `formatted-number` reads spreadsheet-style numbers such as
+    /// `$250,000`, `250 000` or `12.5%` (read as 0.125).
     #[arg(long = "column-type", value_name = "COL=TYPE")]
     pub column_types: Vec<String>,
+    /// Date format of a date column written otherwise than YYYY-MM-DD,
+    /// COL=FORMAT with chrono's % codes, e.g. `sale_date=%d/%m/%Y` (repeatable).
+    #[arg(long = "date-format", value_name = "COL=FORMAT")]
+    pub date_formats: Vec<String>,
+    /// Character encoding of a text file: utf-8, latin-1 or windows-1252.
+    #[arg(long, default_value = "utf-8")]
+    pub encoding: String,
+    /// What to do with NaN or infinite numbers in columns the model uses:
+    /// refuse (stop with the column, row and line) or missing (drop those rows
+    /// like rows with an empty field, and say so in the report).
+    #[arg(long = "non-finite", default_value = "refuse", value_name = "refuse|missing")]
+    pub non_finite: String,
 }
 
 /// Arguments of `plumbline compare`.
 ///
 /// Each `--model` is a term list in our compact syntax: comma-separated terms,
 /// `area`, `log:area`, `pow:area:0.5`, `center:age`, `std:age`, `poly:age:2`,
-/// `orth:age:2`, `cat:district`, `cat:district=Larkfield`, and `A*B` for an
+/// `orth:age:2`, `cat:district`, `cat:district=Wickerholm`, and `A*B` for an
 /// interaction. Models are named A, B, C… in the order given. All models are
 /// fitted on the rows that have every column any of them uses.
 #[derive(Debug, Args)]

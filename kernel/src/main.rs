@@ -24,8 +24,17 @@ fn main() -> ExitCode {
     };
     match outcome {
         Ok(text) => {
-            print!("{text}");
-            ExitCode::SUCCESS
+            // A reader that closed the pipe early (`plumbline fit … | head`)
+            // has all it wanted: stop quietly, as command-line tools do.
+            use std::io::Write;
+            let mut out = std::io::stdout().lock();
+            match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+                Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => {
+                    eprintln!("error: cannot write the output: {e}");
+                    ExitCode::FAILURE
+                }
+                _ => ExitCode::SUCCESS,
+            }
         }
         Err(message) => {
             eprintln!("error: {message}");

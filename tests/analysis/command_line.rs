@@ -80,8 +80,8 @@ fn flag_mistakes_are_explained() {
     assert!(m.contains("not listed in --category"), "{m}");
     let m = run(&["fit", path, "--target", "y", "--terms", "x", "--delimiter", ";;"]).expect_err("bad delimiter").to_string();
     assert!(m.contains("one character"), "{m}");
-    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--column-type", "x=date"]).expect_err("bad type").to_string();
-    assert!(m.contains("number, integer, text"), "{m}");
+    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--column-type", "x=weekday"]).expect_err("bad type").to_string();
+    assert!(m.contains("number, integer, text, date, formatted-number"), "{m}");
 }
 
 #[test]

@@ -34,7 +34,7 @@ fn time_adjustment_follows_the_trend() {
         assert!((a.expect("adjusted") - expected).abs() <= 1e-12 * expected);
     }
     let m = time_adjust(&model, &frame, "area_missing", "price", 12.0).expect_err("not a term").to_string();
-    assert!(m.contains("not a plain numeric term"), "{m}");
+    assert!(m.contains("not a time trend of this model") && m.contains("plain numeric term"), "{m}");
 }
 
 #[test]

@@ -1,6 +1,6 @@
 """The drift report between two runs of the demo study (a check of the workflow on
 invented data whose truth is known: the generator raises prices in the new quarter,
-so the monthly trend must move beyond its old interval, and the data must show 300
+so the monthly sale-date trend must move beyond its old interval, and the data must show 300
 more sales). Also reads fit bundles out of executed notebooks (nbformat 4)."""
 import json
 
@@ -10,8 +10,9 @@ from conftest import REPO, run_raw
 
 DATA = REPO / "notebooks-demo" / "data"
 FLAGS = ["--target", "sale_price", "--log-target", "--log", "living_area", "--log", "lot_size",
-         "--terms", "age,quality,bathrooms,months_since_start", "--category", "district",
-         "--reference", "district=Larkfield", "--format", "json"]
+         "--terms", "age,quality,bathrooms", "--category", "district",
+         "--date-term", "months:sale_date:2023-01-01",
+         "--reference", "district=Wickerholm", "--format", "json"]
 
 
 def fit_json(path, out):
@@ -29,9 +30,9 @@ def test_diff_reports_the_known_market_move(tmp_path):
     fit = json.loads(r.stdout)["fits"][0]
     assert fit["data_changed"] and fit["data_old"][2] == 3000 and fit["data_new"][2] == 3300
     moved = {c["term"] for c in fit["coefficients"] if c["moved"]}
-    assert "months_since_start" in moved
+    assert "sale_date (months since 2023-01-01)" in moved
     text = run_raw("diff", str(tmp_path / "q1.json"), str(tmp_path / "q2.json")).stdout
-    assert "months_since_start" in text and "3000 rows → 3300 rows" in text
+    assert "sale_date (months since 2023-01-01)" in text and "3000 rows → 3300 rows" in text
 
 
 def test_diff_reads_fit_bundles_from_notebooks(tmp_path):

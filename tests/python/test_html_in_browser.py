@@ -35,8 +35,8 @@ def screenshot(html_path, png_path, profile_dir):
 
 def test_demo_fit_report_renders(tmp_path):
     r = run_raw("fit", str(DEMO / "sales.csv"), "--target", "sale_price", "--log-target",
-                "--log", "living_area", "--log", "lot_size", "--terms", "age,quality,bathrooms,months_since_start",
-                "--category", "district", "--reference", "district=Larkfield", "--cov", "hc3",
+                "--log", "living_area", "--log", "lot_size", "--terms", "age,quality,bathrooms", "--date-term", "months:sale_date:2023-01-01",
+                "--category", "district", "--reference", "district=Wickerholm", "--cov", "hc3",
                 "--diagnose", "--id", "parcel_id", "--predict", str(DEMO / "subjects.csv"), "--format", "html")
     assert r.returncode == 0, r.stderr
     assert "<script" not in r.stdout.lower()

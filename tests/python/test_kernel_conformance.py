@@ -53,7 +53,7 @@ class PlumblineKernelTests(jupyter_kernel_test.KernelTests):
         self.assertIn("cell line 1", "\n".join(reply["content"]["traceback"]))
 
 
-def test_a_fit_cell_sends_an_svg_display():
+def test_a_fit_cell_sends_an_svg_display(tmp_path):
     km, kc = start_new_kernel(kernel_name="plumbline", startup_timeout=120)
     try:
         data = REPO / "notebooks-demo" / "data" / "sales.csv"
@@ -75,6 +75,15 @@ def test_a_fit_cell_sends_an_svg_display():
         failed = kc.execute_interactive('let missing = load("no-such-file.csv")?;\n1', timeout=TIMEOUT)
         assert failed["content"]["status"] == "error", failed["content"]
         assert "no-such-file.csv" in failed["content"]["evalue"]
+        # A non-finite value in a column the model uses fails the cell with the
+        # column and the file line, as in the library and on the command line.
+        bad = tmp_path / "bad.csv"
+        bad.write_text("price,area\n" + "".join(f"{3 * i + 1 + i % 2},{i}\n" for i in range(1, 9)) + "NaN,9\n")
+        failed = kc.execute_interactive(
+            f'let bad = load("{bad}")?;\nlet bad_fit = fit(&bad, &ModelSpec::new("price").numeric("area"))?;\n1',
+            timeout=TIMEOUT)
+        assert failed["content"]["status"] == "error", failed["content"]
+        assert "`price`" in failed["content"]["evalue"] and "file line 10" in failed["content"]["evalue"], failed["content"]
     finally:
         kc.stop_channels()
         km.shutdown_kernel(now=True)

@@ -100,12 +100,12 @@ def test_chosen_model_recovers_the_true_coefficients(study_run):
 def test_rerun_on_next_quarter_reports_the_market_move(tmp_path):
     rerun = tmp_path / "rerun.ipynb"
     result = subprocess.run([str(plumbline_binary()), "run", str(STUDY), "-o", str(rerun), "--quiet",
-                             "--set", "sales_file=data/sales-next-quarter.csv", "--set", "valuation_month=39"],
+                             "--set", "sales_file=data/sales-next-quarter.csv", "--set", "valuation_date=2026-04-01"],
                             capture_output=True, text=True, timeout=TIMEOUT)
     assert result.returncode == 0, result.stderr[-3000:]
     inputs = nbformat.read(str(rerun), as_version=4).metadata["plumbline"]["run"]["inputs_set"]
     assert {i["name"]: i["new"] for i in inputs} == {"sales_file": '"data/sales-next-quarter.csv"',
-                                                     "valuation_month": "39.0"}
+                                                     "valuation_date": '"2026-04-01"'}
     report = run_raw("diff", str(STUDY), str(rerun), "--format", "json")
     assert report.returncode == 0, report.stderr
     drift = json.loads(report.stdout)
@@ -113,10 +113,10 @@ def test_rerun_on_next_quarter_reports_the_market_move(tmp_path):
     assert chosen, "no fit saw the refreshed data"
     moved = {c["term"] for f in drift["fits"] for c in f["coefficients"] if c["moved"]}
     # The generator raised prices by a further 3 % in the new quarter: the trend steepens.
-    assert "months_since_start" in moved
+    assert "sale_date (months since 2023-01-01)" in moved
     assert drift["ratio_studies"], "the ratio study was not compared"
     text = run_raw("diff", str(STUDY), str(rerun)).stdout
-    assert "Ratio study 1" in text and "months_since_start" in text
+    assert "Ratio study 1" in text and "sale_date (months since 2023-01-01)" in text
 
 
 def test_a_failing_cell_stops_the_run_and_keeps_the_outputs(tmp_path):

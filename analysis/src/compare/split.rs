@@ -1,7 +1,8 @@
 //! Holdout splits: a seeded fraction, or "fit on older sales, test on newer".
 
 use super::seeded_order;
-use crate::data::Frame;
+use crate::data::{dates, Frame};
+use polars::prelude::DataType;
 use crate::error::{Error, Result};
 
 /// Splits off a seeded `test_fraction` of the rows (order-independent, see
@@ -24,23 +25,31 @@ pub fn split_by_fraction(frame: &Frame, test_fraction: f64, seed: u64, id_column
 }
 
 /// Splits on a cut-off in `column`: rows before `cutoff` train, rows at or
-/// after it test. Numeric columns compare as numbers; text columns compare as
-/// text, which orders ISO dates (`2025-07-01`) correctly. Rows missing the
-/// value are left out of both parts.
+/// after it test — "fit on older sales, test on newer" with a sale date.
+/// A date column compares as dates (the cut-off written `YYYY-MM-DD`);
+/// numeric columns compare as numbers; text columns compare as text. Rows
+/// missing the value are left out of both parts.
 pub fn split_by_cutoff(frame: &Frame, column: &str, cutoff: &str) -> Result<(Frame, Frame)> {
-    frame.require_column(column)?;
-    let labels = frame.label_column(column)?;
-    let numeric_cutoff = cutoff.trim().parse::<f64>().ok();
-    let numbers = match numeric_cutoff {
-        Some(_) => frame.numeric_column(column).ok(),
-        None => None,
+    let dtype = frame.column_by_name(column)?.dtype().clone();
+    let before_cutoff: Vec<Option<bool>> = if dtype == DataType::Date {
+        let day = dates::parse_iso_date(cutoff).ok_or_else(|| Error::OutOfRange {
+            what: format!("the cut-off on the date column `{column}`"),
+            requirement: "a calendar date written YYYY-MM-DD".into(),
+            value: cutoff.to_string(),
+        })?;
+        frame.date_column(column)?.iter().map(|d| d.map(|d| d < day)).collect()
+    } else if dtype.is_primitive_numeric() {
+        let c = cutoff.trim().parse::<f64>().map_err(|_| Error::OutOfRange {
+            what: format!("the cut-off on the numeric column `{column}`"),
+            requirement: "a number".into(),
+            value: cutoff.to_string(),
+        })?;
+        frame.numeric_column(column)?.iter().map(|v| v.map(|v| v < c)).collect()
+    } else {
+        frame.label_column(column)?.iter().map(|v| v.as_ref().map(|v| v.as_str() < cutoff)).collect()
     };
     let (mut train, mut test) = (Vec::new(), Vec::new());
-    for row in 0..frame.height() {
-        let before = match (&numbers, numeric_cutoff) {
-            (Some(values), Some(c)) => values[row].map(|v| v < c),
-            _ => labels[row].as_ref().map(|v| v.as_str() < cutoff),
-        };
+    for (row, before) in before_cutoff.into_iter().enumerate() {
         match before {
             Some(true) => train.push(row),
             Some(false) => test.push(row),

@@ -1,7 +1,10 @@
 //! The frame type cells and the command line work with.
 
-use super::Provenance;
+use super::dates::{from_epoch_days, parse_iso_date};
+use super::values::number_hint;
+use super::{NonFinite, Provenance};
 use crate::error::{Error, Result};
+use chrono::NaiveDate;
 use polars::prelude::{AnyValue, DataFrame, DataType, IdxCa, IdxSize};
 
 /// A polars [`DataFrame`] that remembers where it came from.
@@ -9,24 +12,57 @@ use polars::prelude::{AnyValue, DataFrame, DataType, IdxCa, IdxSize};
 /// Rows are numbered from 1 in every message (data rows, header excluded);
 /// when the source was a text file, [`Frame::source_line`] gives the file line
 /// of each row as well, because that is what an analyst opens an editor at.
+///
+/// A frame also carries its rule for non-finite numbers ([`NonFinite`]):
+/// by default a NaN or infinite value in a column used as numbers is an
+/// error naming the column, the row and the line.
 #[derive(Debug, Clone)]
 pub struct Frame {
     data: DataFrame,
     provenance: Provenance,
     source_lines: Option<Vec<u64>>,
+    non_finite: NonFinite,
+}
+
+/// A column read as numbers, with the count of non-finite values that the
+/// frame's rule turned into missing ones.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct NumericValues {
+    /// One value per row; `None` where missing.
+    pub values: Vec<Option<f64>>,
+    /// Rows whose value was not finite and now reads as missing.
+    pub non_finite_as_missing: usize,
 }
 
 impl Frame {
     /// Wraps a frame read from a source; `source_lines`, if given, holds the
     /// 1-based file line of each data row.
     pub(crate) fn from_parts(data: DataFrame, provenance: Provenance, source_lines: Option<Vec<u64>>) -> Self {
-        Self { data, provenance, source_lines }
+        Self { data, provenance, source_lines, non_finite: NonFinite::Refuse }
     }
 
     /// Wraps a frame built in code; its provenance says so under `label`.
     pub fn from_dataframe(data: DataFrame, label: &str) -> Self {
         let provenance = Provenance::in_memory(label, data.height(), data.width());
-        Self { data, provenance, source_lines: None }
+        Self { data, provenance, source_lines: None, non_finite: NonFinite::Refuse }
+    }
+
+    /// The same frame with another rule for non-finite numbers.
+    pub fn with_non_finite(mut self, rule: NonFinite) -> Self {
+        self.non_finite = rule;
+        self
+    }
+
+    /// The same frame, reading NaN and infinite numbers as missing values:
+    /// rows holding one are then dropped from fits like rows with an empty
+    /// field, and counted apart in the account of dropped rows.
+    pub fn non_finite_as_missing(&self) -> Self {
+        self.clone().with_non_finite(NonFinite::AsMissing)
+    }
+
+    /// The frame's rule for non-finite numbers.
+    pub fn non_finite_rule(&self) -> NonFinite {
+        self.non_finite
     }
 
     /// The rows at `rows` (0-based, in the order given) as a new frame whose
@@ -38,7 +74,7 @@ impl Frame {
         provenance.path = format!("{} [{label}]", self.provenance.path);
         provenance.rows = data.height();
         let source_lines = self.source_lines.as_ref().map(|lines| rows.iter().map(|&r| lines[r]).collect());
-        Ok(Frame { data, provenance, source_lines })
+        Ok(Frame { data, provenance, source_lines, non_finite: self.non_finite })
     }
 
     /// A copy with `column` set to `value` on every row (added when absent) —
@@ -50,7 +86,26 @@ impl Frame {
         let mut provenance = self.provenance.clone();
         provenance.path = format!("{} [{column} = {value}]", self.provenance.path);
         provenance.cols = data.width();
-        Ok(Frame { data, provenance, source_lines: self.source_lines.clone() })
+        Ok(Frame { data, provenance, source_lines: self.source_lines.clone(), non_finite: self.non_finite })
+    }
+
+    /// A copy with `column` set to the date `date` (ISO 8601, `YYYY-MM-DD`) on
+    /// every row (added when absent) — for example subject properties valued
+    /// as of one date through a model with a sale-date term.
+    pub fn with_date(&self, column: &str, date: &str) -> Result<Frame> {
+        let day = parse_iso_date(date).ok_or_else(|| Error::OutOfRange {
+            what: format!("the date given for `{column}`"),
+            requirement: "a calendar date written YYYY-MM-DD".into(),
+            value: date.to_string(),
+        })?;
+        let mut data = self.data.clone();
+        let days = vec![super::dates::to_epoch_days(day); data.height()];
+        let filled = polars::prelude::Column::new(column.into(), days).cast(&DataType::Date)?;
+        data.with_column(filled)?;
+        let mut provenance = self.provenance.clone();
+        provenance.path = format!("{} [{column} = {date}]", self.provenance.path);
+        provenance.cols = data.width();
+        Ok(Frame { data, provenance, source_lines: self.source_lines.clone(), non_finite: self.non_finite })
     }
 
     /// A stable text key of row `row` built from every column's value, used to
@@ -122,10 +177,19 @@ impl Frame {
     ///
     /// Integer and boolean columns convert exactly (integers beyond 2⁵³ round).
     /// A text column is accepted only when every present value parses as a
-    /// number; otherwise the first offending row is reported with its value.
+    /// number; otherwise the first offending row is reported with its value
+    /// (and, for a spreadsheet-formatted number, the option that reads it).
+    /// A non-finite value is refused with its row and line, or read as
+    /// missing when the frame's rule says so ([`Frame::non_finite_as_missing`]).
     pub fn numeric_column(&self, name: &str) -> Result<Vec<Option<f64>>> {
+        Ok(self.numeric_values(name)?.values)
+    }
+
+    /// [`Frame::numeric_column`] with the count of non-finite values read as
+    /// missing, for the account of dropped rows.
+    pub(crate) fn numeric_values(&self, name: &str) -> Result<NumericValues> {
         let series = self.column_by_name(name)?.as_materialized_series().clone();
-        let values: Vec<Option<f64>> = match series.dtype() {
+        let mut values: Vec<Option<f64>> = match series.dtype() {
             DataType::String => {
                 let strings = series.str()?;
                 let mut out = Vec::with_capacity(strings.len());
@@ -140,6 +204,7 @@ impl Frame {
                                     row: row + 1,
                                     line: self.source_line(row),
                                     value: text.to_string(),
+                                    hint: number_hint(name, text),
                                 })
                             }
                         },
@@ -147,6 +212,7 @@ impl Frame {
                 }
                 out
             }
+            DataType::Date | DataType::Datetime(..) => return Err(Error::DatesNotNumbers { column: name.to_string() }),
             dtype if dtype.is_primitive_numeric() || dtype.is_bool() => {
                 let cast = series.cast(&DataType::Float64)?;
                 cast.f64()?.iter().collect()
@@ -158,13 +224,68 @@ impl Frame {
                     row: 1,
                     line: self.source_line(0),
                     value: format!("{first} (a {other} column)"),
+                    hint: None,
                 });
             }
         };
+        let mut non_finite_as_missing = 0;
+        for (row, value) in values.iter_mut().enumerate() {
+            if let Some(v) = *value {
+                if !v.is_finite() {
+                    match self.non_finite {
+                        NonFinite::Refuse => {
+                            return Err(Error::NonFinite {
+                                column: name.to_string(),
+                                row: row + 1,
+                                line: self.source_line(row),
+                                value: v,
+                            })
+                        }
+                        NonFinite::AsMissing => {
+                            *value = None;
+                            non_finite_as_missing += 1;
+                        }
+                    }
+                }
+            }
+        }
         if !values.is_empty() && values.iter().all(Option::is_none) {
             return Err(Error::ColumnAllMissing { column: name.to_string() });
         }
-        Ok(values)
+        Ok(NumericValues { values, non_finite_as_missing })
+    }
+
+    /// The column as calendar dates, `None` for missing values.
+    ///
+    /// A date column reads directly; a text column is accepted when every
+    /// present value is an ISO 8601 date (`YYYY-MM-DD`), otherwise the first
+    /// other value is reported with its row and line.
+    pub fn date_column(&self, name: &str) -> Result<Vec<Option<NaiveDate>>> {
+        let series = self.column_by_name(name)?.as_materialized_series().clone();
+        let dates: Vec<Option<NaiveDate>> = match series.dtype() {
+            DataType::Date => series.date()?.physical().iter().map(|d| d.and_then(from_epoch_days)).collect(),
+            DataType::String => {
+                let mut out = Vec::with_capacity(series.len());
+                for (row, value) in series.str()?.iter().enumerate() {
+                    out.push(match value {
+                        None => None,
+                        Some(text) => Some(parse_iso_date(text).ok_or_else(|| Error::BadDate {
+                            column: name.to_string(),
+                            row: row + 1,
+                            line: self.source_line(row),
+                            value: text.to_string(),
+                            format: super::dates::ISO_DATE_FORMAT.to_string(),
+                        })?),
+                    });
+                }
+                out
+            }
+            other => return Err(Error::NotDates { column: name.to_string(), found: format!("{other} values") }),
+        };
+        if !dates.is_empty() && dates.iter().all(Option::is_none) {
+            return Err(Error::ColumnAllMissing { column: name.to_string() });
+        }
+        Ok(dates)
     }
 
     /// The column as text labels (numbers print as they would in a file), for

@@ -5,16 +5,24 @@
 //!   point at the exact line to fix.
 //! * [`CsvOptions`] / [`load_csv`] — delimited text with delimiter, header,
 //!   null markers and per-column type overrides.
+//!   Streams the file into typed columns (numbers, integers, text, dates),
+//!   in UTF-8, Latin-1 or Windows-1252.
 //! * [`load_parquet`] — Apache Parquet through polars.
+//! * [`NonFinite`] — what a frame does with NaN and infinite values where they
+//!   are used (refuse, by default, or treat as missing); [`dates`] — calendar
+//!   dates and the sale-date arithmetic of date terms.
 //! * [`profile`] — a per-column summary (type, missing, min/median/max, levels).
 //! * [`Screen`] — rows kept by a stated rule, with a record of the rows set aside.
 
 mod csv_reader;
+pub mod dates;
 mod frame;
 mod parquet_reader;
 pub mod profile;
 mod provenance;
 mod screen;
+mod text_encoding;
+mod values;
 
 pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
@@ -22,6 +30,8 @@ pub use parquet_reader::load_parquet;
 pub use profile::{profile, ColumnProfile};
 pub use provenance::{sha256_hex, Provenance};
 pub use screen::{ExcludedRow, Screen};
+pub use text_encoding::TextEncoding;
+pub use values::{parse_formatted_number, NonFinite};
 
 use crate::error::{Error, Result};
 use std::path::Path;
@@ -42,9 +52,14 @@ pub fn load(path: impl AsRef<Path>) -> Result<Frame> {
 
 /// Reads a whole file, turning an I/O failure into an actionable error.
 pub(crate) fn read_bytes(path: &Path) -> Result<Vec<u8>> {
-    std::fs::read(path).map_err(|e| Error::FileUnreadable {
+    std::fs::read(path).map_err(|e| unreadable(path, e))
+}
+
+/// The error for a data file that cannot be opened or read.
+pub(crate) fn unreadable(path: &Path, cause: std::io::Error) -> Error {
+    Error::FileUnreadable {
         path: path.to_path_buf(),
-        reason: e.to_string(),
+        reason: cause.to_string(),
         cwd: std::env::current_dir().map(|d| d.display().to_string()).unwrap_or_else(|_| "?".into()),
-    })
+    }
 }

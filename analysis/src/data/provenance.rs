@@ -33,6 +33,11 @@ impl Provenance {
         }
     }
 
+    /// Stamps a file whose bytes were hashed while they were streamed.
+    pub(crate) fn for_file_hash(path: &std::path::Path, sha256: String, rows: usize, cols: usize) -> Self {
+        Self { path: path.display().to_string(), sha256, rows, cols, loaded_at: now_utc() }
+    }
+
     /// Stamps a frame that was built in code rather than read from a file.
     pub fn in_memory(label: &str, rows: usize, cols: usize) -> Self {
         Self { path: label.to_string(), sha256: String::new(), rows, cols, loaded_at: now_utc() }

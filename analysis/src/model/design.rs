@@ -1,8 +1,9 @@
 //! From a frame and a specification to the numbers a solver needs.
 
 use super::encode::{learn, GeneratedColumn, RowValues, TermEncoding};
-use super::spec::{ModelSpec, TargetTransform, Term};
-use crate::data::Frame;
+use super::spec::{DatePart, ModelSpec, TargetTransform, Term};
+use crate::data::{dates, Frame};
+use chrono::NaiveDate;
 use crate::error::{Error, Result};
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
@@ -21,16 +22,28 @@ pub struct DroppedRows {
     /// For every model column with missing values, how many rows miss it (a
     /// row missing two columns counts under both).
     pub by_column: Vec<(String, usize)>,
+    /// Of those, the values that were present but not finite (NaN, ±∞) and
+    /// were read as missing because the frame's rule said so, by column.
+    pub non_finite_by_column: Vec<(String, usize)>,
 }
 
 impl DroppedRows {
-    /// A one-line account, e.g. `12 rows (lot_size: 9, age: 4)`.
+    /// A one-line account, e.g. `12 rows (lot_size: 9, age: 4)`, or with
+    /// non-finite values read as missing,
+    /// `3 rows (sale_price: 3, of which 2 not finite and read as missing)`.
     pub fn describe(&self) -> String {
         if self.total == 0 {
             return "none".into();
         }
-        let parts: Vec<String> = self.by_column.iter().map(|(c, k)| format!("{c}: {k}")).collect();
-        format!("{} row{} ({})", self.total, if self.total == 1 { "" } else { "s" }, parts.join(", "))
+        let parts: Vec<String> = self
+            .by_column
+            .iter()
+            .map(|(c, k)| match self.non_finite_by_column.iter().find(|(n, _)| n == c) {
+                Some((_, f)) => format!("{c}: {k}, of which {f} not finite and read as missing"),
+                None => format!("{c}: {k}"),
+            })
+            .collect();
+        format!("{} row{} ({})", self.total, if self.total == 1 { "" } else { "s" }, parts.join("; "))
     }
 }
 
@@ -97,80 +110,175 @@ struct CompleteRows {
     dropped: DroppedRows,
 }
 
-fn numeric_columns_of(term: &Term, out: &mut BTreeSet<String>) {
-    match term {
-        Term::Numeric { column, .. } => {
-            out.insert(column.clone());
-        }
-        Term::Category { .. } => {}
-        Term::Interaction(a, b) => {
-            numeric_columns_of(a, out);
-            numeric_columns_of(b, out);
+/// Where one set of values the design reads comes from: a frame column, or
+/// a part of a date column (a date term). Keyed in the maps below by the name
+/// the encoder reads it under ([`DatePart::derived_name`] for date parts).
+#[derive(Debug, Clone, PartialEq)]
+enum ValueSource {
+    Column(String),
+    DatePart { column: String, part: DatePart },
+}
+
+impl ValueSource {
+    fn column(&self) -> &str {
+        match self {
+            ValueSource::Column(c) | ValueSource::DatePart { column: c, .. } => c,
         }
     }
 }
 
-fn label_columns_of(term: &Term, out: &mut BTreeSet<String>) {
-    match term {
-        Term::Category { column, .. } => {
-            out.insert(column.clone());
+/// The values a set of terms reads, as numbers and as labels.
+#[derive(Debug, Default)]
+struct ValueReads {
+    numbers: BTreeMap<String, ValueSource>,
+    labels: BTreeMap<String, ValueSource>,
+}
+
+impl ValueReads {
+    fn of_terms(terms: &[Term]) -> Self {
+        let mut reads = Self::default();
+        terms.iter().for_each(|t| reads.add_term(t));
+        reads
+    }
+
+    fn add_term(&mut self, term: &Term) {
+        match term {
+            Term::Numeric { column, .. } => self.add_number(column),
+            Term::Category { column, .. } => self.add_label(column),
+            Term::Date { column, part, .. } => {
+                let source = ValueSource::DatePart { column: column.clone(), part: part.clone() };
+                let map = if part.is_numeric() { &mut self.numbers } else { &mut self.labels };
+                map.insert(part.derived_name(column), source);
+            }
+            Term::Interaction(a, b) => {
+                self.add_term(a);
+                self.add_term(b);
+            }
         }
-        Term::Numeric { .. } => {}
-        Term::Interaction(a, b) => {
-            label_columns_of(a, out);
-            label_columns_of(b, out);
+    }
+
+    fn add_number(&mut self, column: &str) {
+        self.numbers.insert(column.to_string(), ValueSource::Column(column.to_string()));
+    }
+
+    fn add_label(&mut self, column: &str) {
+        self.labels.insert(column.to_string(), ValueSource::Column(column.to_string()));
+    }
+}
+
+/// The reference date of a date term, parsed.
+fn reference_date(column: &str, part: &DatePart, reference: &str) -> Result<NaiveDate> {
+    dates::parse_iso_date(reference).ok_or_else(|| Error::OutOfRange {
+        what: format!("the reference date of the term `{}`", part.derived_name(column)),
+        requirement: "a calendar date written YYYY-MM-DD".into(),
+        value: reference.to_string(),
+    })
+}
+
+/// The numbers a source yields, one per frame row, and how many non-finite
+/// values the frame's rule read as missing.
+fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<Option<f64>>, usize)> {
+    match source {
+        ValueSource::Column(c) => {
+            let read = frame.numeric_values(c)?;
+            Ok((read.values, read.non_finite_as_missing))
+        }
+        ValueSource::DatePart { column, part } => {
+            let days = frame.date_column(column)?;
+            let measure: Box<dyn Fn(NaiveDate) -> f64> = match part {
+                DatePart::MonthsSince(r) => {
+                    let r = reference_date(column, part, r)?;
+                    Box::new(move |d| dates::months_between(r, d))
+                }
+                DatePart::DaysSince(r) => {
+                    let r = reference_date(column, part, r)?;
+                    Box::new(move |d| dates::days_between(r, d))
+                }
+                _ => unreachable!("categorical date parts are read as labels"),
+            };
+            Ok((days.into_iter().map(|d| d.map(&measure)).collect(), 0))
         }
     }
 }
 
-/// Reads the named columns and keeps the rows where all of them are present.
-fn complete_rows(frame: &Frame, numeric: &BTreeSet<String>, label: &BTreeSet<String>, order: &[String]) -> Result<CompleteRows> {
-    for name in numeric.iter().chain(label) {
-        frame.require_column(name)?;
+/// The labels a source yields, one per frame row.
+fn read_labels(frame: &Frame, source: &ValueSource) -> Result<Vec<Option<String>>> {
+    match source {
+        ValueSource::Column(c) => frame.label_column(c),
+        ValueSource::DatePart { column, part } => {
+            let label: fn(NaiveDate) -> String = match part {
+                DatePart::Year => dates::year_label,
+                DatePart::Quarter => dates::quarter_label,
+                DatePart::MonthOfYear => dates::month_of_year_label,
+                DatePart::MonthsSince(_) | DatePart::DaysSince(_) => unreachable!("numeric date parts are read as numbers"),
+            };
+            Ok(frame.date_column(column)?.into_iter().map(|d| d.map(label)).collect())
+        }
     }
+}
+
+/// Reads the values a design needs and keeps the rows where all of them are
+/// present; missing values are counted by frame column, in `order`.
+fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<CompleteRows> {
+    for source in reads.numbers.values().chain(reads.labels.values()) {
+        frame.require_column(source.column())?;
+    }
+    let mut non_finite_by_column: BTreeMap<&str, usize> = BTreeMap::new();
     let mut raw_numbers = BTreeMap::new();
-    for name in numeric {
-        raw_numbers.insert(name.clone(), frame.numeric_column(name)?);
+    // Read in model order (target first), so that of two bad values on one
+    // row the message names the column the user thinks of first.
+    let position = |column: &str| order.iter().position(|c| c == column).unwrap_or(usize::MAX);
+    let mut number_reads: Vec<(&String, &ValueSource)> = reads.numbers.iter().collect();
+    number_reads.sort_by_key(|(_, source)| position(source.column()));
+    for (key, source) in number_reads {
+        let (values, non_finite) = read_numbers(frame, source)?;
+        if non_finite > 0 {
+            *non_finite_by_column.entry(source.column()).or_default() = non_finite;
+        }
+        raw_numbers.insert(key.clone(), (source.column(), values));
     }
     let mut raw_labels = BTreeMap::new();
-    for name in label {
-        raw_labels.insert(name.clone(), frame.label_column(name)?);
+    for (key, source) in &reads.labels {
+        raw_labels.insert(key.clone(), (source.column(), read_labels(frame, source)?));
     }
     let height = frame.height();
     let mut missing_by_column: BTreeMap<&str, usize> = BTreeMap::new();
     let mut rows = Vec::with_capacity(height);
+    let mut missing_now: BTreeSet<&str> = BTreeSet::new();
     for row in 0..height {
-        let mut complete = true;
-        for (name, values) in &raw_numbers {
+        missing_now.clear();
+        for (column, values) in raw_numbers.values() {
             if values[row].is_none() {
-                *missing_by_column.entry(name).or_default() += 1;
-                complete = false;
+                missing_now.insert(column);
             }
         }
-        for (name, values) in &raw_labels {
+        for (column, values) in raw_labels.values() {
             if values[row].is_none() {
-                *missing_by_column.entry(name).or_default() += 1;
-                complete = false;
+                missing_now.insert(column);
             }
         }
-        if complete {
+        if missing_now.is_empty() {
             rows.push(row);
         }
-    }
-    let mut by_column: Vec<(String, usize)> = Vec::new();
-    for name in order {
-        if let Some(k) = missing_by_column.remove(name.as_str()) {
-            by_column.push((name.clone(), k));
+        for column in &missing_now {
+            *missing_by_column.entry(column).or_default() += 1;
         }
     }
-    let dropped = DroppedRows { total: height - rows.len(), by_column };
+    let in_order = |counts: &mut BTreeMap<&str, usize>| -> Vec<(String, usize)> {
+        order.iter().filter_map(|name| counts.remove(name.as_str()).map(|k| (name.clone(), k))).collect()
+    };
+    let dropped = DroppedRows {
+        total: height - rows.len(),
+        by_column: in_order(&mut missing_by_column),
+        non_finite_by_column: in_order(&mut non_finite_by_column),
+    };
     let numbers = raw_numbers
         .into_iter()
-        .map(|(k, v)| (k, rows.iter().map(|&r| v[r].unwrap_or(f64::NAN)).collect()))
+        .map(|(k, (_, v))| (k, rows.iter().map(|&r| v[r].unwrap_or(f64::NAN)).collect()))
         .collect();
     let labels = raw_labels
         .into_iter()
-        .map(|(k, v)| (k, rows.iter().map(|&r| v[r].clone().unwrap_or_default()).collect()))
+        .map(|(k, (_, v))| (k, rows.iter().map(|&r| v[r].clone().unwrap_or_default()).collect()))
         .collect();
     Ok(CompleteRows { numbers, labels, rows, dropped })
 }
@@ -186,18 +294,13 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
         return Err(Error::Specification("a model without intercept needs at least one term".into()));
     }
     check_degrees(spec.terms())?;
-    let mut numeric = BTreeSet::new();
-    let mut label = BTreeSet::new();
-    numeric.insert(spec.target().to_string());
-    for term in spec.terms() {
-        numeric_columns_of(term, &mut numeric);
-        label_columns_of(term, &mut label);
-    }
+    let mut reads = ValueReads::of_terms(spec.terms());
+    reads.add_number(spec.target());
     if let Some(w) = spec.weight_column() {
-        numeric.insert(w.to_string());
+        reads.add_number(w);
     }
     for extra in also_require {
-        label.insert(extra.to_string());
+        reads.add_label(extra);
     }
     let mut order = vec![spec.target().to_string()];
     for term in spec.terms() {
@@ -207,7 +310,7 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
     order.extend(also_require.iter().map(|s| s.to_string()));
     order.dedup();
 
-    let complete = complete_rows(frame, &numeric, &label, &order)?;
+    let complete = complete_rows(frame, &reads, &order)?;
     if complete.rows.is_empty() {
         return Err(Error::AllRowsDropped { detail: complete.dropped.describe() });
     }
@@ -248,7 +351,7 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
     let mut encodings = Vec::with_capacity(spec.terms().len());
     let mut full_coding_pending = !spec.has_intercept();
     for term in spec.terms() {
-        let full = full_coding_pending && matches!(term, Term::Category { .. });
+        let full = full_coding_pending && matches!(term.resolved(), Term::Category { .. });
         if full {
             full_coding_pending = false;
         }
@@ -259,12 +362,9 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
     if let Some(dup) = column_names.iter().enumerate().find(|(i, n)| column_names[..*i].contains(n)).map(|(_, n)| n) {
         return Err(Error::Specification(format!("the design column `{dup}` is generated twice; remove the repeated term")));
     }
-    let mut term_numeric = BTreeSet::new();
-    for term in spec.terms() {
-        numeric_columns_of(term, &mut term_numeric);
-    }
-    let numeric_ranges = term_numeric
-        .iter()
+    let numeric_ranges = ValueReads::of_terms(spec.terms())
+        .numbers
+        .keys()
         .map(|c| {
             let v = &complete.numbers[c];
             (c.clone(), v.iter().cloned().fold(f64::INFINITY, f64::min), v.iter().cloned().fold(f64::NEG_INFINITY, f64::max))
@@ -311,18 +411,25 @@ impl DesignRecipe {
     /// Returns the design columns for the rows that have every term value, and
     /// those rows' original indices; rows with a missing term value are left
     /// out (the caller reports them). The target is not needed.
-    pub fn apply(&self, frame: &Frame) -> Result<(Vec<DesignColumn>, Vec<usize>)> {
-        let mut numeric = BTreeSet::new();
-        let mut label = BTreeSet::new();
-        for term in self.spec.terms() {
-            numeric_columns_of(term, &mut numeric);
-            label_columns_of(term, &mut label);
-        }
+    pub fn apply(&self, frame: &Frame) -> Result<AppliedDesign> {
+        let reads = ValueReads::of_terms(self.spec.terms());
         let order: Vec<String> = self.spec.terms().iter().flat_map(|t| t.columns()).map(str::to_string).collect();
-        let complete = complete_rows(frame, &numeric, &label, &order)?;
+        let complete = complete_rows(frame, &reads, &order)?;
         let line_of = |row: usize| frame.source_line(row);
         let values = RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
         let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
-        Ok((columns, complete.rows))
+        Ok(AppliedDesign { columns, rows: complete.rows, numbers: complete.numbers })
     }
+}
+
+/// New rows coded by [`DesignRecipe::apply`].
+#[derive(Debug, Clone)]
+pub struct AppliedDesign {
+    /// The design columns, for the rows in `rows`.
+    pub columns: Vec<DesignColumn>,
+    /// The 0-based frame rows that had every term value.
+    pub rows: Vec<usize>,
+    /// The numeric values the terms read (before transforms), by the names in
+    /// [`DesignRecipe::numeric_ranges`], for the rows in `rows`.
+    pub numbers: BTreeMap<String, Vec<f64>>,
 }

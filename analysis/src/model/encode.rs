@@ -11,7 +11,7 @@ use std::collections::BTreeMap;
 /// transform produced more digits than a double keeps (powers, products).
 #[derive(Debug, Clone, PartialEq)]
 pub struct GeneratedColumn {
-    /// Display name, e.g. `living_area^2` or `district=Old Quay`.
+    /// Display name, e.g. `living_area^2` or `district=Tidewright Quay`.
     pub name: String,
     /// Values rounded to double.
     pub hi: Vec<f64>,
@@ -155,6 +155,7 @@ pub fn learn(term: &Term, values: &RowValues, full_coding: bool) -> Result<TermE
             let coded_levels = all_levels.iter().filter(|l| Some(*l) != reference.as_ref()).cloned().collect();
             Ok(TermEncoding::Category { column: column.clone(), coded_levels, reference, all_levels })
         }
+        Term::Date { .. } => learn(&term.resolved(), values, full_coding),
         Term::Interaction(a, b) => {
             Ok(TermEncoding::Interaction(Box::new(learn(a, values, false)?), Box::new(learn(b, values, false)?)))
         }

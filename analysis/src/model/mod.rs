@@ -12,6 +12,6 @@ pub mod encode;
 mod spec;
 mod term_list;
 
-pub use design::{build_design, Design, DesignColumn, DesignRecipe, DroppedRows, TermSpan};
-pub use spec::{ModelSpec, Term, TargetTransform, Transform};
+pub use design::{build_design, AppliedDesign, Design, DesignColumn, DesignRecipe, DroppedRows, TermSpan};
+pub use spec::{DatePart, ModelSpec, TargetTransform, Term, Transform};
 pub use term_list::parse_term_list;

@@ -6,7 +6,7 @@
 //!     .log_target()
 //!     .term(Term::numeric("living_area").log())
 //!     .term(Term::numeric("age").poly(2))
-//!     .term(Term::category("district").reference("Old Quay"))
+//!     .term(Term::category("district").reference("Tidewright Quay"))
 //!     .term(Term::numeric("living_area").times(Term::category("district")));
 //! assert_eq!(spec.target(), "sale_price");
 //! ```
@@ -46,6 +46,43 @@ pub enum Transform {
     OrthogonalPolynomial(u32),
 }
 
+/// What a date term takes from a date column (see [`crate::data::dates`] for
+/// the calendar arithmetic).
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub enum DatePart {
+    /// Months since a reference date (ISO 8601 `YYYY-MM-DD`): whole calendar
+    /// months plus the day's fraction of its month; a numeric time trend.
+    MonthsSince(String),
+    /// Days since a reference date (ISO 8601); a numeric time trend.
+    DaysSince(String),
+    /// The calendar year, as a category (one indicator per sale year).
+    Year,
+    /// The calendar quarter, as a category labelled `2025 Q3`.
+    Quarter,
+    /// The month of the year, as a category labelled `03 Mar` (seasonality).
+    MonthOfYear,
+}
+
+impl DatePart {
+    /// Whether the part enters the design as a number (else as a category).
+    pub fn is_numeric(&self) -> bool {
+        matches!(self, DatePart::MonthsSince(_) | DatePart::DaysSince(_))
+    }
+
+    /// The name of the values the part derives from `column`, used for its
+    /// design column: `sale_date (months since 2023-01-01)`,
+    /// `sale_date (quarter)`.
+    pub fn derived_name(&self, column: &str) -> String {
+        match self {
+            DatePart::MonthsSince(reference) => format!("{column} (months since {reference})"),
+            DatePart::DaysSince(reference) => format!("{column} (days since {reference})"),
+            DatePart::Year => format!("{column} (year)"),
+            DatePart::Quarter => format!("{column} (quarter)"),
+            DatePart::MonthOfYear => format!("{column} (month of year)"),
+        }
+    }
+}
+
 /// One term of a model.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub enum Term {
@@ -64,6 +101,16 @@ pub enum Term {
         /// frequent level, ties broken by level order.
         reference: Option<String>,
     },
+    /// A number or a category built from a date column (a sale date).
+    Date {
+        /// Column name in the frame (a date column, or ISO 8601 text).
+        column: String,
+        /// What the term takes from the date.
+        part: DatePart,
+        /// For a categorical part, the level left out (`None`: the most
+        /// frequent one); unused for numeric parts.
+        reference: Option<String>,
+    },
     /// The product of two terms: every column of the left times every column
     /// of the right.
     Interaction(Box<Term>, Box<Term>),
@@ -78,6 +125,33 @@ impl Term {
     /// A categorical column with the most frequent level as reference.
     pub fn category(column: impl Into<String>) -> Self {
         Term::Category { column: column.into(), reference: None }
+    }
+
+    /// Months since `reference` (ISO 8601, e.g. `"2023-01-01"`) of a date
+    /// column: a numeric time trend (whole months plus the day's fraction of
+    /// its month, see [`crate::data::dates`]).
+    pub fn months_since(column: impl Into<String>, reference: impl Into<String>) -> Self {
+        Term::Date { column: column.into(), part: DatePart::MonthsSince(reference.into()), reference: None }
+    }
+
+    /// Days since `reference` (ISO 8601) of a date column: a numeric trend.
+    pub fn days_since(column: impl Into<String>, reference: impl Into<String>) -> Self {
+        Term::Date { column: column.into(), part: DatePart::DaysSince(reference.into()), reference: None }
+    }
+
+    /// The calendar year of a date column, as a category.
+    pub fn sale_year(column: impl Into<String>) -> Self {
+        Term::Date { column: column.into(), part: DatePart::Year, reference: None }
+    }
+
+    /// The calendar quarter (`2025 Q3`) of a date column, as a category.
+    pub fn sale_quarter(column: impl Into<String>) -> Self {
+        Term::Date { column: column.into(), part: DatePart::Quarter, reference: None }
+    }
+
+    /// The month of the year (`03 Mar`) of a date column, as a category.
+    pub fn month_of_year(column: impl Into<String>) -> Self {
+        Term::Date { column: column.into(), part: DatePart::MonthOfYear, reference: None }
     }
 
     /// Replaces a numeric term's transform (no effect on other terms).
@@ -118,12 +192,29 @@ impl Term {
         self.transformed(Transform::Standardize)
     }
 
-    /// Sets the reference level of a categorical term.
+    /// Sets the reference level of a categorical term (or of a categorical
+    /// date term such as [`Term::sale_quarter`]).
     pub fn reference(mut self, level: impl Into<String>) -> Self {
-        if let Term::Category { reference, .. } = &mut self {
+        if let Term::Category { reference, .. } | Term::Date { reference, .. } = &mut self {
             *reference = Some(level.into());
         }
         self
+    }
+
+    /// The plain term a date term stands for, reading the values it derives
+    /// under [`DatePart::derived_name`]; other terms are returned as they are.
+    pub(crate) fn resolved(&self) -> Term {
+        match self {
+            Term::Date { column, part, reference } => {
+                let derived = part.derived_name(column);
+                if part.is_numeric() {
+                    Term::numeric(derived)
+                } else {
+                    Term::Category { column: derived, reference: reference.clone() }
+                }
+            }
+            other => other.clone(),
+        }
     }
 
     /// The interaction (product) of this term with another.
@@ -145,6 +236,7 @@ impl Term {
                 Transform::OrthogonalPolynomial(d) => format!("orthogonal({column}, {d})"),
             },
             Term::Category { column, .. } => column.clone(),
+            Term::Date { column, part, .. } => part.derived_name(column),
             Term::Interaction(a, b) => format!("{}*{}", a.label(), b.label()),
         }
     }
@@ -152,7 +244,7 @@ impl Term {
     /// Every frame column this term reads.
     pub fn columns(&self) -> Vec<&str> {
         match self {
-            Term::Numeric { column, .. } | Term::Category { column, .. } => vec![column.as_str()],
+            Term::Numeric { column, .. } | Term::Category { column, .. } | Term::Date { column, .. } => vec![column.as_str()],
             Term::Interaction(a, b) => {
                 let mut c = a.columns();
                 c.extend(b.columns());

@@ -12,12 +12,15 @@
 //! | `center:age`, `std:age` | centred; standardized |
 //! | `poly:age:3`, `orth:age:3` | raw / orthogonal polynomial of degree 3 |
 //! | `cat:district` | categorical, most frequent level as reference |
-//! | `cat:district=Larkfield` | categorical with the named reference level |
+//! | `cat:district=Wickerholm` | categorical with the named reference level |
+//! | `months:sale_date:2023-01-01` | months since a date (whole months plus the day's fraction) |
+//! | `days:sale_date:2023-01-01` | days since a date |
+//! | `year:sale_date`, `quarter:sale_date`, `month:sale_date` | sale year, quarter (`2025 Q3`), month of the year (`03 Mar`) as categories; `=LEVEL` names the reference |
 //! | `log:area*cat:district` | interaction |
 //!
 //! ```
 //! use plumbline::model::parse_term_list;
-//! let terms = parse_term_list("log:living_area, age, cat:district=Larkfield, log:living_area*cat:district").unwrap();
+//! let terms = parse_term_list("log:living_area, age, cat:district=Wickerholm, log:living_area*cat:district").unwrap();
 //! assert_eq!(terms.len(), 4);
 //! ```
 
@@ -53,16 +56,34 @@ fn parse_term(token: &str) -> Result<Term> {
         ["pow", column, p] => Term::numeric(name(column)?).transformed(Transform::Power(number(p)?)),
         ["poly", column, d] => Term::numeric(name(column)?).poly(degree(d)?),
         ["orth", column, d] => Term::numeric(name(column)?).orthogonal_poly(degree(d)?),
-        ["cat", rest] => match rest.split_once('=') {
-            Some((column, level)) => Term::category(name(column)?).reference(level.trim()),
-            None => Term::category(name(rest)?),
-        },
+        ["cat", rest] => with_reference(rest, Term::category)?,
+        ["months", column, date] => Term::months_since(name(column)?, date.trim()),
+        ["days", column, date] => Term::days_since(name(column)?, date.trim()),
+        ["year", rest] => with_reference(rest, Term::sale_year)?,
+        ["quarter", rest] => with_reference(rest, Term::sale_quarter)?,
+        ["month", rest] => with_reference(rest, Term::month_of_year)?,
         [prefix, ..] => {
             return Err(bad(&format!(
-                "unknown prefix `{prefix}:`; use log:, pow:C:P, center:, std:, poly:C:D, orth:C:D or cat:"
+                "unknown prefix `{prefix}:`; use log:, pow:C:P, center:, std:, poly:C:D, orth:C:D, cat:, months:C:DATE, days:C:DATE, year:, quarter: or month:"
             )))
         }
         [] => return Err(bad("empty term")),
+    })
+}
+
+/// A categorical term on `COLUMN` or `COLUMN=REFERENCE`.
+fn with_reference(text: &str, make: fn(String) -> Term) -> Result<Term> {
+    let (column, level) = match text.split_once('=') {
+        Some((column, level)) => (column.trim(), Some(level.trim())),
+        None => (text.trim(), None),
+    };
+    if column.is_empty() {
+        return Err(Error::Specification(format!("term `{text}`: missing column name")));
+    }
+    let term = make(column.to_string());
+    Ok(match level {
+        Some(level) => term.reference(level),
+        None => term,
     })
 }
 
@@ -79,6 +100,16 @@ mod tests {
             ["a", "log(b)", "c^0.5", "centered(d)", "standardized(e)", "poly(f, 2)", "orthogonal(g, 3)", "h", "i", "a*h"]
         );
         assert_eq!(terms[8], Term::category("i").reference("X"));
+    }
+
+    #[test]
+    fn parses_date_terms() {
+        let terms = parse_term_list("months:sale_date:2023-01-01, days:d:2024-02-29, year:d, quarter:d=2024 Q1, month:d").unwrap();
+        assert_eq!(terms[0], Term::months_since("sale_date", "2023-01-01"));
+        assert_eq!(terms[1], Term::days_since("d", "2024-02-29"));
+        assert_eq!(terms[2], Term::sale_year("d"));
+        assert_eq!(terms[3], Term::sale_quarter("d").reference("2024 Q1"));
+        assert_eq!(terms[4].label(), "d (month of year)");
     }
 
     #[test]

@@ -169,7 +169,16 @@ impl ProfileReport {
             .iter()
             .map(|c| {
                 let levels = c.top_levels.iter().map(|(l, n)| format!("{l} ({n})")).collect::<Vec<_>>().join(", ");
-                [c.name.clone(), c.dtype.clone(), c.missing.to_string(), c.distinct.to_string(), number(c.min), number(c.median), if c.min.is_some() { number(c.max) } else { levels }]
+                let missing = match c.non_finite {
+                    0 => c.missing.to_string(),
+                    k => format!("{} + {k} NaN/∞", c.missing),
+                };
+                let (low, high) = match (&c.earliest, &c.latest) {
+                    (Some(first), Some(last)) => (first.clone(), last.clone()),
+                    _ if c.min.is_some() => (number(c.min), number(c.max)),
+                    _ => (number(None), levels),
+                };
+                [c.name.clone(), c.dtype.clone(), missing, c.distinct.to_string(), low, number(c.median), high]
             })
             .collect()
     }
@@ -177,7 +186,7 @@ impl ProfileReport {
 
 impl Report for ProfileReport {
     fn bundle(&self) -> MimeBundle {
-        let header = ["column", "type", "missing", "distinct", "min", "median", "max / top levels"];
+        let header = ["column", "type", "missing", "distinct", "min / earliest", "median", "max / latest / top levels"];
         let rows = self.rows();
         let mut text = format!("Column profile of {}\n", self.source);
         let widths: Vec<usize> = (0..7).map(|i| rows.iter().map(|r| r[i].chars().count()).chain([header[i].len()]).max().unwrap_or(4).min(30)).collect();

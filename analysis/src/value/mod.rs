@@ -19,4 +19,4 @@ mod time;
 
 pub use ratio_study::{ratio_study, GroupStudy, RatioOptions, RatioStatistics, RatioStudy};
 pub use standards::{Judgement, PropertyClass};
-pub use time::{model_values, model_values_at, time_adjust, Retransform};
+pub use time::{model_values, model_values_at, time_adjust, Retransform, TimePoint};

@@ -1,9 +1,10 @@
 //! Values from a fitted model, and sale prices moved to a valuation date.
 
-use crate::data::Frame;
+use crate::data::{dates, Frame};
 use crate::error::{Error, Result};
 use crate::fit::Fit;
-use crate::model::TargetTransform;
+use crate::model::{DatePart, TargetTransform, Term};
+use chrono::NaiveDate;
 
 /// How to bring a logged model's estimate back to prices.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -30,42 +31,116 @@ pub fn model_values(fit: &Fit, frame: &Frame, retransform: Retransform) -> Resul
     Ok(values)
 }
 
-/// Sale prices adjusted to `to_month` along the model's time trend.
+/// A point on a model's time axis: a date, for a model whose time trend is a
+/// date term ([`Term::months_since`], [`Term::days_since`]), or a number in
+/// the units of a plain numeric time column (e.g. months since a base date
+/// computed by hand).
+#[derive(Debug, Clone, PartialEq)]
+pub enum TimePoint {
+    /// A calendar date, ISO 8601 `YYYY-MM-DD`.
+    Date(String),
+    /// A value of a numeric time column.
+    Number(f64),
+}
+
+impl From<&str> for TimePoint {
+    fn from(date: &str) -> Self {
+        TimePoint::Date(date.to_string())
+    }
+}
+
+impl From<String> for TimePoint {
+    fn from(date: String) -> Self {
+        TimePoint::Date(date)
+    }
+}
+
+impl From<f64> for TimePoint {
+    fn from(value: f64) -> Self {
+        TimePoint::Number(value)
+    }
+}
+
+impl From<NaiveDate> for TimePoint {
+    fn from(date: NaiveDate) -> Self {
+        TimePoint::Date(date.format(dates::ISO_DATE_FORMAT).to_string())
+    }
+}
+
+/// Sale prices adjusted to the valuation date `to` along the model's time trend.
 ///
-/// `time_column` must enter the model as a plain numeric term (months since
-/// a base date) with coefficient `b`. For a logged target the adjustment is
-/// `price · exp(b · (to_month − month))`; otherwise `price + b · (to_month − month)`.
-pub fn time_adjust(fit: &Fit, frame: &Frame, time_column: &str, price_column: &str, to_month: f64) -> Result<Vec<Option<f64>>> {
+/// The trend is the model's term on `time_column`: a date term (months or days
+/// since a reference date; then `to` is a date such as `"2026-01-01"`), or a
+/// plain numeric term (then `to` is a number in its units). With slope `b` per
+/// unit and `Δ` the units from the sale to `to`, the adjusted price is
+/// `price · exp(b · Δ)` for a logged target and `price + b · Δ` otherwise.
+pub fn time_adjust(fit: &Fit, frame: &Frame, time_column: &str, price_column: &str, to: impl Into<TimePoint>) -> Result<Vec<Option<f64>>> {
     let prices = frame.numeric_column(price_column)?;
-    move_along_trend(fit, frame, time_column, to_month, &prices)
+    move_along_trend(fit, frame, time_column, &to.into(), &prices)
 }
 
-/// The model's value for every row of `frame` as of `month`: each row's value
-/// at its own `time_column` moved along the fitted trend to `month` (by
-/// `exp(b · (month − t))` for a logged target, `+ b · (month − t)` otherwise)
-/// — the values a ratio study compares with prices adjusted by [`time_adjust`]
-/// to the same date.
-pub fn model_values_at(fit: &Fit, frame: &Frame, time_column: &str, month: f64, retransform: Retransform) -> Result<Vec<Option<f64>>> {
+/// The model's value for every row of `frame` as of the valuation date `at`:
+/// each row's value at its own date moved along the fitted trend to `at` (by
+/// `exp(b · Δ)` for a logged target, `+ b · Δ` otherwise) — the values a ratio
+/// study compares with prices adjusted by [`time_adjust`] to the same date.
+pub fn model_values_at(
+    fit: &Fit,
+    frame: &Frame,
+    time_column: &str,
+    at: impl Into<TimePoint>,
+    retransform: Retransform,
+) -> Result<Vec<Option<f64>>> {
     let values = model_values(fit, frame, retransform)?;
-    move_along_trend(fit, frame, time_column, month, &values)
+    move_along_trend(fit, frame, time_column, &at.into(), &values)
 }
 
-/// Moves `amounts` (one per row of `frame`) from each row's month to `to_month`.
-fn move_along_trend(fit: &Fit, frame: &Frame, time_column: &str, to_month: f64, amounts: &[Option<f64>]) -> Result<Vec<Option<f64>>> {
-    let position = fit.estimated_names().iter().position(|n| *n == time_column).ok_or_else(|| {
+/// Moves `amounts` (one per row of `frame`) from each row's time to `to`.
+fn move_along_trend(fit: &Fit, frame: &Frame, time_column: &str, to: &TimePoint, amounts: &[Option<f64>]) -> Result<Vec<Option<f64>>> {
+    let date_term = fit.spec().terms().iter().find_map(|t| match t {
+        Term::Date { column, part, .. } if column == time_column && part.is_numeric() => Some(part.clone()),
+        _ => None,
+    });
+    let trend_name = date_term.as_ref().map_or_else(|| time_column.to_string(), |part| part.derived_name(time_column));
+    let position = fit.estimated_names().iter().position(|n| *n == trend_name).ok_or_else(|| {
         Error::Specification(format!(
-            "`{time_column}` is not a plain numeric term of this model, so there is no time trend to adjust by (add it as a term)"
+            "`{time_column}` is not a time trend of this model (a plain numeric term, or a months-since or days-since date term), \
+             so there is nothing to adjust by; add it as a term"
         ))
     })?;
     let slope = fit.solution().coefficients[position];
-    let months = frame.numeric_column(time_column)?;
+    let steps: Vec<Option<f64>> = match (&date_term, to) {
+        (Some(part), TimePoint::Date(text)) => {
+            let to_date = dates::parse_iso_date(text).ok_or_else(|| Error::OutOfRange {
+                what: "the valuation date".into(),
+                requirement: "a calendar date written YYYY-MM-DD".into(),
+                value: text.clone(),
+            })?;
+            let between = match part {
+                DatePart::DaysSince(_) => dates::days_between,
+                _ => dates::months_between,
+            };
+            frame.date_column(time_column)?.iter().map(|d| d.map(|d| between(d, to_date))).collect()
+        }
+        (None, TimePoint::Number(to)) => frame.numeric_column(time_column)?.iter().map(|m| m.map(|m| to - m)).collect(),
+        (Some(_), TimePoint::Number(n)) => {
+            return Err(Error::Specification(format!(
+                "the time trend `{trend_name}` is a date term, so the valuation date must be a date (e.g. \"2026-01-01\"), not the number {n}"
+            )))
+        }
+        (None, TimePoint::Date(text)) => {
+            return Err(Error::Specification(format!(
+                "the time trend `{time_column}` is a numeric column, so the valuation point must be a number in its units, not the date `{text}`; \
+                 or model the sale date with a date term (`Term::months_since`)"
+            )))
+        }
+    };
     let logged = fit.spec().target_transform() == TargetTransform::Log;
-    Ok(months
+    Ok(steps
         .iter()
         .zip(amounts)
-        .map(|(m, p)| match (m, p) {
-            (Some(m), Some(p)) if logged => Some(p * (slope * (to_month - m)).exp()),
-            (Some(m), Some(p)) => Some(p + slope * (to_month - m)),
+        .map(|(step, amount)| match (step, amount) {
+            (Some(d), Some(p)) if logged => Some(p * (slope * d).exp()),
+            (Some(d), Some(p)) => Some(p + slope * d),
             _ => None,
         })
         .collect())

@@ -39,6 +39,12 @@ pub fn csv_options(args: &InputFlags) -> Result<CsvOptions, CommandError> {
         })?;
         options = options.column_type(column, ty);
     }
+    for pair in &args.date_formats {
+        let (column, format) = split_pair(pair, '=', "date-format", "COL=FORMAT such as `sale_date=%d/%m/%Y`")?;
+        options = options.date_format(column, format);
+    }
+    options.encoding = args.encoding.parse().map_err(CommandError::Usage)?;
+    options.non_finite = args.non_finite.parse().map_err(|e: String| CommandError::Usage(format!("--non-finite: {e}")))?;
     Ok(options)
 }
 
@@ -48,7 +54,7 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
     let references: BTreeMap<&str, &str> = args
         .reference
         .iter()
-        .map(|r| split_pair(r, '=', "reference", "COL=LEVEL such as `district=Old Quay`"))
+        .map(|r| split_pair(r, '=', "reference", "COL=LEVEL such as `district=Tidewright Quay`"))
         .collect::<Result<_, _>>()?;
     for (column, _) in &references {
         if !args.category.iter().any(|c| c == column) {
@@ -96,6 +102,16 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
         let (a, b) = split_pair(text, '*', "interact", "A*B such as `living_area*district`")?;
         spec = spec.term(side(a).times(side(b)));
     }
+    for text in &args.date_terms {
+        for term in plumbline::model::parse_term_list(text)? {
+            if !matches!(term, Term::Date { .. }) {
+                return Err(CommandError::Usage(format!(
+                    "--date-term expects a date term such as `months:sale_date:2023-01-01` or `quarter:sale_date`, got `{text}`"
+                )));
+            }
+            spec = spec.term(term);
+        }
+    }
     Ok(spec)
 }
 
@@ -129,7 +145,8 @@ pub fn precision(arg: PrecisionArg) -> Precision {
 pub fn load_with_flags(path: &std::path::Path, args: &InputFlags) -> Result<Frame, CommandError> {
     let extension = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
     if extension == "parquet" || extension == "pq" {
-        Ok(load_parquet(path)?)
+        let rule = csv_options(args)?.non_finite;
+        Ok(load_parquet(path)?.with_non_finite(rule))
     } else {
         Ok(load_csv(path, &csv_options(args)?)?)
     }

@@ -159,6 +159,11 @@ impl Notebook {
 }
 
 /// Writes `bytes` to `path` through a temporary file in the same folder and a rename.
+///
+/// The temporary file is created private (mode 0600); before the rename it
+/// gets the permissions of the file it replaces, or for a new file the usual
+/// 0666 less the process's umask (0644 under the common umask 022), so a
+/// written notebook or report is as readable as any file the user creates.
 pub fn write_file_atomic(path: &Path, bytes: &[u8]) -> Result<(), NotebookError> {
     use std::io::Write;
     let unwritable = |reason: String| NotebookError::Unwritable { path: path.to_path_buf(), reason };
@@ -169,9 +174,30 @@ pub fn write_file_atomic(path: &Path, bytes: &[u8]) -> Result<(), NotebookError>
     std::fs::create_dir_all(&folder).map_err(|e| unwritable(format!("cannot create the folder: {e}")))?;
     let mut file = tempfile::NamedTempFile::new_in(&folder).map_err(|e| unwritable(e.to_string()))?;
     file.write_all(bytes).map_err(|e| unwritable(e.to_string()))?;
+    let permissions = match std::fs::metadata(path) {
+        Ok(existing) => existing.permissions(),
+        Err(_) => new_file_permissions(),
+    };
+    file.as_file().set_permissions(permissions).map_err(|e| unwritable(e.to_string()))?;
     file.as_file().sync_all().map_err(|e| unwritable(e.to_string()))?;
     file.persist(path).map_err(|e| unwritable(e.error.to_string()))?;
     Ok(())
+}
+
+/// 0666 less the process's umask: what `open(2)` gives a new file. The mask
+/// is read from `/proc/self/status` (Linux 4.7+) rather than by setting it and
+/// putting it back, which would race with other threads creating files; where
+/// it cannot be read, the common mask 022 is assumed.
+fn new_file_permissions() -> std::fs::Permissions {
+    use std::os::unix::fs::PermissionsExt;
+    let mask = std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|status| {
+            let line = status.lines().find(|l| l.starts_with("Umask:"))?;
+            u32::from_str_radix(line.trim_start_matches("Umask:").trim(), 8).ok()
+        })
+        .unwrap_or(0o022);
+    std::fs::Permissions::from_mode(0o666 & !mask)
 }
 
 #[cfg(test)]
@@ -189,6 +215,26 @@ mod tests {
         assert_eq!(nb.source(0), "# Study\ntext");
         assert_eq!(nb.kind(1), CellKind::Code);
         assert_eq!(nb.title("fallback"), "Study");
+    }
+
+    #[test]
+    fn written_files_get_the_usual_permissions_not_the_temporary_files() {
+        use std::os::unix::fs::PermissionsExt;
+        let dir = tempfile::tempdir().unwrap();
+        let fresh = dir.path().join("report.html");
+        write_file_atomic(&fresh, b"<p>x</p>").unwrap();
+        let mode = std::fs::metadata(&fresh).unwrap().permissions().mode() & 0o777;
+        assert_eq!(mode, new_file_permissions().mode() & 0o777);
+        assert_ne!(mode, 0o600, "the temporary file's private mode leaked");
+        assert_eq!(mode & 0o044, 0o044 & new_file_permissions().mode(), "group/other read as the umask allows");
+
+        // Replacing a file keeps its permissions (here an unusual 0640).
+        let kept = dir.path().join("study.ipynb");
+        std::fs::write(&kept, "{}").unwrap();
+        std::fs::set_permissions(&kept, std::fs::Permissions::from_mode(0o640)).unwrap();
+        write_file_atomic(&kept, b"{\"new\": true}").unwrap();
+        assert_eq!(std::fs::metadata(&kept).unwrap().permissions().mode() & 0o777, 0o640);
+        assert_eq!(std::fs::read_to_string(&kept).unwrap(), "{\"new\": true}");
     }
 
     #[test]

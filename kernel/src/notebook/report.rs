@@ -62,12 +62,38 @@ pub struct RunFacts {
     pub stopped: Option<String>,
 }
 
+/// Renders notebook Markdown for the report, safely: raw HTML in the Markdown
+/// (blocks and inline tags, `<script>` included) is shown as text, not passed
+/// through, and a link or image whose address uses a scheme other than
+/// `http`, `https` or `mailto` (e.g. `javascript:`) keeps its text but loses
+/// the address. A shared notebook thus cannot put script into a report.
 fn markdown_html(source: &str) -> String {
-    use pulldown_cmark::{html, Options, Parser};
+    use pulldown_cmark::{html, Event, Options, Parser, Tag};
     let options = Options::ENABLE_TABLES | Options::ENABLE_FOOTNOTES | Options::ENABLE_STRIKETHROUGH;
+    let events = Parser::new_ext(source, options).map(|event| match event {
+        Event::Html(raw) | Event::InlineHtml(raw) => Event::Text(raw),
+        Event::Start(Tag::Link { link_type, dest_url, title, id }) if !safe_url(&dest_url) => {
+            Event::Start(Tag::Link { link_type, dest_url: "".into(), title, id })
+        }
+        Event::Start(Tag::Image { link_type, dest_url, title, id }) if !safe_url(&dest_url) => {
+            Event::Start(Tag::Image { link_type, dest_url: "".into(), title, id })
+        }
+        other => other,
+    });
     let mut out = String::new();
-    html::push_html(&mut out, Parser::new_ext(source, options));
+    html::push_html(&mut out, events);
     out
+}
+
+/// Whether a link address is safe in a report: relative, a fragment, or an
+/// `http`, `https` or `mailto` URL.
+fn safe_url(url: &str) -> bool {
+    let lowered: String = url.trim().chars().filter(|c| !c.is_control() && !c.is_whitespace()).collect::<String>().to_ascii_lowercase();
+    match lowered.split_once(':') {
+        // A colon after a `/`, `?` or `#` is not a scheme separator.
+        Some((scheme, _)) if !scheme.contains(['/', '?', '#']) => matches!(scheme, "http" | "https" | "mailto"),
+        _ => true,
+    }
 }
 
 /// Removes terminal colour codes from engine text.
@@ -188,6 +214,20 @@ pub fn report_html(notebook: &Notebook, facts: &RunFacts) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn markdown_cannot_put_script_or_markup_into_a_report() {
+        let source = "# Notes\n\n<script>alert('x')</script>\n\nText with <img src=x onerror=alert(1)> inline.\n\n\
+                      [click](javascript:alert(1)) [ok](https://example.org/a:b) [rel](notes.html#s) ![p](JaVaScRiPt:alert(2))\n";
+        let html = markdown_html(source);
+        assert!(!html.contains("<script"), "{html}");
+        assert!(!html.contains("<img src=x"), "{html}");
+        assert!(html.contains("&lt;script&gt;"), "raw HTML is shown as text: {html}");
+        assert!(!html.to_ascii_lowercase().contains("javascript:"), "{html}");
+        assert!(html.contains("href=\"https://example.org/a:b\""), "{html}");
+        assert!(html.contains("href=\"notes.html#s\""), "{html}");
+        assert!(html.contains(">click</a>"), "the link text stays: {html}");
+    }
 
     #[test]
     fn markdown_tables_render_and_text_outputs_are_escaped() {

@@ -7,19 +7,24 @@
 //! ```text
 //! ln(price) = 7.15 + 0.62·ln(living_area) + 0.11·ln(lot_size) − 0.0042·age
 //!           + 0.085·(quality − 3) + 0.045·bathrooms + district effect
-//!           + 0.0040·months_since_start + ε,
+//!           + 0.0040·months + ε,
 //! ε ~ Normal(0, σᵢ),  σᵢ = 0.085 · (living_area / 1800)^0.35   (heteroskedastic)
 //! ```
 //!
-//! District effects (reference Larkfield = 0): Old Quay +0.18, Tannery Row −0.09,
-//! Brindle Heights +0.27, Saltmarsh −0.15, Copperbeck +0.05.
+//! District effects (reference Wickerholm = 0): Tidewright Quay +0.18, Brambleknot −0.09,
+//! Corvel Heights +0.27, Mossgrieve −0.15, Pellowick +0.05.
+//!
+//! `months` counts from 1 January 2023 the way Plumbline's months-since date
+//! term does: whole calendar months plus the day's fraction of its month,
+//! `(day − 1) / days_in_month` (see `plumbline::data::dates`).
 //!
 //! Files written to the output folder (default `notebooks-demo/data`):
 //! * `sales.csv` — 3,000 sales from January 2023 to December 2025, with a few
 //!   deliberately bad records: five living areas keyed with an extra digit,
 //!   three family transfers far below market (`sale_type = non-arms-length`),
 //!   and twelve missing lot sizes.
-//! * `subjects.csv` — 40 unsold properties to value (no price).
+//! * `subjects.csv` — 40 unsold properties to value (no price); their
+//!   `sale_date` is the valuation date, 2026-01-01, which the trend term reads.
 //! * `truth.json` — the true coefficients above, named as the design columns
 //!   of a Plumbline fit (for the check that the study recovers them).
 //! * `sales-next-quarter.csv` — the same market one quarter on: 3,000 earlier
@@ -36,12 +41,12 @@ use std::path::PathBuf;
 
 const DISTRICTS: [(&str, f64, f64); 6] = [
     // name, effect on ln(price), relative frequency
-    ("Larkfield", 0.0, 0.24),
-    ("Old Quay", 0.18, 0.14),
-    ("Tannery Row", -0.09, 0.18),
-    ("Brindle Heights", 0.27, 0.12),
-    ("Saltmarsh", -0.15, 0.16),
-    ("Copperbeck", 0.05, 0.16),
+    ("Wickerholm", 0.0, 0.24),
+    ("Tidewright Quay", 0.18, 0.14),
+    ("Brambleknot", -0.09, 0.18),
+    ("Corvel Heights", 0.27, 0.12),
+    ("Mossgrieve", -0.15, 0.16),
+    ("Pellowick", 0.05, 0.16),
 ];
 const NEXT_QUARTER_SHIFT: f64 = 0.0296;
 // The true model's coefficients (see the module documentation).
@@ -68,7 +73,7 @@ fn truth_json() -> String {
     for (name, effect, _) in DISTRICTS.iter().skip(1) {
         terms.push((format!("district={name}"), *effect));
     }
-    terms.push(("months_since_start".to_string(), TRUE_MONTHLY_TREND));
+    terms.push(("sale_date (months since 2023-01-01)".to_string(), TRUE_MONTHLY_TREND));
     let body: Vec<String> = terms.iter().map(|(name, value)| format!("    \"{name}\": {value}")).collect();
     format!(
         "{{\n  \"target\": \"log(sale_price)\",\n  \"reference_district\": \"{}\",\n  \"next_quarter_log_shift\": {NEXT_QUARTER_SHIFT},\n  \"coefficients\": {{\n{}\n  }}\n}}\n",
@@ -127,17 +132,27 @@ fn date_of(month_index: i32, day: i32) -> (i32, i32, i32) {
     (2023 + month_index / 12, month_index % 12 + 1, day)
 }
 
-const SALES_HEADER: &str = "parcel_id,sale_date,months_since_start,sale_price,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_type\n";
+/// Days in a month of the Gregorian calendar.
+fn days_in_month(year: i32, month: i32) -> i32 {
+    match month {
+        2 if (year % 4 == 0 && year % 100 != 0) || year % 400 == 0 => 29,
+        2 => 28,
+        4 | 6 | 9 | 11 => 30,
+        _ => 31,
+    }
+}
+
+const SALES_HEADER: &str = "parcel_id,sale_date,sale_price,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_type\n";
 
 fn sale_row(out: &mut String, p: &Property, month_index: i32, rng: &mut ChaCha20Rng, shift: f64) {
     let day = rng.random_range(1..=28);
     let (year, month, day) = date_of(month_index, day);
-    let months = month_index as f64 + (day as f64 - 1.0) / 30.0;
+    let months = month_index as f64 + (day as f64 - 1.0) / days_in_month(year, month) as f64;
     let price = (log_price(p, months, year, rng, shift).exp() / 100.0).round() * 100.0;
     let age = (year - p.year_built).max(0);
     let _ = writeln!(
         out,
-        "{},{year:04}-{month:02}-{day:02},{months:.2},{price:.0},{},{},{},{age},{},{},{},arms-length",
+        "{},{year:04}-{month:02}-{day:02},{price:.0},{},{},{},{age},{},{},{},arms-length",
         p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0
     );
 }
@@ -174,21 +189,21 @@ fn main() -> std::process::ExitCode {
     for &i in &[211usize, 907, 1460, 2118, 2764] {
         // Living area keyed with an extra digit (e.g. 1650 → 16500).
         let mut fields: Vec<String> = rows[i].trim_end().split(',').map(str::to_string).collect();
-        let area: f64 = fields[4].parse().unwrap_or(1500.0);
-        fields[4] = format!("{}", area * 10.0);
+        let area: f64 = fields[3].parse().unwrap_or(1500.0);
+        fields[3] = format!("{}", area * 10.0);
         rows[i] = fields.join(",") + "\n";
     }
     for &i in &[388usize, 1777, 2503] {
         // Family transfers at a fraction of market value.
         let mut fields: Vec<String> = rows[i].trim_end().split(',').map(str::to_string).collect();
-        let price: f64 = fields[3].parse().unwrap_or(300000.0);
-        fields[3] = format!("{:.0}", (price * 0.35 / 100.0).round() * 100.0);
-        fields[11] = "non-arms-length".into();
+        let price: f64 = fields[2].parse().unwrap_or(300000.0);
+        fields[2] = format!("{:.0}", (price * 0.35 / 100.0).round() * 100.0);
+        fields[10] = "non-arms-length".into();
         rows[i] = fields.join(",") + "\n";
     }
     for &i in &[57usize, 340, 612, 1011, 1299, 1533, 1870, 2045, 2290, 2611, 2830, 2977] {
         let mut fields: Vec<String> = rows[i].trim_end().split(',').map(str::to_string).collect();
-        fields[5] = String::new();
+        fields[4] = String::new();
         rows[i] = fields.join(",") + "\n";
     }
     rows.iter().for_each(|r| sales.push_str(r));
@@ -200,13 +215,13 @@ fn main() -> std::process::ExitCode {
         sale_row(&mut next, &p, month_index, &mut rng, NEXT_QUARTER_SHIFT);
     }
 
-    let mut subjects = String::from("parcel_id,living_area,lot_size,year_built,age,quality,bathrooms,district,months_since_start\n");
+    let mut subjects = String::from("parcel_id,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_date\n");
     for i in 0..40 {
         let p = draw_property(&mut rng, 5000 + i);
         let age = (2026 - p.year_built).max(0);
         let _ = writeln!(
             subjects,
-            "{},{},{},{},{age},{},{},{},36.00",
+            "{},{},{},{},{age},{},{},{},2026-01-01",
             p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0
         );
     }
