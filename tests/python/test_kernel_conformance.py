@@ -53,6 +53,19 @@ class PlumblineKernelTests(jupyter_kernel_test.KernelTests):
         self.assertIn("cell line 1", "\n".join(reply["content"]["traceback"]))
 
 
+# (case, last data row as bytes, column named, further text the message must hold);
+# the messages are our own, so these are behavioural checks.
+BAD_VALUE_CASES = [
+    ("nan", b"NaN,9", "price", "--non-finite missing"),
+    ("infinity", b"30,inf", "area", "not a finite number"),
+    ("negative-infinity", b"30,-inf", "area", "not a finite number"),
+    ("overflow", b"9" + b"0" * 400 + b",9", "price", "1.8e308"),
+    ("currency", b'"$1,200",9', "price", "formatted-number"),
+    ("thousands", b"1 200,9", "price", "formatted-number"),
+    ("latin-1", b"30,9\xe9", "area", "--encoding windows-1252"),
+]
+
+
 def test_a_fit_cell_sends_an_svg_display(tmp_path):
     km, kc = start_new_kernel(kernel_name="plumbline", startup_timeout=120)
     try:
@@ -75,15 +88,18 @@ def test_a_fit_cell_sends_an_svg_display(tmp_path):
         failed = kc.execute_interactive('let missing = load("no-such-file.csv")?;\n1', timeout=TIMEOUT)
         assert failed["content"]["status"] == "error", failed["content"]
         assert "no-such-file.csv" in failed["content"]["evalue"]
-        # A non-finite value in a column the model uses fails the cell with the
-        # column and the file line, as in the library and on the command line.
-        bad = tmp_path / "bad.csv"
-        bad.write_text("price,area\n" + "".join(f"{3 * i + 1 + i % 2},{i}\n" for i in range(1, 9)) + "NaN,9\n")
-        failed = kc.execute_interactive(
-            f'let bad = load("{bad}")?;\nlet bad_fit = fit(&bad, &ModelSpec::new("price").numeric("area"))?;\n1',
-            timeout=TIMEOUT)
-        assert failed["content"]["status"] == "error", failed["content"]
-        assert "`price`" in failed["content"]["evalue"] and "file line 10" in failed["content"]["evalue"], failed["content"]
+        # Every kind of bad value fails the cell with the column and the file
+        # line, as in the library and on the command line.
+        for case, last_row, column, more in BAD_VALUE_CASES:
+            bad = tmp_path / f"{case}.csv"
+            rows = "".join(f"{3 * i + 1 + i % 2},{i}\n" for i in range(1, 9))
+            bad.write_bytes(b"price,area\n" + rows.encode() + last_row + b"\n")
+            failed = kc.execute_interactive(
+                f'let bad = load("{bad}")?;\nlet bad_fit = fit(&bad, &ModelSpec::new("price").numeric("area"))?;\n1',
+                timeout=TIMEOUT)
+            assert failed["content"]["status"] == "error", (case, failed["content"])
+            evalue = failed["content"]["evalue"]
+            assert f"`{column}`" in evalue and "line 10" in evalue and more in evalue, (case, evalue)
     finally:
         kc.stop_channels()
         km.shutdown_kernel(now=True)
