@@ -171,12 +171,10 @@ pub fn load_csv(path: impl AsRef<Path>, options: &CsvOptions) -> Result<Frame> {
     if let Some((first, line)) = reader.pending_first.take() {
         context.push_record(&first, line, &mut columns, &mut lines, &mut late_text)?;
     }
-    let mut record = csv::ByteRecord::new();
-    while reader.csv.read_byte_record(&mut record).map_err(|e| malformed(path, &e))? {
+    let sha256 = read_in_two_stages(reader.csv, |record| {
         let line = record.position().map_or(0, |p| p.line());
-        context.push_record(&record, line, &mut columns, &mut lines, &mut late_text)?;
-    }
-    let sha256 = reader.csv.into_inner().finish_hash();
+        context.push_record(record, line, &mut columns, &mut lines, &mut late_text)
+    })?;
 
     if !late_text.is_empty() {
         context.reread_as_text(&late_text, &mut columns)?;
@@ -188,10 +186,60 @@ pub fn load_csv(path: impl AsRef<Path>, options: &CsvOptions) -> Result<Frame> {
     Ok(Frame::from_parts(data, provenance, Some(lines)).with_non_finite(options.non_finite))
 }
 
+/// Records per batch handed from the splitting thread to the parsing one.
+const BATCH_RECORDS: usize = 4096;
+
+/// Runs the rest of `csv` through `consume`, record by record in file order,
+/// on two threads: a scoped thread reads the file, hashes it and splits it
+/// into records (the `csv` state machine); the calling thread parses the
+/// fields. Batches travel through a bounded channel (at most four in flight)
+/// and return empty for reuse. Returns the file's SHA-256.
+///
+/// Errors keep file order: the records before a malformed one are all
+/// consumed first, and a failing `consume` stops the reading thread (its
+/// channel closes).
+fn read_in_two_stages(
+    mut csv: csv::Reader<HashingReader>,
+    mut consume: impl FnMut(&csv::ByteRecord) -> Result<()>,
+) -> Result<String> {
+    use std::sync::mpsc::{channel, sync_channel};
+    let path = csv.get_ref().path.clone();
+    std::thread::scope(|scope| {
+        let (full_tx, full_rx) = sync_channel::<Vec<csv::ByteRecord>>(4);
+        let (empty_tx, empty_rx) = channel::<Vec<csv::ByteRecord>>();
+        let splitter_path = path.clone();
+        let splitter = scope.spawn(move || -> Result<String> {
+            loop {
+                let mut batch = empty_rx.try_recv().unwrap_or_default();
+                batch.resize_with(BATCH_RECORDS, csv::ByteRecord::new);
+                let mut filled = 0;
+                while filled < BATCH_RECORDS && csv.read_byte_record(&mut batch[filled]).map_err(|e| malformed(&splitter_path, &e))? {
+                    filled += 1;
+                }
+                let last = filled < BATCH_RECORDS;
+                batch.truncate(filled);
+                // A closed channel means the parsing side stopped at an error.
+                if full_tx.send(batch).is_err() || last {
+                    break;
+                }
+            }
+            Ok(csv.into_inner().finish_hash())
+        });
+        for batch in full_rx {
+            batch.iter().try_for_each(&mut consume)?;
+            let _ = empty_tx.send(batch);
+        }
+        splitter.join().unwrap_or_else(|_| {
+            Err(Error::CsvMalformed { path, line: 0, reason: "the reading thread stopped unexpectedly".into() })
+        })
+    })
+}
+
 /// A file opened for reading, hashing every byte read through it.
 struct HashingReader {
     file: std::fs::File,
     hasher: Sha256,
+    path: std::path::PathBuf,
 }
 
 impl Read for HashingReader {
@@ -205,7 +253,7 @@ impl Read for HashingReader {
 impl HashingReader {
     fn open(path: &Path) -> Result<Self> {
         let file = std::fs::File::open(path).map_err(|e| super::unreadable(path, e))?;
-        Ok(Self { file, hasher: Sha256::new() })
+        Ok(Self { file, hasher: Sha256::new(), path: path.to_path_buf() })
     }
 
     /// Reads what is left (nothing, after a complete parse) and returns the
@@ -304,6 +352,13 @@ impl ReadContext<'_> {
         self.options.null_markers.iter().any(|m| m == value)
     }
 
+    /// [`Self::is_null`] on undecoded bytes. Exact for ASCII markers; a
+    /// non-ASCII marker in another encoding than UTF-8 may not match here,
+    /// but such a field is not a number either and takes the decoding path.
+    fn is_null_bytes(&self, value: &[u8]) -> bool {
+        self.options.null_markers.iter().any(|m| m.as_bytes() == value)
+    }
+
     /// Parses one data record into the column builders; records in
     /// `late_text` the columns that just turned from numbers or dates to text.
     fn push_record(
@@ -322,6 +377,18 @@ impl ReadContext<'_> {
         }
         let row = lines.len();
         for (index, (column, field)) in columns.iter_mut().zip(record.iter()).enumerate() {
+            // Fast path for the common case, a number in a number column: parse
+            // the bytes directly. Anything else (a null marker, text, a byte
+            // that is not ASCII) takes the full path below, which decodes.
+            if let ColumnBuilder::Number(b) = column {
+                let bytes = field.trim_ascii();
+                if !self.is_null_bytes(bytes) {
+                    if let Some(v) = parse_f64(bytes) {
+                        b.append_value(v);
+                        continue;
+                    }
+                }
+            }
             let name = &self.names[index];
             let text = self
                 .options
@@ -414,7 +481,7 @@ impl ColumnBuilder {
             }
             (Self::Undecided { .. }, Some(_)) => false,
             (Self::Integer(b), v) => append_parsed(b, v, |t| t.parse::<i64>().ok()),
-            (Self::Number(b), v) => append_parsed(b, v, |t| t.parse::<f64>().ok()),
+            (Self::Number(b), v) => append_parsed(b, v, |t| parse_f64(t.as_bytes())),
             (Self::Date(b), v) => append_parsed(b, v, |t| parse_iso_date(t).map(to_epoch_days)),
             (Self::Text(b), v) => {
                 b.append_option(v);
@@ -440,7 +507,7 @@ impl ColumnBuilder {
                     (0..missing).for_each(|_| b.append_null());
                     b.append_value(v);
                     Self::Integer(b)
-                } else if let Ok(v) = text.parse::<f64>() {
+                } else if let Some(v) = parse_f64(text.as_bytes()) {
                     let mut b = PrimitiveChunkedBuilder::<Float64Type>::new(field(), INITIAL_CAPACITY.max(missing + 1));
                     (0..missing).for_each(|_| b.append_null());
                     b.append_value(v);
@@ -458,8 +525,8 @@ impl ColumnBuilder {
                 };
                 false
             }
-            Self::Integer(b) => match text.parse::<f64>() {
-                Ok(value) => {
+            Self::Integer(b) => match parse_f64(text.as_bytes()) {
+                Some(value) => {
                     // Every earlier value was an integer; `as f64` rounds to
                     // nearest, exactly as parsing its digits as f64 would.
                     let integers = b.finish();
@@ -469,7 +536,7 @@ impl ColumnBuilder {
                     *self = Self::Number(numbers);
                     false
                 }
-                Err(_) => true,
+                None => true,
             },
             // Numbers or dates that met text.
             _ => true,
@@ -493,6 +560,15 @@ impl ColumnBuilder {
             Self::Forced { builder, .. } => builder.finish(name, height),
         }
     }
+}
+
+/// A decimal number (or `NaN`, `inf`, `infinity`, signed) written in ASCII,
+/// correctly rounded to f64 — Eisel–Lemire with a big-decimal fallback, by
+/// `fast-float2` (the parser polars' own CSV reader uses), which reads bytes
+/// without a UTF-8 check. A literal beyond the f64 range gives ±∞, as the
+/// standard library's parser does.
+fn parse_f64(bytes: &[u8]) -> Option<f64> {
+    fast_float2::parse::<f64, _>(bytes).ok()
 }
 
 /// Appends a missing value, or a present one that `parse` reads; returns
@@ -535,7 +611,7 @@ fn push_forced(
         ColumnBuilder::Number(b) if ty == ColumnType::FormattedNumber => {
             b.append_option(value.map(|t| parse_formatted_number(t).ok_or_else(|| not_numeric(t))).transpose()?)
         }
-        ColumnBuilder::Number(b) => b.append_option(value.map(|t| t.parse::<f64>().map_err(|_| not_numeric(t))).transpose()?),
+        ColumnBuilder::Number(b) => b.append_option(value.map(|t| parse_f64(t.as_bytes()).ok_or_else(|| not_numeric(t))).transpose()?),
         ColumnBuilder::Date(b) => {
             let parsed = value.map(|t| {
                 parse_date(t, format).map(to_epoch_days).ok_or_else(|| Error::BadDate {

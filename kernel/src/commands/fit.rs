@@ -44,8 +44,13 @@ pub fn csv_options(args: &InputFlags) -> Result<CsvOptions, CommandError> {
         options = options.date_format(column, format);
     }
     options.encoding = args.encoding.parse().map_err(CommandError::Usage)?;
-    options.non_finite = args.non_finite.parse().map_err(|e: String| CommandError::Usage(format!("--non-finite: {e}")))?;
+    options.non_finite = non_finite_rule(args)?;
     Ok(options)
+}
+
+/// The `--non-finite` rule, for every source type.
+fn non_finite_rule(args: &InputFlags) -> Result<NonFinite, CommandError> {
+    args.non_finite.parse().map_err(|e: String| CommandError::Usage(format!("--non-finite: {e}")))
 }
 
 /// The model the flags describe.
@@ -145,8 +150,7 @@ pub fn precision(arg: PrecisionArg) -> Precision {
 pub fn load_with_flags(path: &std::path::Path, args: &InputFlags) -> Result<Frame, CommandError> {
     let extension = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
     if extension == "parquet" || extension == "pq" {
-        let rule = csv_options(args)?.non_finite;
-        Ok(load_parquet(path)?.with_non_finite(rule))
+        Ok(load_parquet(path)?.with_non_finite(non_finite_rule(args)?))
     } else {
         Ok(load_csv(path, &csv_options(args)?)?)
     }
