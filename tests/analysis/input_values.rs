@@ -271,3 +271,19 @@ fn late_text_in_a_numeric_looking_column_keeps_every_value_as_written() {
     assert_eq!(parcels, vec![Some("007".into()), Some("0012".into()), Some("12A".into()), None]);
     assert_eq!(frame.source_line(2), Some(4));
 }
+
+#[test]
+fn the_plain_words_view_reads_a_date_trend_in_months() {
+    let dir = scratch_dir("explain-dates");
+    let mut body = String::from("sale_date,price\n");
+    for (i, (date, months)) in HAND_CALENDAR.iter().enumerate() {
+        body.push_str(&format!("{date},{}\n", (12.0 + 0.01 * months + 0.001 * (i % 2) as f64).exp()));
+    }
+    let p = write_file(&dir, "s.csv", &body);
+    let frame = load_csv(&p, &CsvOptions::default()).expect("load");
+    let spec = ModelSpec::new("price").log_target().term(Term::months_since("sale_date", "2023-01-01"));
+    let model = fit(&frame, &spec).expect("fit");
+    let sentences = plumbline::render::explanations(&model, 0.95).expect("explain");
+    let (_, trend) = sentences.iter().find(|(term, _)| term.starts_with("sale_date")).expect("trend sentence");
+    assert!(trend.starts_with("A sale one month later (by sale_date) goes with about 1.0"), "{trend}");
+}

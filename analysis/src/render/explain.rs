@@ -7,7 +7,7 @@ use super::html::{escape, CARD, HEADING};
 use super::numbers::{format_p_value, format_significant};
 use crate::fit::Fit;
 use crate::model::design::INTERCEPT_NAME;
-use crate::model::{TargetTransform, Term, Transform};
+use crate::model::{DatePart, TargetTransform, Term, Transform};
 
 /// A fit with a sentence for every statistic.
 #[derive(Debug, Clone, Copy)]
@@ -39,6 +39,20 @@ fn logged_columns(fit: &Fit) -> Vec<String> {
             _ => None,
         })
         .collect()
+}
+
+/// How a one-unit step of a design column reads: a sale a month (or a day)
+/// later for a sale-date trend, one more unit of the column otherwise.
+fn one_step(fit: &Fit, design_column: &str) -> String {
+    let trend = fit.spec().terms().iter().find_map(|t| match t {
+        Term::Date { column, part, .. } if part.derived_name(column) == design_column => Some((column, part)),
+        _ => None,
+    });
+    match trend {
+        Some((column, DatePart::MonthsSince(_))) => format!("A sale one month later (by {column})"),
+        Some((column, DatePart::DaysSince(_))) => format!("A sale one day later (by {column})"),
+        _ => format!("One more unit of {design_column}"),
+    }
 }
 
 /// The sentences, in reading order.
@@ -144,15 +158,15 @@ pub fn explanations(fit: &Fit, level: f64) -> crate::Result<Vec<(String, String)
             )
         } else if log_target {
             format!(
-                "One more unit of {} goes with about {} {} in {raw_target}, other terms equal ({interval}; {significance}).",
-                c.term,
+                "{} goes with about {} {} in {raw_target}, other terms equal ({interval}; {significance}).",
+                one_step(fit, &c.term),
                 pct((c.estimate.exp() - 1.0).abs()),
                 if c.estimate >= 0.0 { "more" } else { "less" }
             )
         } else {
             format!(
-                "One more unit of {} goes with a change of {} in {target}, other terms equal ({interval}; {significance}).",
-                c.term,
+                "{} goes with a change of {} in {target}, other terms equal ({interval}; {significance}).",
+                one_step(fit, &c.term),
                 format_significant(c.estimate, 4)
             )
         };
