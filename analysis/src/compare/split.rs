@@ -32,11 +32,7 @@ pub fn split_by_fraction(frame: &Frame, test_fraction: f64, seed: u64, id_column
 pub fn split_by_cutoff(frame: &Frame, column: &str, cutoff: &str) -> Result<(Frame, Frame)> {
     let dtype = frame.column_by_name(column)?.dtype().clone();
     let before_cutoff: Vec<Option<bool>> = if dtype == DataType::Date {
-        let day = dates::parse_iso_date(cutoff).ok_or_else(|| Error::OutOfRange {
-            what: format!("the cut-off on the date column `{column}`"),
-            requirement: "a calendar date written YYYY-MM-DD".into(),
-            value: cutoff.to_string(),
-        })?;
+        let day = dates::require_iso_date(format!("the cut-off on the date column `{column}`"), cutoff)?;
         frame.date_column(column)?.iter().map(|d| d.map(|d| d < day)).collect()
     } else if dtype.is_primitive_numeric() {
         let c = cutoff.trim().parse::<f64>().map_err(|_| Error::OutOfRange {

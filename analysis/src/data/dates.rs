@@ -47,6 +47,16 @@ pub fn parse_iso_date(text: &str) -> Option<NaiveDate> {
     NaiveDate::from_ymd_opt(number(&b[0..4])? as i32, number(&b[5..7])?, number(&b[8..10])?)
 }
 
+/// Parses an ISO 8601 date given as an argument (a reference date, a
+/// valuation date, a cut-off), refusing anything else with `what` named.
+pub(crate) fn require_iso_date(what: impl Into<String>, text: &str) -> crate::Result<NaiveDate> {
+    parse_iso_date(text).ok_or_else(|| crate::Error::OutOfRange {
+        what: what.into(),
+        requirement: "a calendar date written YYYY-MM-DD".into(),
+        value: text.to_string(),
+    })
+}
+
 /// Days since 1970-01-01 (the storage of a polars `Date`).
 pub fn to_epoch_days(date: NaiveDate) -> i32 {
     date.num_days_from_ce() - UNIX_EPOCH_DAYS_FROM_CE

@@ -1,6 +1,6 @@
 //! The frame type cells and the command line work with.
 
-use super::dates::{from_epoch_days, parse_iso_date};
+use super::dates::{from_epoch_days, parse_iso_date, require_iso_date, to_epoch_days};
 use super::values::number_hint;
 use super::{NonFinite, Provenance};
 use crate::error::{Error, Result};
@@ -80,30 +80,28 @@ impl Frame {
     /// A copy with `column` set to `value` on every row (added when absent) —
     /// for example subject properties valued as of one month.
     pub fn with_number(&self, column: &str, value: f64) -> Result<Frame> {
-        let mut data = self.data.clone();
-        let filled = polars::prelude::Column::new(column.into(), vec![value; data.height()]);
-        data.with_column(filled)?;
-        let mut provenance = self.provenance.clone();
-        provenance.path = format!("{} [{column} = {value}]", self.provenance.path);
-        provenance.cols = data.width();
-        Ok(Frame { data, provenance, source_lines: self.source_lines.clone(), non_finite: self.non_finite })
+        let filled = polars::prelude::Column::new(column.into(), vec![value; self.height()]);
+        self.with_filled_column(filled, &value.to_string())
     }
 
     /// A copy with `column` set to the date `date` (ISO 8601, `YYYY-MM-DD`) on
     /// every row (added when absent) — for example subject properties valued
     /// as of one date through a model with a sale-date term.
     pub fn with_date(&self, column: &str, date: &str) -> Result<Frame> {
-        let day = parse_iso_date(date).ok_or_else(|| Error::OutOfRange {
-            what: format!("the date given for `{column}`"),
-            requirement: "a calendar date written YYYY-MM-DD".into(),
-            value: date.to_string(),
-        })?;
-        let mut data = self.data.clone();
-        let days = vec![super::dates::to_epoch_days(day); data.height()];
+        let day = require_iso_date(format!("the date given for `{column}`"), date)?;
+        let days = vec![to_epoch_days(day); self.height()];
         let filled = polars::prelude::Column::new(column.into(), days).cast(&DataType::Date)?;
+        self.with_filled_column(filled, date)
+    }
+
+    /// A copy with `filled` (one value on every row) added or replacing its
+    /// namesake; the provenance notes `[column = shown]`.
+    fn with_filled_column(&self, filled: polars::prelude::Column, shown: &str) -> Result<Frame> {
+        let mut data = self.data.clone();
+        let label = format!("{} [{} = {shown}]", self.provenance.path, filled.name());
         data.with_column(filled)?;
         let mut provenance = self.provenance.clone();
-        provenance.path = format!("{} [{column} = {date}]", self.provenance.path);
+        provenance.path = label;
         provenance.cols = data.width();
         Ok(Frame { data, provenance, source_lines: self.source_lines.clone(), non_finite: self.non_finite })
     }

@@ -166,15 +166,6 @@ impl ValueReads {
     }
 }
 
-/// The reference date of a date term, parsed.
-fn reference_date(column: &str, part: &DatePart, reference: &str) -> Result<NaiveDate> {
-    dates::parse_iso_date(reference).ok_or_else(|| Error::OutOfRange {
-        what: format!("the reference date of the term `{}`", part.derived_name(column)),
-        requirement: "a calendar date written YYYY-MM-DD".into(),
-        value: reference.to_string(),
-    })
-}
-
 /// The numbers a source yields, one per frame row, and how many non-finite
 /// values the frame's rule read as missing.
 fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<Option<f64>>, usize)> {
@@ -184,19 +175,13 @@ fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<Option<f64>>
             Ok((read.values, read.non_finite_as_missing))
         }
         ValueSource::DatePart { column, part } => {
-            let days = frame.date_column(column)?;
-            let measure: Box<dyn Fn(NaiveDate) -> f64> = match part {
-                DatePart::MonthsSince(r) => {
-                    let r = reference_date(column, part, r)?;
-                    Box::new(move |d| dates::months_between(r, d))
-                }
-                DatePart::DaysSince(r) => {
-                    let r = reference_date(column, part, r)?;
-                    Box::new(move |d| dates::days_between(r, d))
-                }
-                _ => unreachable!("categorical date parts are read as labels"),
+            let Some((reference, between)) = part.trend_measure() else {
+                unreachable!("categorical date parts are read as labels")
             };
-            Ok((days.into_iter().map(|d| d.map(&measure)).collect(), 0))
+            let what = format!("the reference date of the term `{}`", part.derived_name(column));
+            let reference = dates::require_iso_date(what, reference)?;
+            let days = frame.date_column(column)?;
+            Ok((days.into_iter().map(|d| d.map(|d| between(reference, d))).collect(), 0))
         }
     }
 }

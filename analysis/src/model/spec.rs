@@ -11,6 +11,8 @@
 //! assert_eq!(spec.target(), "sale_price");
 //! ```
 
+use crate::data::dates;
+use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
 
 /// A transform of the target variable.
@@ -67,6 +69,17 @@ impl DatePart {
     /// Whether the part enters the design as a number (else as a category).
     pub fn is_numeric(&self) -> bool {
         matches!(self, DatePart::MonthsSince(_) | DatePart::DaysSince(_))
+    }
+
+    /// For a numeric part, its reference date as written and the calendar
+    /// measure from a first date to a second (months or days, see
+    /// [`crate::data::dates`]); `None` for categorical parts.
+    pub(crate) fn trend_measure(&self) -> Option<(&str, fn(NaiveDate, NaiveDate) -> f64)> {
+        match self {
+            DatePart::MonthsSince(reference) => Some((reference, dates::months_between)),
+            DatePart::DaysSince(reference) => Some((reference, dates::days_between)),
+            DatePart::Year | DatePart::Quarter | DatePart::MonthOfYear => None,
+        }
     }
 
     /// The name of the values the part derives from `column`, used for its

@@ -3,7 +3,7 @@
 use crate::data::{dates, Frame};
 use crate::error::{Error, Result};
 use crate::fit::Fit;
-use crate::model::{DatePart, TargetTransform, Term};
+use crate::model::{TargetTransform, Term};
 use chrono::NaiveDate;
 
 /// How to bring a logged model's estimate back to prices.
@@ -110,15 +110,8 @@ fn move_along_trend(fit: &Fit, frame: &Frame, time_column: &str, to: &TimePoint,
     let slope = fit.solution().coefficients[position];
     let steps: Vec<Option<f64>> = match (&date_term, to) {
         (Some(part), TimePoint::Date(text)) => {
-            let to_date = dates::parse_iso_date(text).ok_or_else(|| Error::OutOfRange {
-                what: "the valuation date".into(),
-                requirement: "a calendar date written YYYY-MM-DD".into(),
-                value: text.clone(),
-            })?;
-            let between = match part {
-                DatePart::DaysSince(_) => dates::days_between,
-                _ => dates::months_between,
-            };
+            let to_date = dates::require_iso_date("the valuation date", text)?;
+            let Some((_, between)) = part.trend_measure() else { unreachable!("only numeric date parts are trends") };
             frame.date_column(time_column)?.iter().map(|d| d.map(|d| between(d, to_date))).collect()
         }
         (None, TimePoint::Number(to)) => frame.numeric_column(time_column)?.iter().map(|m| m.map(|m| to - m)).collect(),
