@@ -7,8 +7,8 @@
 //!   without (uncentered); `SSreg = TSS − RSS` (in double-double).
 //! * `R² = SSreg / TSS`; adjusted `R² = 1 − (1 − R²)(n − i)/(n − k)` with
 //!   `i = 1` with an intercept and `0` without.
-//! * `s = √(RSS/(n − k))`; `F = (SSreg/df_model)/s²` with `df_model = k − i`
-//!   on `(df_model, n − k)` degrees of freedom. Under a robust covariance `V`
+//! * `s = √(RSS/(n − k))`; `F = (SSreg/model_df)/s²` with `model_df = k − i`
+//!   on `(model_df, n − k)` degrees of freedom. Under a robust covariance `V`
 //!   the overall test is the Wald form `F = b₂ᵀ V₂₂⁻¹ b₂ / q` over the `q`
 //!   non-intercept coefficients.
 //! * Gaussian log-likelihood at the ML variance `σ̂² = RSS/n`:
@@ -59,9 +59,9 @@ pub struct FitStatistics {
     /// Estimated coefficients (the numerical rank).
     pub n_coefficients: usize,
     /// Model degrees of freedom `k − i`.
-    pub df_model: usize,
+    pub model_df: usize,
     /// Residual degrees of freedom `n − k`.
-    pub df_resid: usize,
+    pub residual_df: usize,
     /// Degrees of freedom of the t reference distribution.
     pub df_t: f64,
     /// Coefficient of determination (uncentered without an intercept).
@@ -122,7 +122,7 @@ pub(crate) fn f_upper_p(f: f64, df1: f64, df2: f64) -> Option<f64> {
 
 impl Fit {
     /// Residual degrees of freedom `n − k`.
-    pub fn df_resid(&self) -> usize {
+    pub fn residual_df(&self) -> usize {
         self.design.n_rows() - self.solution.kept.len()
     }
 
@@ -130,13 +130,13 @@ impl Fit {
     pub fn df_t(&self) -> f64 {
         match (&self.covariance_kind, self.cluster_count) {
             (CovarianceKind::Cluster(_), Some(g)) => (g - 1) as f64,
-            _ => self.df_resid() as f64,
+            _ => self.residual_df() as f64,
         }
     }
 
     /// Residual standard error `s = √(RSS/(n − k))`.
     pub fn residual_std_error(&self) -> f64 {
-        (self.solution.weighted_rss / self.df_resid() as f64).sqrt()
+        (self.solution.weighted_rss / self.residual_df() as f64).sqrt()
     }
 
     /// Whether the intercept is among the estimated columns.
@@ -193,13 +193,13 @@ impl Fit {
         let ss_total = ss_total_dd.to_f64();
         let ss_regression = (ss_total_dd - DoubleDouble::from(rss)).to_f64();
         let i = usize::from(with_intercept);
-        let df_model = k.saturating_sub(usize::from(self.intercept_estimated()));
-        let df_resid = n - k;
+        let model_df = k.saturating_sub(usize::from(self.intercept_estimated()));
+        let residual_df = n - k;
         let r_squared = if ss_total > 0.0 { ss_regression / ss_total } else { f64::NAN };
-        let adj_r_squared = 1.0 - (1.0 - r_squared) * (n - i) as f64 / df_resid as f64;
-        let s2 = rss / df_resid as f64;
+        let adj_r_squared = 1.0 - (1.0 - r_squared) * (n - i) as f64 / residual_df as f64;
+        let s2 = rss / residual_df as f64;
 
-        let (f_statistic, f_p_value) = self.overall_f(df_model, ss_regression, s2);
+        let (f_statistic, f_p_value) = self.overall_f(model_df, ss_regression, s2);
         let sum_log_w: f64 = w.map_or(0.0, |w| w.iter().map(|v| v.ln()).sum());
         let nf = n as f64;
         let log_likelihood = -0.5 * nf * ((2.0 * std::f64::consts::PI).ln() + (rss / nf).ln() + 1.0) + 0.5 * sum_log_w;
@@ -207,8 +207,8 @@ impl Fit {
         FitStatistics {
             n_obs: n,
             n_coefficients: k,
-            df_model,
-            df_resid,
+            model_df,
+            residual_df,
             df_t: self.df_t(),
             r_squared,
             adj_r_squared,
@@ -225,8 +225,8 @@ impl Fit {
         }
     }
 
-    fn overall_f(&self, df_model: usize, ss_regression: f64, s2: f64) -> (Option<f64>, Option<f64>) {
-        if df_model == 0 {
+    fn overall_f(&self, model_df: usize, ss_regression: f64, s2: f64) -> (Option<f64>, Option<f64>) {
+        if model_df == 0 {
             return (None, None);
         }
         let df2 = self.df_t();
@@ -234,14 +234,14 @@ impl Fit {
             if !(s2 > 0.0) {
                 return (None, None);
             }
-            (ss_regression / df_model as f64) / s2
+            (ss_regression / model_df as f64) / s2
         } else {
             match self.wald_slopes() {
                 Some(f) => f,
                 None => return (None, None),
             }
         };
-        (Some(f), f_upper_p(f, df_model as f64, df2))
+        (Some(f), f_upper_p(f, model_df as f64, df2))
     }
 
     /// Wald F of all non-intercept coefficients under the fit's covariance.
@@ -275,8 +275,8 @@ impl Fit {
             n_dropped: dropped.total,
             dropped_by_column: dropped.by_column.clone(),
             non_finite_by_column: dropped.non_finite_by_column.clone(),
-            df_model: stats.df_model,
-            df_resid: stats.df_resid,
+            model_df: stats.model_df,
+            residual_df: stats.residual_df,
             intercept: self.spec().has_intercept(),
             covariance: self.covariance_kind.label(),
             clusters: self.cluster_count,
@@ -322,9 +322,9 @@ pub struct FitSummary {
     /// missing because the data's rule said so (`--non-finite missing`).
     pub non_finite_by_column: Vec<(String, usize)>,
     /// Model degrees of freedom.
-    pub df_model: usize,
+    pub model_df: usize,
     /// Residual degrees of freedom.
-    pub df_resid: usize,
+    pub residual_df: usize,
     /// Whether the model has an intercept.
     pub intercept: bool,
     /// Covariance estimator label.

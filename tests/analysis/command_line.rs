@@ -21,7 +21,7 @@ fn json_has_the_documented_fields_and_nist_values() {
     let text = run(&["fit", norris.to_str().expect("utf8"), "--target", "y", "--terms", "x", "--format", "json"]).expect("fit");
     let doc: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
     for key in [
-        "n_obs", "n_dropped", "df_model", "df_resid", "intercept", "coefficients", "r_squared", "adj_r_squared",
+        "n_obs", "n_dropped", "model_df", "residual_df", "intercept", "coefficients", "r_squared", "adj_r_squared",
         "residual_std_error", "f_statistic", "f_p_value", "ss_regression", "ss_residual", "log_likelihood", "aic",
         "bic", "condition_number", "aliased", "data",
     ] {

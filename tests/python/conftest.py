@@ -65,9 +65,9 @@ def run_fit(csv_path, *args):
     return json.loads(result.stdout)
 
 
-def run_raw(*args):
-    """Runs the binary with ARGS and returns the CompletedProcess."""
-    return subprocess.run([str(plumbline_binary()), *args], capture_output=True, text=True)
+def run_raw(*args, cwd=None):
+    """Runs the binary with ARGS (in directory CWD when given) and returns the CompletedProcess."""
+    return subprocess.run([str(plumbline_binary()), *args], capture_output=True, text=True, cwd=cwd)
 
 
 def write_csv(path, columns: dict):

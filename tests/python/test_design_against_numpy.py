@@ -77,7 +77,7 @@ def test_log_center_and_standardize(tmp_path):
     doc = run_fit(path, "--target", "price", "--log-target", "--log", "area", "--center", "age")
     X = np.column_stack([np.ones(len(area)), np.log(area), age - age.mean()])
     beta, _ = lstsq_fit(X, logp)
-    assert [c["term"] for c in doc["coefficients"]] == ["intercept", "log(area)", "centered(age)"]
+    assert [c["term"] for c in doc["coefficients"]] == ["intercept", "log(area)", "age (centred)"]
     for c, b in zip(doc["coefficients"], beta):
         assert np.isclose(c["estimate"], b, rtol=1e-10)
     std = run_fit(path, "--target", "price", "--log-target", "--standardize", "age")

@@ -199,7 +199,7 @@ def test_vif_and_gvif(data):
     gvif_g = np.linalg.det(R[np.ix_(block, block)]) * np.linalg.det(R[np.ix_(rest, rest)]) / np.linalg.det(R)
     assert terms["g"]["df"] == 2
     assert np.isclose(terms["g"]["gvif"], gvif_g, rtol=1e-9)
-    assert np.isclose(terms["g"]["gvif_adjusted"], gvif_g ** (1 / 4), rtol=1e-9)
+    assert np.isclose(terms["g"]["interval_widening"], gvif_g ** (1 / 4), rtol=1e-9)
 
 
 def test_longley_vifs_match_published_values():

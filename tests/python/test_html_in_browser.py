@@ -34,12 +34,16 @@ def screenshot(html_path, png_path, profile_dir):
 
 
 def test_demo_fit_report_renders(tmp_path):
-    r = run_raw("fit", str(DEMO / "sales.csv"), "--target", "sale_price", "--log-target",
+    # Run from the demo folder with relative paths, as a user would: the report
+    # shows the path as given, so the saved screenshot carries no machine's layout.
+    r = run_raw("fit", "data/sales.csv", "--target", "sale_price", "--log-target",
                 "--log", "living_area", "--log", "lot_size", "--terms", "age,quality,bathrooms", "--date-term", "months:sale_date:2023-01-01",
                 "--category", "district", "--reference", "district=Wickerholm", "--cov", "hc3",
-                "--diagnose", "--id", "parcel_id", "--predict", str(DEMO / "subjects.csv"), "--format", "html")
+                "--diagnose", "--id", "parcel_id", "--predict", "data/subjects.csv", "--format", "html",
+                cwd=DEMO.parent)
     assert r.returncode == 0, r.stderr
     assert "<script" not in r.stdout.lower()
+    assert "data/sales.csv" in r.stdout and str(REPO) not in r.stdout
     html = tmp_path / "report.html"
     html.write_text(r.stdout)
     png = tmp_path / "report.png"

@@ -63,7 +63,7 @@ def test_fit_statistics_match_direct_formulas(heteroskedastic_data):
     assert np.isclose(doc["bic"], -2 * loglik + np.log(n) * (k + 1), rtol=1e-12)
     assert np.isclose(doc["ss_residual"], rss, rtol=1e-12)
     assert np.isclose(doc["ss_regression"], tss - rss, rtol=1e-12)
-    assert doc["df_model"] == k - 1 and doc["df_resid"] == n - k and doc["n_obs"] == n
+    assert doc["model_df"] == k - 1 and doc["residual_df"] == n - k and doc["n_obs"] == n
     # Condition number of the unit-length-scaled design (Belsley, Kuh & Welsch 1980).
     Xs = X / np.linalg.norm(X, axis=0)
     assert np.isclose(doc["condition_number"], np.linalg.cond(Xs), rtol=1e-8)
@@ -109,4 +109,4 @@ def test_no_intercept_r_squared_is_uncentered(heteroskedastic_data):
     doc = run_fit(path, "--target", "y", "--terms", "x1,x2", "--no-intercept")
     beta, resid, cov, s2 = ols(X[:, 1:], y)
     assert np.isclose(doc["r_squared"], 1 - resid @ resid / (y @ y), rtol=1e-12)
-    assert doc["df_model"] == 2 and doc["intercept"] is False
+    assert doc["model_df"] == 2 and doc["intercept"] is False

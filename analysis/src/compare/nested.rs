@@ -35,7 +35,7 @@ pub struct NestedTest {
     /// F statistic.
     pub f_statistic: f64,
     /// Residual degrees of freedom of the full model.
-    pub df_resid_full: usize,
+    pub residual_df_full: usize,
     /// p-value of F.
     pub f_p_value: f64,
     /// Likelihood-ratio statistic.
@@ -88,7 +88,7 @@ pub fn nested_test(restricted: &Fit, full: &Fit) -> Result<NestedTest> {
         rss_restricted: rss_r,
         rss_full: rss_f,
         f_statistic,
-        df_resid_full: df,
+        residual_df_full: df,
         f_p_value: f_upper_p(f_statistic, q as f64, df as f64).unwrap_or(f64::NAN),
         lr_statistic,
         lr_p_value,

@@ -4,8 +4,12 @@
 //!   diagnostics", *JASA* 87, 178–183): with `R` the correlation matrix of all
 //!   non-intercept design columns, `R₁₁` the block of the term's columns and
 //!   `R₂₂` the rest, `GVIF = det R₁₁ · det R₂₂ / det R`. For a one-column term
-//!   this is the ordinary `VIF = 1/(1 − R²ⱼ)`. `GVIF^(1/(2·df))` makes terms of
-//!   different sizes comparable (it is `√VIF` for one column).
+//!   this is the ordinary `VIF = 1/(1 − R²ⱼ)`. We report `GVIF^(1/(2·df))` as
+//!   the term's **interval widening**: how many times wider its confidence
+//!   interval (for a one-column term, `√VIF`) or the linear size of its
+//!   confidence region (for several columns) is than it would be were the
+//!   term uncorrelated with the others; Fox & Monette introduce the power to
+//!   make terms of different sizes comparable.
 //! * **Condition indices** `ηₖ = σ_max / σₖ` of the design with columns scaled
 //!   to unit length, intercept included (Belsley, Kuh & Welsch 1980, §3.2).
 //!   Belsley's rule of thumb (indices above 30 signal harmful dependence) is
@@ -25,9 +29,19 @@ pub struct TermVif {
     pub df: usize,
     /// GVIF (the VIF for a one-column term).
     pub gvif: f64,
-    /// `GVIF^(1/(2·df))`.
-    pub gvif_adjusted: f64,
+    /// Interval widening `GVIF^(1/(2·df))`: how many times wider the term's
+    /// interval is than with uncorrelated terms (`√VIF` for one column).
+    pub interval_widening: f64,
 }
+
+/// Interval widening above which a report warns: `√10 ≈ 3.16`, the widening
+/// that matches the "VIF above 10" habit (common practice; e.g. Kutner et al.,
+/// *Applied Linear Statistical Models*, 5th ed., §10.5, recalled from memory).
+pub const INTERVAL_WIDENING_WARNING: f64 = 3.162_277_660_168_379_5;
+
+/// Condition index above which a report warns: 30 (Belsley, Kuh & Welsch
+/// 1980, ch. 3; common practice, not a test).
+pub const CONDITION_INDEX_WARNING: f64 = 30.0;
 
 /// Collinearity summary of a fit.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -92,7 +106,7 @@ impl Fit {
             let det_out = if outside.is_empty() { 1.0 } else { correlation(&outside).determinant() };
             let gvif = det_in * det_out / det_all;
             let df = inside.len();
-            terms.push(TermVif { term: span.label.clone(), df, gvif, gvif_adjusted: gvif.powf(1.0 / (2.0 * df as f64)) });
+            terms.push(TermVif { term: span.label.clone(), df, gvif, interval_widening: gvif.powf(1.0 / (2.0 * df as f64)) });
         }
 
         // Condition indices of the unit-length-scaled design (intercept included).

@@ -40,7 +40,7 @@ pub enum CovarianceKind {
 }
 
 impl CovarianceKind {
-    /// A short label for tables: `classical`, `HC3`, `cluster(district)`.
+    /// A short label for tables and JSON: `classical`, `HC3`, `clustered by district`.
     pub fn label(&self) -> String {
         match self {
             CovarianceKind::Classical => "classical".into(),
@@ -48,7 +48,7 @@ impl CovarianceKind {
             CovarianceKind::Hc1 => "HC1".into(),
             CovarianceKind::Hc2 => "HC2".into(),
             CovarianceKind::Hc3 => "HC3".into(),
-            CovarianceKind::Cluster(c) => format!("cluster({c})"),
+            CovarianceKind::Cluster(c) => format!("clustered by {c}"),
         }
     }
 }

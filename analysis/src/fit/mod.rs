@@ -190,6 +190,15 @@ impl Fit {
         &self.covariance_kind
     }
 
+    /// The standard errors in words for reports: the estimator's label, and for
+    /// cluster-robust errors the number of groups (`clustered by district, 6 groups`).
+    pub fn covariance_description(&self) -> String {
+        match self.cluster_count {
+            Some(groups) => format!("{}, {groups} groups", self.covariance_kind.label()),
+            None => self.covariance_kind.label(),
+        }
+    }
+
     /// Covariance matrix of the estimated coefficients (kept columns, in
     /// design order) under the chosen estimator.
     pub fn covariance(&self) -> &[Vec<f64>] {

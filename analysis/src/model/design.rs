@@ -67,7 +67,7 @@ pub struct DesignRecipe {
 /// The design columns one term produced.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct TermSpan {
-    /// The term as written, e.g. `log(area)`, `district`, `poly(age, 3)`.
+    /// The term as written, e.g. `log(area)`, `district`, `age (powers 1–3)`.
     pub label: String,
     /// Indices of its design columns.
     pub columns: std::ops::Range<usize>,

@@ -230,11 +230,11 @@ fn numeric_columns(column: &str, transform: Transform, params: &NumericParams, v
         }
         (Transform::Center, NumericParams::Moments { mean, .. }) => {
             let centered = x.iter().map(|&v| DoubleDouble::from(v) - DoubleDouble::from(*mean)).collect();
-            vec![GeneratedColumn::from_dd(format!("centered({column})"), centered)]
+            vec![GeneratedColumn::from_dd(format!("{column} (centred)"), centered)]
         }
         (Transform::Standardize, NumericParams::Moments { mean, sd }) => {
             let z = x.iter().map(|&v| (DoubleDouble::from(v) - DoubleDouble::from(*mean)) / DoubleDouble::from(*sd)).collect();
-            vec![GeneratedColumn::from_dd(format!("standardized({column})"), z)]
+            vec![GeneratedColumn::from_dd(format!("{column} (standardized)"), z)]
         }
         (Transform::Polynomial(degree), _) => (1..=degree)
             .map(|k| {
@@ -251,7 +251,7 @@ fn numeric_columns(column: &str, transform: Transform, params: &NumericParams, v
                     .map(|i| (DoubleDouble::from(x[i]) - DoubleDouble::from(alpha[k])) * current[i] - previous[i].mul_f64(beta[k]))
                     .collect();
                 let scaled = next.iter().map(|v| *v / DoubleDouble::from(norms[k + 1])).collect();
-                out.push(GeneratedColumn::from_dd(format!("orthogonal({column})#{}", k + 1), scaled));
+                out.push(GeneratedColumn::from_dd(format!("{column} (orthogonal {})", k + 1), scaled));
                 previous = std::mem::replace(&mut current, next);
             }
             out

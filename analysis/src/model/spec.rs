@@ -235,18 +235,20 @@ impl Term {
         Term::Interaction(Box::new(self), Box::new(other))
     }
 
-    /// The term as a reader would write it: `area`, `log(area)`, `age^2`,
-    /// `poly(age, 3)`, `district`, `area*district`.
+    /// The term as a reader would say it: `area`, `log(area)`, `age^2`,
+    /// `age (powers 1–3)`, `age (orthogonal, degree 3)`, `age (centred)`,
+    /// `district`, `area*district`.
     pub fn label(&self) -> String {
         match self {
             Term::Numeric { column, transform } => match transform {
                 Transform::Identity => column.clone(),
                 Transform::Log => format!("log({column})"),
                 Transform::Power(p) => format!("{column}^{p}"),
-                Transform::Center => format!("centered({column})"),
-                Transform::Standardize => format!("standardized({column})"),
-                Transform::Polynomial(d) => format!("poly({column}, {d})"),
-                Transform::OrthogonalPolynomial(d) => format!("orthogonal({column}, {d})"),
+                Transform::Center => format!("{column} (centred)"),
+                Transform::Standardize => format!("{column} (standardized)"),
+                Transform::Polynomial(1) => column.clone(),
+                Transform::Polynomial(d) => format!("{column} (powers 1–{d})"),
+                Transform::OrthogonalPolynomial(d) => format!("{column} (orthogonal, degree {d})"),
             },
             Term::Category { column, .. } => column.clone(),
             Term::Date { column, part, .. } => part.derived_name(column),

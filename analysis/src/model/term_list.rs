@@ -97,7 +97,7 @@ mod tests {
         let labels: Vec<String> = terms.iter().map(Term::label).collect();
         assert_eq!(
             labels,
-            ["a", "log(b)", "c^0.5", "centered(d)", "standardized(e)", "poly(f, 2)", "orthogonal(g, 3)", "h", "i", "a*h"]
+            ["a", "log(b)", "c^0.5", "d (centred)", "e (standardized)", "f (powers 1–2)", "g (orthogonal, degree 3)", "h", "i", "a*h"]
         );
         assert_eq!(terms[8], Term::category("i").reference("X"));
     }

@@ -2,6 +2,7 @@
 
 use super::numbers::{format_p_value, format_significant};
 use crate::compare::{Comparison, CrossValidationResult, NestedTest};
+use crate::diagnose::collinearity::CONDITION_INDEX_WARNING;
 use crate::diagnose::{Collinearity, RowFlags, TestResult};
 
 /// Assumption tests as an aligned table.
@@ -32,23 +33,27 @@ pub fn tests_text(tests: &[TestResult]) -> String {
 
 /// VIF table and condition indices.
 pub fn collinearity_text(c: &Collinearity) -> String {
-    let mut out = String::from("Collinearity (GVIF per term; GVIF^(1/2df) compares terms of different size)\n");
-    out.push_str(&format!("  {:<32} {:>4} {:>10} {:>14}\n", "term", "df", "GVIF", "GVIF^(1/2df)"));
+    let mut out = String::from(
+        "Collinearity (GVIF per term; interval widening: how many times wider the term's interval is than with uncorrelated terms)\n",
+    );
+    let width = c.terms.iter().map(|t| t.term.chars().count()).max().unwrap_or(4).max(4);
+    out.push_str(&format!("  {:<width$} {:>4} {:>10} {:>20}\n", "term", "df", "GVIF", "interval widening ×"));
     for t in &c.terms {
         out.push_str(&format!(
-            "  {:<32} {:>4} {:>10} {:>14}\n",
+            "  {:<width$} {:>4} {:>10} {:>20}\n",
             t.term,
             t.df,
             format_significant(t.gvif, 4),
-            format_significant(t.gvif_adjusted, 4)
+            format_significant(t.interval_widening, 4)
         ));
     }
     let largest = c.condition_indices.last().copied().unwrap_or(f64::NAN);
     out.push_str(&format!(
-        "  condition number {} (among the terms, centred: {}); largest condition index {}\n  (above 30 is a common-practice warning sign)\n",
+        "  condition number {} (among the terms, centred: {}); largest condition index {}\n  (above {} is a common-practice warning sign)\n",
         format_significant(c.condition_number, 4),
         format_significant(c.centered_condition_number, 4),
-        format_significant(largest, 4)
+        format_significant(largest, 4),
+        CONDITION_INDEX_WARNING
     ));
     out
 }
@@ -121,7 +126,7 @@ pub fn nested_text(first: &str, second: &str, t: &NestedTest) -> String {
         t.q,
         format_significant(t.f_statistic, 5),
         t.q,
-        t.df_resid_full,
+        t.residual_df_full,
         format_p_value(Some(t.f_p_value)),
         format_significant(t.lr_statistic, 5),
         t.q,

@@ -6,19 +6,33 @@
 use super::bundle::{MimeBundle, Report, DRIFT_JSON_MIME};
 use super::fit_report::VALUATION_CAUTION;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
-use super::numbers::format_trimmed;
+use super::numbers::{format_count, format_trimmed};
 use crate::drift::{CoefficientDrift, DataStamp, DriftReport, FitDrift, ThresholdDrift};
 
 fn number(v: Option<f64>) -> String {
     v.map(|x| format_trimmed(x, 5)).unwrap_or_else(|| "—".into())
 }
 
+/// A fit statistic's JSON key in the words a reader knows it by.
+fn statistic_words(key: &str) -> &str {
+    match key {
+        "n_obs" => "sales used",
+        "r_squared" => "R²",
+        "adj_r_squared" => "adjusted R²",
+        "residual_std_error" => "typical miss (residual std error)",
+        "aic" => "AIC",
+        "bic" => "BIC",
+        other => other,
+    }
+}
+
 fn data_line(f: &FitDrift) -> String {
     let short = |d: &DataStamp| d.1.get(..12).unwrap_or("").to_string();
+    let count = |d: &DataStamp| format_count(usize::try_from(d.2).unwrap_or(usize::MAX));
     format!(
-        "{} rows → {} rows; {}",
-        f.data_old.2,
-        f.data_new.2,
+        "{} records → {} records; {}",
+        count(&f.data_old),
+        count(&f.data_new),
         if f.data_changed {
             format!("contents changed (sha256 {}… → {}…)", short(&f.data_old), short(&f.data_new))
         } else {
@@ -73,17 +87,18 @@ pub fn drift_text(report: &DriftReport) -> String {
         out.push_str(&format!("\nFit {} — {}\n", i + 1, f.target));
         out.push_str(&format!("  data: {}\n", data_line(f)));
         for s in &f.statistics {
-            out.push_str(&format!("  {:<20} {:>12} → {:>12}\n", s.statistic, number(s.old), number(s.new)));
+            out.push_str(&format!("  {:<34} {:>12} → {:>12}\n", statistic_words(&s.statistic), number(s.old), number(s.new)));
         }
         let moved: Vec<&CoefficientDrift> = f.coefficients.iter().filter(|c| c.moved).collect();
         out.push_str(&format!("  coefficients outside their old interval: {}\n", moved.len()));
+        let width = f.coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(0).max(28);
         for c in moved {
             let (term, old, new) = moved_line(c);
-            out.push_str(&format!("    {term:<28} {old} → {new}\n"));
+            out.push_str(&format!("    {term:<width$} {old} → {new}\n"));
         }
         for c in &f.coefficients {
             if let Some(what) = membership(c) {
-                out.push_str(&format!("    {:<28} {what}\n", c.term));
+                out.push_str(&format!("    {:<width$} {what}\n", c.term));
             }
         }
     }
@@ -140,7 +155,7 @@ pub fn drift_html(report: &DriftReport) -> String {
             escape(&data_line(f))
         ));
         let stats: Vec<Vec<String>> =
-            f.statistics.iter().map(|s| vec![escape(&s.statistic), number(s.old), number(s.new)]).collect();
+            f.statistics.iter().map(|s| vec![escape(statistic_words(&s.statistic)), number(s.old), number(s.new)]).collect();
         table(&mut out, &["statistic", "old", "new"], &[false, true, true], &stats);
         let mut terms: Vec<Vec<String>> = f
             .coefficients

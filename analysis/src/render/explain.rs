@@ -5,6 +5,7 @@ use super::bundle::{MimeBundle, Report};
 use super::fit_report::{fit_html, VALUATION_CAUTION};
 use super::html::{escape, CARD, HEADING};
 use super::numbers::{format_p_value, format_significant};
+use crate::diagnose::collinearity::CONDITION_INDEX_WARNING;
 use crate::fit::Fit;
 use crate::model::design::INTERCEPT_NAME;
 use crate::model::{DatePart, TargetTransform, Term, Transform};
@@ -76,12 +77,12 @@ pub fn explanations(fit: &Fit, level: f64) -> crate::Result<Vec<(String, String)
         format!(
             "Adjusted R² = {} is R² with a charge for each of the {} slope coefficients; it rises only when a term helps more than chance would.",
             format_significant(stats.adj_r_squared, 4),
-            stats.df_model
+            stats.model_df
         ),
     ));
     let s = stats.residual_std_error;
     out.push((
-        "residual std error".to_string(),
+        "typical miss".to_string(),
         if log_target {
             format!(
                 "A typical sale's {target} sits about {} from its fitted value — roughly ±{} in {raw_target}.",
@@ -114,8 +115,9 @@ pub fn explanations(fit: &Fit, level: f64) -> crate::Result<Vec<(String, String)
     out.push((
         "condition number".to_string(),
         format!(
-            "The condition number {} measures how close the terms come to moving together; below 30 is comfortable (common practice).",
-            format_significant(stats.condition_number, 3)
+            "The condition number {} measures how close the terms come to moving together; below {} is comfortable (common practice).",
+            format_significant(stats.condition_number, 3),
+            CONDITION_INDEX_WARNING
         ),
     ));
     let logged = logged_columns(fit);

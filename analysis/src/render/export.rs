@@ -16,7 +16,7 @@ pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
         prov.sha256,
         stats.n_obs,
         fit.design().dropped.describe(),
-        fit.covariance_kind().label()
+        fit.covariance_description()
     ));
     out.push_str(&format!("| term | estimate | std error | t | p-value | {pct} % interval |\n|---|---:|---:|---:|---:|---:|\n"));
     for c in fit.coefficients(level)? {
@@ -31,15 +31,11 @@ pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
             format_significant(c.ci_high, 5)
         ));
     }
-    out.push_str(&format!(
-        "\nR² {}, adjusted R² {}, residual std error {} on {} df, AIC {}, BIC {}.\n\n",
-        format_significant(stats.r_squared, 5),
-        format_significant(stats.adj_r_squared, 5),
-        format_significant(stats.residual_std_error, 5),
-        stats.df_resid,
-        format_significant(stats.aic, 6),
-        format_significant(stats.bic, 6)
-    ));
+    out.push('\n');
+    for group in super::fit_figures::figure_groups(fit) {
+        out.push_str(&format!("- **{}**: {}\n", group.heading, group.line().replace('|', "\\|")));
+    }
+    out.push('\n');
     out.push_str(&format!("> {}\n", super::fit_report::VALUATION_CAUTION));
     Ok(out)
 }

@@ -2,10 +2,12 @@
 //! inline interval bar per row, fit quality, and warnings in plain words.
 
 use super::bundle::{MimeBundle, Report, FIT_JSON_MIME};
+use super::fit_figures::figure_groups;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_p_value, format_significant};
 use super::text::{fit_text, percent};
-use crate::fit::{CovarianceKind, Fit, SolverMethod};
+use crate::diagnose::collinearity::{CONDITION_INDEX_WARNING, INTERVAL_WIDENING_WARNING};
+use crate::fit::{CovarianceKind, Fit};
 use crate::inference::Coefficient;
 use crate::model::design::INTERCEPT_NAME;
 
@@ -30,9 +32,9 @@ impl Fit {
 }
 
 /// Warnings about a fit, in plain words. Thresholds are common practice:
-/// condition number among the terms (centred) above 30 (after Belsley, Kuh &
-/// Welsch 1980), GVIF^(1/(2df))
-/// above √10 (the "VIF above 10" habit), Cook's distance above 4/n, and the
+/// condition number among the terms (centred) above
+/// [`CONDITION_INDEX_WARNING`], interval widening above
+/// [`INTERVAL_WIDENING_WARNING`], Cook's distance above 4/n, and the
 /// studentized Breusch–Pagan test at the 5 % level.
 pub fn fit_warnings(fit: &Fit) -> Vec<String> {
     let mut out = Vec::new();
@@ -44,7 +46,7 @@ pub fn fit_warnings(fit: &Fit) -> Vec<String> {
         ));
     }
     let collinearity = fit.collinearity();
-    if collinearity.centered_condition_number > 30.0 {
+    if collinearity.centered_condition_number > CONDITION_INDEX_WARNING {
         out.push(format!(
             "The condition number among the terms is {}: some terms nearly move together, so their separate effects are estimated imprecisely.",
             format_significant(collinearity.centered_condition_number, 3)
@@ -53,11 +55,14 @@ pub fn fit_warnings(fit: &Fit) -> Vec<String> {
     let collinear: Vec<String> = collinearity
         .terms
         .into_iter()
-        .filter(|t| t.gvif_adjusted > 10f64.sqrt())
-        .map(|t| format!("{} (GVIF {})", t.term, format_significant(t.gvif, 3)))
+        .filter(|t| t.interval_widening > INTERVAL_WIDENING_WARNING)
+        .map(|t| format!("{} ×{}", t.term, format_significant(t.interval_widening, 3)))
         .collect();
     if !collinear.is_empty() {
-        out.push(format!("Large variance inflation: {}.", collinear.join(", ")));
+        out.push(format!(
+            "Intervals widened by terms moving together (times wider than with uncorrelated terms): {}.",
+            collinear.join(", ")
+        ));
     }
     let influence = fit.influence();
     let cutoff = 4.0 / influence.rows.len() as f64;
@@ -119,17 +124,12 @@ pub fn fit_html(fit: &Fit, level: f64) -> crate::Result<String> {
         escape(&dropped.describe())
     ));
     let terms: Vec<String> = fit.design().recipe.term_spans.iter().map(|s| s.label.clone()).collect();
-    let solver = match fit.solution().method {
-        SolverMethod::ExtendedQr => "pivoted QR in double-double arithmetic".to_string(),
-        SolverMethod::RefinedQr { refinement_steps } => format!("pivoted QR with {refinement_steps} refinement step(s)"),
-    };
     out.push_str(&format!(
-        "<div style=\"margin:6px 0\">Terms: {}{}{}. Standard errors: {}. Solver: {}.</div>\n",
+        "<div style=\"margin:6px 0\">Terms: {}{}{}. Standard errors: {}.</div>\n",
         escape(&terms.join(", ")),
         if spec.has_intercept() { ", with intercept" } else { ", no intercept" },
         spec.weight_column().map(|w| format!(", weighted by {}", escape(w))).unwrap_or_default(),
-        escape(&fit.covariance_kind().label()),
-        escape(&solver)
+        escape(&fit.covariance_description())
     ));
     let scaled: Vec<&Coefficient> = coefficients.iter().filter(|c| c.term != INTERCEPT_NAME).collect();
     let lo = scaled.iter().map(|c| c.ci_low).fold(0.0, f64::min);
@@ -155,29 +155,9 @@ pub fn fit_html(fit: &Fit, level: f64) -> crate::Result<String> {
         &[false, true, true, true, true, true, false],
         &rows,
     );
-    let quality = vec![
-        vec!["R²".into(), format_significant(stats.r_squared, 5), "adjusted R²".into(), format_significant(stats.adj_r_squared, 5)],
-        vec![
-            "residual std error".into(),
-            format_significant(stats.residual_std_error, 5),
-            "residual df".into(),
-            stats.df_resid.to_string(),
-        ],
-        vec![
-            "F".into(),
-            stats.f_statistic.map_or("—".into(), |f| format_significant(f, 5)),
-            "p-value of F".into(),
-            escape(&format_p_value(stats.f_p_value)),
-        ],
-        vec!["AIC".into(), format_significant(stats.aic, 6), "BIC".into(), format_significant(stats.bic, 6)],
-        vec![
-            "log-likelihood".into(),
-            format_significant(stats.log_likelihood, 6),
-            "condition number".into(),
-            format_significant(stats.condition_number, 4),
-        ],
-    ];
-    table(&mut out, &["fit quality", "", "", ""], &[false, true, false, true], &quality);
+    let figures: Vec<Vec<String>> =
+        figure_groups(fit).iter().map(|g| vec![format!("<b>{}</b>", escape(g.heading)), escape(&g.line())]).collect();
+    table(&mut out, &["the model as a whole", ""], &[false, false], &figures);
     for warning in fit_warnings(fit) {
         out.push_str(&format!("<div style=\"{NOTE}\">{}</div>\n", escape(&warning)));
     }

@@ -2,7 +2,7 @@
 
 use super::bundle::{MimeBundle, Report};
 use super::html::{card_end, card_start, escape, table, SUBTLE};
-use super::numbers::{format_column, format_trimmed};
+use super::numbers::{format_column, format_count, format_trimmed};
 use crate::data::{profile, ColumnProfile, Frame};
 use polars::prelude::AnyValue;
 
@@ -67,7 +67,7 @@ fn frame_cells(frame: &Frame) -> (Vec<String>, Vec<String>, Vec<bool>, Vec<Optio
 pub fn frame_text(frame: &Frame) -> String {
     let prov = frame.provenance();
     let (names, dtypes, numeric, rows) = frame_cells(frame);
-    let mut out = format!("Frame: {} rows × {} columns from {}\n", frame.height(), frame.width(), prov.path);
+    let mut out = format!("{} records · {} columns from {}\n", format_count(frame.height()), frame.width(), prov.path);
     if !prov.sha256.is_empty() {
         out.push_str(&format!("  sha256 {}…, read {}\n", prov.short_hash(), prov.loaded_at));
     }
@@ -102,7 +102,7 @@ pub fn frame_text(frame: &Frame) -> String {
     for (index, row) in indices.iter().zip(&rows) {
         match (index, row) {
             (Some(i), Some(cells)) => out.push_str(&line(cells, &(i + 1).to_string())),
-            _ => out.push_str(&format!("{:>6}  … {} rows not shown …\n", "", frame.height() - 2 * EDGE_ROWS)),
+            _ => out.push_str(&format!("{:>6}  … {} more records …\n", "", format_count(frame.height() - 2 * EDGE_ROWS))),
         }
     }
     if shown < names.len() {
@@ -116,7 +116,7 @@ pub fn frame_html(frame: &Frame) -> String {
     let prov = frame.provenance();
     let (names, dtypes, numeric, rows) = frame_cells(frame);
     let mut out = String::new();
-    card_start(&mut out, &format!("{} rows × {} columns", frame.height(), frame.width()));
+    card_start(&mut out, &format!("{} records · {} columns", format_count(frame.height()), frame.width()));
     out.push_str(&format!("<div style=\"{SUBTLE}\">{}", escape(&prov.path)));
     if !prov.sha256.is_empty() {
         out.push_str(&format!(" · sha256 <code>{}</code>… · read {}", escape(prov.short_hash()), escape(&prov.loaded_at)));
@@ -131,7 +131,7 @@ pub fn frame_html(frame: &Frame) -> String {
             (Some(i), Some(cells)) => body.push(std::iter::once((i + 1).to_string()).chain(cells.iter().map(|c| escape(c))).collect()),
             _ => {
                 let mut gap = vec![format!("<span style=\"{SUBTLE}\">⋮</span>")];
-                gap.push(format!("<span style=\"{SUBTLE}\">{} rows not shown</span>", frame.height() - 2 * EDGE_ROWS));
+                gap.push(format!("<span style=\"{SUBTLE}\">{} more records</span>", format_count(frame.height() - 2 * EDGE_ROWS)));
                 gap.resize(header.len(), String::new());
                 body.push(gap);
             }

@@ -7,6 +7,7 @@ mod bundle;
 mod diagnostics_text;
 mod drift_report;
 mod explain;
+mod fit_figures;
 mod export;
 mod fit_report;
 mod frame_report;

@@ -18,6 +18,19 @@ pub fn format_significant(value: f64, digits: usize) -> String {
     }
 }
 
+/// A count with digit groups of three: `3,000`, `1,250,000`.
+pub fn format_count(n: usize) -> String {
+    let digits = n.to_string();
+    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
+    for (i, c) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    out
+}
+
 /// Like [`format_significant`], without trailing zeros after the decimal
 /// point (`1870`, `83.5`), for tables where values of one column differ in scale.
 pub fn format_trimmed(value: f64, digits: usize) -> String {
@@ -75,5 +88,9 @@ mod tests {
         assert_eq!(format_significant(0.000123456, 3), "0.000123");
         assert_eq!(format_significant(1.5e12, 3), "1.50e12");
         assert_eq!(format_p_value(Some(1e-300)), "< 1e-16");
+        assert_eq!(format_count(0), "0");
+        assert_eq!(format_count(999), "999");
+        assert_eq!(format_count(3000), "3,000");
+        assert_eq!(format_count(1_250_000), "1,250,000");
     }
 }

@@ -9,6 +9,7 @@ use super::html::{card_end, card_start, escape, table, CAUTION};
 use super::numbers::{format_p_value, format_significant};
 use super::text::predictions_text;
 use crate::compare::{Comparison, CrossValidationResult, NestedTest};
+use crate::diagnose::collinearity::CONDITION_INDEX_WARNING;
 use crate::diagnose::{Collinearity, RowFlags, TestResult};
 use crate::plot::Svg;
 use crate::predict::Predictions;
@@ -34,7 +35,7 @@ impl Report for NestedTest {
             vec![
                 "F".into(),
                 format_significant(self.f_statistic, 5),
-                format!("({}, {})", self.q, self.df_resid_full),
+                format!("({}, {})", self.q, self.residual_df_full),
                 format_p_value(Some(self.f_p_value)),
             ],
             vec!["likelihood ratio".into(), format_significant(self.lr_statistic, 5), self.q.to_string(), format_p_value(Some(self.lr_p_value))],
@@ -155,15 +156,17 @@ impl Report for Collinearity {
         let rows: Vec<Vec<String>> = self
             .terms
             .iter()
-            .map(|t| vec![escape(&t.term), t.df.to_string(), format_significant(t.gvif, 4), format_significant(t.gvif_adjusted, 4)])
+            .map(|t| vec![escape(&t.term), t.df.to_string(), format_significant(t.gvif, 4), format_significant(t.interval_widening, 4)])
             .collect();
-        table(&mut html, &["term", "df", "GVIF", "GVIF^(1/2df)"], &[false, true, true, true], &rows);
+        table(&mut html, &["term", "df", "GVIF", "interval widening ×"], &[false, true, true, true], &rows);
         html.push_str(&format!(
-            "<div style=\"color:#5b6777;font-size:12px\">Condition number {} (among the terms, centred: {}); largest condition index {}. \
-Above 30 is a common-practice warning sign.</div>\n",
+            "<div style=\"color:#5b6777;font-size:12px\">Interval widening: how many times wider a term's interval is than it would be \
+were the term uncorrelated with the others (√GVIF for a one-column term). Condition number {} (among the terms, centred: {}); \
+largest condition index {}. Above {} is a common-practice warning sign.</div>\n",
             format_significant(self.condition_number, 4),
             format_significant(self.centered_condition_number, 4),
-            format_significant(self.condition_indices.last().copied().unwrap_or(f64::NAN), 4)
+            format_significant(self.condition_indices.last().copied().unwrap_or(f64::NAN), 4),
+            CONDITION_INDEX_WARNING
         ));
         card_end(&mut html);
         MimeBundle::text_and_html(text, html)

@@ -1,8 +1,9 @@
 //! Plain-text report of a fit: under 100 columns, aligned, for terminals.
 
-use super::numbers::{format_p_value, format_significant};
+use super::fit_figures::figure_groups;
+use super::numbers::{format_count, format_p_value, format_significant};
 use crate::error::Result;
-use crate::fit::{Fit, SolverMethod};
+use crate::fit::Fit;
 use crate::predict::Predictions;
 
 /// The fit as an aligned plain-text report at confidence `level`.
@@ -18,18 +19,14 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
     out.push_str(&format!("Least-squares fit of {}\n", spec.target_label()));
     out.push_str(&format!("  file      {}\n", prov.path));
     out.push_str(&format!(
-        "  data      {} rows × {} columns, sha256 {}…, read {}\n",
-        prov.rows,
+        "  data      {} records · {} columns, sha256 {}…, read {}\n",
+        format_count(prov.rows),
         prov.cols,
         prov.short_hash(),
         prov.loaded_at
     ));
     out.push_str(&format!("  rows      {} used, dropped for missing values: {}\n", stats.n_obs, dropped.describe()));
-    let solver = match fit.solution().method {
-        SolverMethod::ExtendedQr => "pivoted QR in double-double".to_string(),
-        SolverMethod::RefinedQr { refinement_steps } => format!("pivoted QR, {refinement_steps} refinement step(s)"),
-    };
-    out.push_str(&format!("  errors    {} covariance; solver: {}\n\n", fit.covariance_kind().label(), solver));
+    out.push_str(&format!("  errors    {} standard errors\n\n", fit.covariance_description()));
 
     let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
     out.push_str(&format!(
@@ -61,31 +58,11 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
         ));
     }
     out.push('\n');
-    out.push_str(&format!(
-        "  R² {}   adjusted R² {}{}   residual std error {} on {} df\n",
-        format_significant(stats.r_squared, 5),
-        format_significant(stats.adj_r_squared, 5),
-        if spec.has_intercept() { "" } else { " (uncentered)" },
-        format_significant(stats.residual_std_error, 5),
-        stats.df_resid
-    ));
-    match stats.f_statistic {
-        Some(f) => out.push_str(&format!(
-            "  F {} on {} and {} df, p-value {}\n",
-            format_significant(f, 5),
-            stats.df_model,
-            stats.df_t,
-            format_p_value(stats.f_p_value)
-        )),
-        None => out.push_str("  F not defined (no slope terms, or residuals exactly zero)\n"),
+    let groups = figure_groups(fit);
+    let heading_width = groups.iter().map(|g| g.heading.chars().count()).max().unwrap_or(0);
+    for group in &groups {
+        out.push_str(&format!("  {:<heading_width$}   {}\n", group.heading, group.line()));
     }
-    out.push_str(&format!(
-        "  log-likelihood {}   AIC {}   BIC {}   condition number {}\n",
-        format_significant(stats.log_likelihood, 6),
-        format_significant(stats.aic, 6),
-        format_significant(stats.bic, 6),
-        format_significant(stats.condition_number, 3)
-    ));
     if stats.condition_number > 1e8 {
         out.push_str("  note: the condition number is large; small changes in the data can move the coefficients a lot.\n");
     }

@@ -33,7 +33,7 @@ section.prose pre code{background:none;padding:0;font-size:inherit}
 section.prose blockquote{border-left:3px solid #3d5a80;background:#eef3f7;margin:10px 0;padding:2px 14px;color:#24364f}
 section.code{margin:10px 0 14px 0}
 .source{display:flex;gap:8px;align-items:flex-start}
-.source .count{color:#7a8799;font-family:ui-monospace,'DejaVu Sans Mono',monospace;font-size:12px;min-width:44px;text-align:right;padding-top:7px}
+.source .count{color:#7a8799;font-family:ui-monospace,'DejaVu Sans Mono',monospace;font-size:12px;min-width:56px;text-align:right;padding-top:7px;white-space:nowrap}
 .source pre{flex:1;margin:0;background:#f6f8fa;border:1px solid #d5dbe3;border-radius:5px;padding:7px 10px;overflow-x:auto;font-size:12.5px;line-height:1.45}
 .output{margin:6px 0 0 52px;overflow-x:auto}
 .output pre{margin:0;font-size:12.5px;line-height:1.4;white-space:pre-wrap}
@@ -186,7 +186,7 @@ pub fn report_html(notebook: &Notebook, facts: &RunFacts) -> String {
                 out.push_str(&format!("<section class=\"prose\" id=\"cell-{}\"><pre>{}</pre></section>\n", index + 1, escape(&notebook.source(index))));
             }
             CellKind::Code => {
-                let count = notebook.execution_count(index).map(|c| format!("[{c}]")).unwrap_or_else(|| "[ ]".into());
+                let count = notebook.execution_count(index).map(|c| format!("step {c}")).unwrap_or_else(|| "not run".into());
                 out.push_str(&format!(
                     "<section class=\"code\" id=\"cell-{}\">\n<div class=\"source\"><span class=\"count\">{count}</span><pre><code>{}</code></pre></div>\n",
                     index + 1,
