@@ -126,6 +126,10 @@ pub enum Error {
     #[error("could not draw the chart: {0}")]
     Plot(String),
 
+    /// A chart that reads the data beside the fit was given another frame.
+    #[error("the frame given ({given}) is not the one the model was fitted to ({fitted}); pass the frame the fit read, so that each residual is matched to its own sale")]
+    FrameMismatch { fitted: String, given: String },
+
     /// A result could not be written as its machine-readable JSON document.
     #[error("could not write the result as JSON: {0}")]
     Serialization(String),

@@ -30,7 +30,7 @@ use statrs::distribution::{ContinuousCDF, FisherSnedecor, StudentsT};
 
 /// Version of the JSON document produced by [`Fit::summary`]; bumped on any
 /// change that a reader would notice.
-pub const SUMMARY_SCHEMA_VERSION: u32 = 1;
+pub const SUMMARY_SCHEMA_VERSION: u32 = 2;
 
 /// One row of the coefficient table.
 #[derive(Debug, Clone, PartialEq, Serialize)]

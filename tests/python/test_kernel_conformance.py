@@ -75,7 +75,7 @@ def test_a_fit_cell_sends_an_svg_display(tmp_path):
             f'let sales = load("{data}").unwrap();\n'
             'let spec = ModelSpec::new("sale_price").log_target().term(Term::numeric("living_area").log()).numeric("age");\n'
             "let model = fit(&sales, &spec).unwrap();\n"
-            "show(&plumbline::plot::residuals_vs_fitted(&model, Default::default()).unwrap());\n"
+            "show(&plumbline::plot::residuals_by_value(&model, Default::default()).unwrap());\n"
             "model.report(0.95)"
         )
         reply = kc.execute_interactive(code, timeout=TIMEOUT, output_hook=outputs.append)
@@ -112,7 +112,7 @@ def test_nbclient_runs_a_notebook():
         'let spec = ModelSpec::new("sale_price").log_target()\n'
         '    .term(Term::numeric("living_area").log()).numeric("age").category("district");',
         "let model = fit(&sales, &spec).unwrap();\nmodel.report(0.95)",
-        "plumbline::plot::diagnostic_sheet(&model, Default::default()).unwrap()",
+        "plumbline::plot::diagnostic_sheet(&model, &sales, &plumbline::plot::ReviewOptions::default().ids(\"parcel_id\")).unwrap()",
         f'let subjects = load("{data / "subjects.csv"}").unwrap();\nmodel.predict(&subjects, 0.95).unwrap()',
         "model.explain(0.95)",
     ]

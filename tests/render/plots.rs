@@ -1,9 +1,11 @@
 //! Every chart type renders to a non-trivial picture and is byte-identical
 //! across runs. Charts are drawn for fits to NIST StRD data (Longley, Norris)
-//! and rasterised with resvg (an independent SVG renderer); the check is the
-//! fraction of non-background pixels inside the chart.
+//! and the demo study, and rasterised with resvg (an independent SVG
+//! renderer); the check is the fraction of non-background pixels inside the
+//! chart. The review sheet is also read back as SVG structure: its panels and
+//! the parcels it names.
 
-use plumbline::plot::{self, PlotSize, Svg};
+use plumbline::plot::{self, PlotSize, ReviewOptions, Svg};
 use plumbline::prelude::*;
 
 fn longley() -> (Frame, Fit) {
@@ -56,13 +58,91 @@ fn check(name: &str, make: impl Fn() -> Svg, low: f64, high: f64) {
 
 #[test]
 fn residual_charts() {
-    let (_, model) = longley();
+    let (frame, model) = longley();
     let size = PlotSize::default();
-    check("residuals", || plot::residuals_vs_fitted(&model, size).expect("draw"), 0.03, 0.5);
-    check("qq", || plot::normal_qq(&model, size).expect("draw"), 0.03, 0.5);
-    check("scale", || plot::scale_location(&model, size).expect("draw"), 0.03, 0.5);
-    check("leverage", || plot::leverage_plot(&model, size).expect("draw"), 0.03, 0.5);
-    check("sheet", || plot::diagnostic_sheet(&model, size).expect("draw"), 0.05, 0.6);
+    check("residuals", || plot::residuals_by_value(&model, size).expect("draw"), 0.03, 0.5);
+    check("normal", || plot::normal_quantiles(&model, size).expect("draw"), 0.03, 0.5);
+    check("spread", || plot::residual_spread(&model, size).expect("draw"), 0.03, 0.5);
+    // Longley's x6 is the year: a numeric time column, drawn with tier medians.
+    let by_year = ReviewOptions::default().time("x6");
+    check("over time", || plot::residuals_over_time(&model, &frame, &by_year).expect("draw"), 0.03, 0.5);
+    check("influence", || plot::influence_by_value(&model, &frame, &ReviewOptions::default()).expect("draw"), 0.03, 0.5);
+    check("sheet", || plot::diagnostic_sheet(&model, &frame, &by_year).expect("draw"), 0.05, 0.6);
+}
+
+/// The demo study's chosen model (valuation-study.ipynb): arm's-length sales
+/// of at most 8,000 sq ft, log price on the hedonic terms, district and a
+/// monthly trend, HC3 errors.
+fn demo_study() -> (Frame, Fit) {
+    let sales = load_csv(plumbline_tests::repo_root().join("notebooks-demo/data/sales.csv"), &CsvOptions::default()).expect("demo sales");
+    let arms_length = sales.keep_where_text("sale_type", "arm's-length", |t| t == Some("arms-length")).expect("screen").kept;
+    let study = arms_length
+        .keep_where_number("living_area", "at most 8,000 sq ft", |a| a.is_none_or(|a| a <= 8000.0))
+        .expect("screen")
+        .kept;
+    let spec = ModelSpec::new("sale_price")
+        .log_target()
+        .term(Term::numeric("living_area").log())
+        .term(Term::numeric("lot_size").log())
+        .numeric("age")
+        .numeric("quality")
+        .numeric("bathrooms")
+        .term(Term::category("district").reference("Wickerholm"))
+        .term(Term::months_since("sale_date", "2023-01-01"));
+    let model = fit_with(&study, &spec, &FitOptions::with_covariance(CovarianceKind::Hc3)).expect("fit");
+    (study, model)
+}
+
+/// The text of every `<text>` element, in document order.
+fn svg_texts(markup: &str) -> Vec<String> {
+    markup
+        .split("<text")
+        .skip(1)
+        .filter_map(|piece| piece.split_once('>').and_then(|(_, rest)| rest.split_once("</text>")).map(|(text, _)| text.trim().to_string()))
+        .collect()
+}
+
+#[test]
+fn the_review_sheet_shows_time_location_and_the_flagged_parcels() {
+    let (frame, model) = demo_study();
+    let options = ReviewOptions::default().ids("parcel_id");
+    let svg = plot::diagnostic_sheet(&model, &frame, &options).expect("sheet");
+    let texts = svg_texts(&svg.markup);
+    // The time panel and the location panel exist, titled by their columns.
+    assert!(texts.iter().any(|t| t == "Miss by sale_date: median of each quarter"), "no time panel: {texts:?}");
+    assert!(texts.iter().any(|t| t == "Miss by district"), "no location panel: {texts:?}");
+    for district in ["Wickerholm", "Tidewright Quay", "Brambleknot", "Corvel Heights", "Mossgrieve", "Pellowick"] {
+        assert!(texts.iter().any(|t| t.starts_with(&format!("{district} ("))), "district {district} missing from the location panel");
+    }
+    // The labelled parcels are the ones flagged_rows names for Cook's distance
+    // above 4/n, most influential first (at most DEFAULT_LABELLED of them).
+    let flags = model.flagged_rows(&frame, Some("parcel_id")).expect("flags");
+    let expected: Vec<String> = flags
+        .rows
+        .iter()
+        .filter(|r| r.cooks_distance.is_some_and(|d| d > flags.cooks_cutoff))
+        .take(plot::DEFAULT_LABELLED)
+        .map(|r| r.id.clone().expect("every demo sale has a parcel id"))
+        .collect();
+    assert_eq!(expected.len(), plot::DEFAULT_LABELLED, "the demo study has more than five influential sales");
+    let drawn: Vec<&String> = texts.iter().filter(|t| t.len() == 9 && t.as_bytes()[2] == b'-').collect();
+    assert_eq!(drawn, expected.iter().collect::<Vec<_>>(), "labels drawn on the sheet");
+    assert!(svg.markup.contains(&format!("most influential first): {}.", expected.join(", "))), "the description names them too");
+    // The picture is not blank and renders in an independent SVG renderer.
+    let (fraction, w, h) = ink_fraction(&svg);
+    assert!((w, h) == (plot::SHEET_SIZE.width, plot::SHEET_SIZE.height) && fraction > 0.05 && fraction < 0.6, "{fraction} {w}×{h}");
+}
+
+#[test]
+fn review_charts_refuse_a_frame_that_is_not_the_fitting_one() {
+    let (frame, model) = longley();
+    let (other, _) = norris();
+    let e = plot::diagnostic_sheet(&model, &other, &ReviewOptions::default()).expect_err("other frame").to_string();
+    assert!(e.contains("not the one the model was fitted to"), "{e}");
+    let e = plot::residuals_by_group(&model, &frame, &ReviewOptions::default()).expect_err("no category").to_string();
+    assert!(e.contains("no category term"), "{e}");
+    let e = plot::residuals_by_group(&model, &frame, &ReviewOptions::default().groups("x9")).expect_err("no such column").to_string();
+    assert!(e.contains("x9"), "{e}");
 }
 
 #[test]
@@ -92,7 +172,7 @@ fn distribution_charts() {
 #[test]
 fn a_custom_size_is_honoured() {
     let (_, model) = norris();
-    let svg = plot::normal_qq(&model, PlotSize { width: 400, height: 300 }).expect("draw");
+    let svg = plot::normal_quantiles(&model, PlotSize { width: 400, height: 300 }).expect("draw");
     assert!(svg.markup.contains("width=\"400\"") && svg.markup.contains("height=\"300\""));
 }
 

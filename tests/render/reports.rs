@@ -73,7 +73,8 @@ fn fit_snapshot() {
     check_html("fit", html);
     assert!(html.contains("not appraisals"), "the caution is part of every fit report");
     let json: serde_json::Value = serde_json::from_str(bundle.get(FIT_JSON_MIME).expect("fit json")).expect("valid JSON");
-    assert_eq!(json["schema_version"], 1);
+    assert_eq!(json["schema_version"], plumbline::inference::SUMMARY_SCHEMA_VERSION);
+    assert!(json.get("model_df").is_some() && json.get("df_model").is_none(), "schema 2 names the degrees of freedom model_df and residual_df");
     insta::assert_snapshot!("fit_text", stable(text, &frame));
     insta::assert_snapshot!("fit_html", stable(html, &frame));
 }
@@ -86,7 +87,7 @@ fn explain_has_a_sentence_per_statistic() {
     let (text, html) = parts(&bundle);
     check_text("explain", text);
     check_html("explain", html);
-    for what in ["R²", "adjusted R²", "residual std error", "F", "AIC and BIC", "condition number", "x1", "x6"] {
+    for what in ["R²", "adjusted R²", "typical miss", "F", "AIC and BIC", "condition number", "x1", "x6"] {
         assert!(text.contains(&format!("{what}: ")), "no sentence for {what}");
     }
     insta::assert_snapshot!("explain_text", stable(text, &frame));
@@ -130,7 +131,7 @@ fn every_result_has_plain_text() {
         model.collinearity().bundle(),
         model.flagged_rows(&frame, None).expect("flags").bundle(),
         model.predict(&frame, 0.9).expect("predict").bundle(),
-        plumbline::plot::normal_qq(&model, Default::default()).expect("svg").bundle(),
+        plumbline::plot::normal_quantiles(&model, Default::default()).expect("svg").bundle(),
     ];
     for b in &bundles {
         assert!(b.get("text/plain").is_some_and(|t| !t.is_empty()));

@@ -10,6 +10,20 @@ use crate::error::Result;
 use crate::fit::Fit;
 use serde::Serialize;
 
+/// Cut-off for |externally studentized residual| (common practice).
+pub const STUDENTIZED_CUTOFF: f64 = 3.0;
+
+/// Cut-off for leverage with `k` estimated coefficients and `n` rows: `2k/n`
+/// (Hoaglin & Welsch 1978).
+pub fn leverage_cutoff(k: usize, n: usize) -> f64 {
+    2.0 * k as f64 / n as f64
+}
+
+/// Cut-off for Cook's distance over `n` rows: `4/n` (common practice).
+pub fn cooks_cutoff(n: usize) -> f64 {
+    4.0 / n as f64
+}
+
 /// A row beyond at least one cut-off.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct FlaggedRow {
@@ -50,9 +64,9 @@ impl Fit {
             None => None,
         };
         let influence = self.influence();
-        let n = influence.rows.len() as f64;
-        let k = self.solution.kept.len() as f64;
-        let (studentized_cutoff, leverage_cutoff, cooks_cutoff) = (3.0, 2.0 * k / n, 4.0 / n);
+        let n = influence.rows.len();
+        let k = self.solution.kept.len();
+        let (studentized_cutoff, leverage_cutoff, cooks_cutoff) = (STUDENTIZED_CUTOFF, leverage_cutoff(k, n), cooks_cutoff(n));
         let mut rows: Vec<FlaggedRow> = influence
             .rows
             .iter()

@@ -48,26 +48,64 @@ pub(crate) fn axes<'a, 'b>(
     x_title: &str,
     y_title: &str,
 ) -> Result<Chart<'a, 'b>> {
+    axes_with(area, caption, (x, y), (x_title, y_title), &AxisTicks::default())
+}
+
+/// How an axis pair labels its ticks: how many, and in what words. The
+/// default is 7 × 6 ticks through [`format_tick`].
+pub(crate) struct AxisTicks<'f> {
+    /// Most ticks on the x axis.
+    pub x_count: usize,
+    /// Most ticks on the y axis.
+    pub y_count: usize,
+    /// Tick label on the x axis.
+    pub x_label: &'f dyn Fn(&f64) -> String,
+    /// Tick label on the y axis.
+    pub y_label: &'f dyn Fn(&f64) -> String,
+    /// Width reserved for y tick labels, in pixels.
+    pub y_label_width: u32,
+    /// Whether grid lines run across at the y ticks.
+    pub y_grid: bool,
+}
+
+impl Default for AxisTicks<'_> {
+    fn default() -> Self {
+        AxisTicks { x_count: 7, y_count: 6, x_label: &|v| format_tick(*v), y_label: &|v| format_tick(*v), y_label_width: 64, y_grid: true }
+    }
+}
+
+/// Themed axes as [`axes`], with tick counts and labels of the caller's choosing.
+pub(crate) fn axes_with<'a, 'b>(
+    area: &'a Area<'b>,
+    caption: &str,
+    (x, y): (Range<f64>, Range<f64>),
+    (x_title, y_title): (&str, &str),
+    ticks: &AxisTicks,
+) -> Result<Chart<'a, 'b>> {
     let mut chart = ChartBuilder::on(area)
-        .caption(caption, (FONT, 17).into_font().color(&INK))
-        .margin(14)
+        .caption(caption, (FONT, 16).into_font().color(&INK))
+        .margin(12)
         .x_label_area_size(44)
-        .y_label_area_size(64)
+        .y_label_area_size(ticks.y_label_width)
         .build_cartesian_2d(x, y)
         .map_err(plot_error)?;
-    chart
-        .configure_mesh()
+    let mut mesh = chart.configure_mesh();
+    mesh
         .x_desc(x_title)
         .y_desc(y_title)
-        .x_labels(7)
-        .y_labels(6)
-        .x_label_formatter(&|v| format_tick(*v))
-        .y_label_formatter(&|v| format_tick(*v))
+        .x_labels(ticks.x_count)
+        .y_labels(ticks.y_count)
+        .x_label_formatter(ticks.x_label)
+        .y_label_formatter(ticks.y_label)
         .label_style((FONT, 12).into_font().color(&INK))
         .axis_desc_style((FONT, 13).into_font().color(&INK))
         .axis_style(INK.mix(0.6))
         .bold_line_style(GRID)
-        .light_line_style(GRID.mix(0.0))
+        .light_line_style(GRID.mix(0.0));
+    if !ticks.y_grid {
+        mesh.disable_y_mesh();
+    }
+    mesh
         .draw()
         .map_err(plot_error)?;
     Ok(chart)

@@ -7,26 +7,38 @@
 //! | function | chart |
 //! |---|---|
 //! | [`fit_line`] | target against one term, fitted line, confidence and prediction bands |
-//! | [`residuals_vs_fitted`] | residuals against fitted values with a LOWESS smoother |
-//! | [`normal_qq`] | normal Q-Q plot of standardized residuals |
-//! | [`scale_location`] | √\|standardized residual\| against fitted values, smoothed |
-//! | [`leverage_plot`] | standardized residuals against leverage, Cook's distance contours |
+//! | [`residuals_by_value`] | studentized residual by model value, ±3 lines, tier medians |
+//! | [`normal_quantiles`] | studentized residuals against the normal, 95 % pointwise band |
+//! | [`residual_spread`] | \|studentized residual\| by model value, tier medians |
+//! | [`residuals_over_time`] | the miss by sale date, quarterly medians |
+//! | [`residuals_by_group`] | the miss by location group, boxes and medians |
+//! | [`influence_by_value`] | Cook's distance by model value, 4/n line, influential sales named |
 //! | [`coefficient_intervals`] | estimates with intervals, sorted, zero line |
 //! | [`histogram`] | histogram with a kernel density curve |
 //! | [`correlation_heatmap`] | correlation matrix of numeric columns |
-//! | [`diagnostic_sheet`] | four diagnostic panels on one sheet |
+//! | [`diagnostic_sheet`] | the review sheet: five of the panels above, laid out for a valuation review |
+//!
+//! Charts that need the data beside the fit (time, location, names) take the
+//! fitting frame and [`ReviewOptions`].
 
 mod canvas;
 mod charts_distribution;
 mod charts_fit;
 mod charts_residual;
+mod review;
+mod sheet;
 mod smoother;
 mod theme;
 
 pub use charts_distribution::{correlation_heatmap, histogram};
 pub use charts_fit::{coefficient_intervals, fit_line};
-pub use charts_residual::{diagnostic_sheet, leverage_plot, normal_qq, residuals_vs_fitted, scale_location};
-pub use smoother::lowess;
+pub use charts_residual::MAX_GROUPS_SHOWN;
+pub use review::{ReviewOptions, DEFAULT_LABELLED};
+pub use sheet::{
+    diagnostic_sheet, influence_by_value, normal_quantiles, residual_spread, residuals_by_group, residuals_by_value, residuals_over_time,
+    SHEET_SIZE,
+};
+pub use smoother::{group_medians, tier_count, tier_medians};
 pub use theme::format_tick;
 
 use crate::error::{Error, Result};

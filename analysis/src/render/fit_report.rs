@@ -65,7 +65,7 @@ pub fn fit_warnings(fit: &Fit) -> Vec<String> {
         ));
     }
     let influence = fit.influence();
-    let cutoff = 4.0 / influence.rows.len() as f64;
+    let cutoff = crate::diagnose::flags::cooks_cutoff(influence.rows.len());
     let influential = influence.rows.iter().filter(|r| r.cooks_distance.is_some_and(|d| d > cutoff)).count();
     let big = influence.rows.iter().filter(|r| r.cooks_distance.is_some_and(|d| d > 0.5)).count();
     if big > 0 {

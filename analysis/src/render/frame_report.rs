@@ -44,7 +44,7 @@ fn shown_rows(height: usize) -> Vec<Option<usize>> {
 fn frame_cells(frame: &Frame) -> (Vec<String>, Vec<String>, Vec<bool>, Vec<Option<Vec<String>>>) {
     let data = frame.data();
     let names = frame.column_names();
-    let dtypes: Vec<String> = data.columns().iter().map(|c| c.dtype().to_string()).collect();
+    let dtypes: Vec<String> = data.columns().iter().map(|c| kind_words(c.dtype()).to_string()).collect();
     let numeric: Vec<bool> = data.columns().iter().map(|c| c.dtype().is_primitive_numeric()).collect();
     let shown = shown_rows(frame.height());
     let indices: Vec<usize> = shown.iter().flatten().copied().collect();
@@ -61,6 +61,21 @@ fn frame_cells(frame: &Frame) -> (Vec<String>, Vec<String>, Vec<bool>, Vec<Optio
         })
         .collect();
     (names, dtypes, numeric, rows)
+}
+
+/// A column's storage type in the words of the column types people give on
+/// the command line (`number`, `integer`, `text`, `date`), so the frame
+/// display and `--column-type` speak alike.
+fn kind_words(dtype: &polars::prelude::DataType) -> String {
+    use polars::prelude::DataType;
+    match dtype {
+        DataType::Float64 | DataType::Float32 => "number".into(),
+        d if d.is_integer() => "integer".into(),
+        DataType::String => "text".into(),
+        DataType::Date => "date".into(),
+        DataType::Boolean => "yes/no".into(),
+        other => other.to_string(),
+    }
 }
 
 /// The frame as aligned text under 100 columns (columns that do not fit are counted).

@@ -26,7 +26,7 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
         prov.loaded_at
     ));
     out.push_str(&format!("  rows      {} used, dropped for missing values: {}\n", stats.n_obs, dropped.describe()));
-    out.push_str(&format!("  errors    {} standard errors\n\n", fit.covariance_description()));
+    out.push_str(&format!("  errors    {}\n\n", fit.covariance_description()));
 
     let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
     out.push_str(&format!(
