@@ -32,7 +32,25 @@ def test_diff_reports_the_known_market_move(tmp_path):
     moved = {c["term"] for c in fit["coefficients"] if c["moved"]}
     assert "sale_date (months since 2023-01-01)" in moved
     text = run_raw("diff", str(tmp_path / "q1.json"), str(tmp_path / "q2.json")).stdout
-    assert "sale_date (months since 2023-01-01)" in text and "3000 rows → 3300 rows" in text
+    assert "sale_date (months since 2023-01-01)" in text and "3,000 records → 3,300 records" in text
+    # Statistics are named in words, not by their JSON keys.
+    assert "adjusted R²" in text and "typical miss" in text
+    assert "adj_r_squared" not in text and "n_obs" not in text
+
+
+def test_diff_reads_a_schema_1_run_against_a_schema_2_run(tmp_path):
+    """Runs saved before schema version 2 (README, "JSON output") still compare:
+    the old document is rebuilt from a new one with the version-1 names."""
+    new = fit_json(DATA / "sales-next-quarter.csv", tmp_path / "q2.json")
+    assert new["schema_version"] == 2 and "model_df" in new and "df_model" not in new
+    old = fit_json(DATA / "sales.csv", tmp_path / "q1.json")
+    old["schema_version"] = 1
+    old["df_model"], old["df_resid"] = old.pop("model_df"), old.pop("residual_df")
+    (tmp_path / "q1.json").write_text(json.dumps(old))
+    r = run_raw("diff", str(tmp_path / "q1.json"), str(tmp_path / "q2.json"), "--format", "json")
+    assert r.returncode == 0, r.stderr
+    fit = json.loads(r.stdout)["fits"][0]
+    assert "sale_date (months since 2023-01-01)" in {c["term"] for c in fit["coefficients"] if c["moved"]}
 
 
 def test_diff_reads_fit_bundles_from_notebooks(tmp_path):

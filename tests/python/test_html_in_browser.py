@@ -49,7 +49,7 @@ def test_demo_fit_report_renders(tmp_path):
     png = tmp_path / "report.png"
     screenshot(html, png, tmp_path / "profile")
     image = Image.open(png).convert("L")
-    pixels = list(image.getdata())
+    pixels = list(image.tobytes())  # one byte per pixel in mode L
     dark = sum(1 for p in pixels if p < 128) / len(pixels)
     distinct = len(set(pixels))
     # Text and table rules make a small but clear share of dark pixels; a blank page has none.

@@ -73,7 +73,7 @@ def test_report_renders_in_a_browser(study_run, tmp_path):
     _, report_path, _ = study_run
     png = tmp_path / "study.png"
     screenshot(report_path, png, tmp_path / "profile")
-    pixels = list(Image.open(png).convert("L").getdata())
+    pixels = list(Image.open(png).convert("L").tobytes())  # one byte per pixel in mode L
     dark = sum(1 for p in pixels if p < 128) / len(pixels)
     assert 0.003 < dark < 0.5, dark
     assert len(set(pixels)) > 20

@@ -4,7 +4,7 @@
 //!   diagnostics", *JASA* 87, 178–183): with `R` the correlation matrix of all
 //!   non-intercept design columns, `R₁₁` the block of the term's columns and
 //!   `R₂₂` the rest, `GVIF = det R₁₁ · det R₂₂ / det R`. For a one-column term
-//!   this is the ordinary `VIF = 1/(1 − R²ⱼ)`. We report `GVIF^(1/(2·df))` as
+//!   this is the ordinary `VIF = 1/(1 − R²ⱼ)`. We report GVIF raised to `1/(2·df)` as
 //!   the term's **interval widening**: how many times wider its confidence
 //!   interval (for a one-column term, `√VIF`) or the linear size of its
 //!   confidence region (for several columns) is than it would be were the
@@ -29,7 +29,7 @@ pub struct TermVif {
     pub df: usize,
     /// GVIF (the VIF for a one-column term).
     pub gvif: f64,
-    /// Interval widening `GVIF^(1/(2·df))`: how many times wider the term's
+    /// Interval widening, GVIF raised to `1/(2·df)`: how many times wider the term's
     /// interval is than with uncorrelated terms (`√VIF` for one column).
     pub interval_widening: f64,
 }

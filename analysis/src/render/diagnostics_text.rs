@@ -84,7 +84,7 @@ pub fn flags_text(flags: &RowFlags, limit: usize) -> String {
 
 /// Side-by-side coefficients with standard errors in parentheses.
 pub fn comparison_text(c: &Comparison) -> String {
-    let name_width = c.rows.iter().map(|r| r.term.chars().count()).max().unwrap_or(4).clamp("residual std error".len(), 30);
+    let name_width = c.rows.iter().map(|r| r.term.chars().count()).max().unwrap_or(4).clamp("typical miss".len(), 30);
     let cell = 22;
     let mut out = format!("  {:<name_width$}", "term");
     for m in &c.models {
@@ -113,7 +113,7 @@ pub fn comparison_text(c: &Comparison) -> String {
     out.push_str(&line("n", &|m| m.n_obs.to_string()));
     out.push_str(&line("R²", &|m| format_significant(m.r_squared, 5)));
     out.push_str(&line("adjusted R²", &|m| format_significant(m.adj_r_squared, 5)));
-    out.push_str(&line("residual std error", &|m| format_significant(m.residual_std_error, 5)));
+    out.push_str(&line("typical miss", &|m| format_significant(m.residual_std_error, 5)));
     out.push_str(&line("AIC", &|m| format_significant(m.aic, 6)));
     out.push_str(&line("BIC", &|m| format_significant(m.bic, 6)));
     out

@@ -73,7 +73,7 @@ impl Report for Comparison {
             ("n", |m| m.n_obs.to_string()),
             ("R²", |m| format_significant(m.r_squared, 5)),
             ("adjusted R²", |m| format_significant(m.adj_r_squared, 5)),
-            ("residual std error", |m| format_significant(m.residual_std_error, 5)),
+            ("typical miss", |m| format_significant(m.residual_std_error, 5)),
             ("AIC", |m| format_significant(m.aic, 6)),
             ("BIC", |m| format_significant(m.bic, 6)),
         ];

@@ -86,7 +86,8 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
                 validation.iter().map(|(n, r)| serde_json::json!({ "model": n, "result": r })).collect();
             let document = serde_json::json!({
                 "schema": "plumbline.comparison",
-                "schema_version": 1,
+                // 2: nested tests name the full model's residual degrees of freedom `residual_df_full`.
+                "schema_version": 2,
                 "models": names.iter().zip(&args.models).map(|(n, t)| serde_json::json!({"name": n, "terms": t})).collect::<Vec<_>>(),
                 "rows_used": frame.height(),
                 "rows_dropped": dropped,
