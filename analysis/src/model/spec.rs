@@ -5,7 +5,7 @@
 //! let spec = ModelSpec::new("sale_price")
 //!     .log_target()
 //!     .term(Term::numeric("living_area").log())
-//!     .term(Term::numeric("age").poly(2))
+//!     .term(Term::numeric("age").polynomial(2))
 //!     .term(Term::category("district").reference("Tidewright Quay"))
 //!     .term(Term::numeric("living_area").times(Term::category("district")));
 //! assert_eq!(spec.target(), "sale_price");
@@ -186,12 +186,12 @@ impl Term {
     }
 
     /// Raw polynomial of degree `d` of a numeric term.
-    pub fn poly(self, degree: u32) -> Self {
+    pub fn polynomial(self, degree: u32) -> Self {
         self.transformed(Transform::Polynomial(degree))
     }
 
     /// Orthogonal polynomial of degree `d` of a numeric term.
-    pub fn orthogonal_poly(self, degree: u32) -> Self {
+    pub fn orthogonal_polynomial(self, degree: u32) -> Self {
         self.transformed(Transform::OrthogonalPolynomial(degree))
     }
 

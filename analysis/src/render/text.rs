@@ -25,7 +25,7 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
         prov.short_hash(),
         prov.loaded_at
     ));
-    out.push_str(&format!("  rows      {} used, dropped for missing values: {}\n", stats.n_obs, dropped.describe()));
+    out.push_str(&format!("  rows      {} used, dropped for missing values: {}\n", format_count(stats.n_obs), dropped.describe()));
     out.push_str(&format!("  errors    {}\n\n", fit.covariance_description()));
 
     let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
@@ -60,8 +60,13 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
     out.push('\n');
     let groups = figure_groups(fit);
     let heading_width = groups.iter().map(|g| g.heading.chars().count()).max().unwrap_or(0);
+    // Under 100 columns: long groups continue under their first figure.
+    let value_width = 96usize.saturating_sub(heading_width + 5).max(40);
     for group in &groups {
-        out.push_str(&format!("  {:<heading_width$}   {}\n", group.heading, group.line()));
+        for (i, line) in group.lines(value_width).iter().enumerate() {
+            let heading = if i == 0 { group.heading } else { "" };
+            out.push_str(&format!("  {heading:<heading_width$}   {line}\n"));
+        }
     }
     if stats.condition_number > 1e8 {
         out.push_str("  note: the condition number is large; small changes in the data can move the coefficients a lot.\n");

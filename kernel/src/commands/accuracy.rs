@@ -108,7 +108,7 @@ fn score_dataset(dir: &Path, name: &str, entry: &Value, precision: Precision) ->
         spec = spec.without_intercept();
     }
     match degree {
-        Some(d) if d > 1 => spec = spec.term(Term::numeric("x").poly(d as u32)),
+        Some(d) if d > 1 => spec = spec.term(Term::numeric("x").polynomial(d as u32)),
         _ => {
             for column in columns.iter().filter(|c| **c != "1") {
                 spec = spec.numeric(*column);

@@ -85,11 +85,11 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
     }
     for text in &args.poly {
         let (column, d) = degree(text, "poly")?;
-        spec = spec.term(Term::numeric(column).poly(d));
+        spec = spec.term(Term::numeric(column).polynomial(d));
     }
     for text in &args.orthogonal_poly {
         let (column, d) = degree(text, "orthogonal-poly")?;
-        spec = spec.term(Term::numeric(column).orthogonal_poly(d));
+        spec = spec.term(Term::numeric(column).orthogonal_polynomial(d));
     }
     for column in &args.log {
         spec = spec.term(Term::numeric(column.trim()).log());
