@@ -133,7 +133,9 @@ pub(crate) struct ReviewData {
     /// The Cook's distance line `4/n`.
     pub cooks_cutoff: f64,
     /// Design-row indices of the labelled sales, most influential first: those
-    /// above `4/n`, in the order [`Fit::flagged_rows`] lists them.
+    /// above `4/n`, in the order [`Fit::flagged_rows`] lists them (computed
+    /// here from the Cook's distances already at hand; the review-sheet test
+    /// checks the two agree).
     pub labelled: Vec<usize>,
     /// Each design row's name: its id, or `row N`.
     pub names: Vec<String>,
@@ -193,15 +195,11 @@ impl ReviewData {
         let mut data = ReviewData::of_fit(fit);
         let rows = &fit.design().rows_used;
         let id_column = options.id_column.as_deref();
-        let flags = fit.flagged_rows(frame, id_column)?;
-        let design_index = |frame_row_1based: usize| rows.iter().position(|&r| r + 1 == frame_row_1based);
-        let labelled: Vec<usize> = flags
-            .rows
-            .iter()
-            .filter(|r| r.cooks_distance.is_some_and(|d| d > data.cooks_cutoff))
-            .filter_map(|r| design_index(r.row))
-            .take(options.labelled)
-            .collect();
+        // The order of `Fit::flagged_rows`: Cook's distance descending, ties
+        // by data row; only those above 4/n (NaN never is).
+        let mut labelled: Vec<usize> = (0..data.cooks.len()).filter(|&i| data.cooks[i] > data.cooks_cutoff).collect();
+        labelled.sort_by(|&a, &b| data.cooks[b].total_cmp(&data.cooks[a]).then(rows[a].cmp(&rows[b])));
+        labelled.truncate(options.labelled);
         if let Some(c) = id_column {
             let ids = frame.label_column(c)?;
             for (name, &r) in data.names.iter_mut().zip(rows) {
