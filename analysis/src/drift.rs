@@ -20,7 +20,7 @@
 
 use crate::error::{Error, Result};
 use crate::fit::Fit;
-use crate::render::{FIT_JSON_MIME, RATIO_JSON_MIME};
+use crate::schema::{FIT_JSON_MIME, RATIO_JSON_MIME};
 use crate::value::RatioStudy;
 use serde::Serialize;
 use serde_json::Value;

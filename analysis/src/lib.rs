@@ -46,6 +46,7 @@ pub mod numeric;
 pub mod plot;
 pub mod predict;
 pub mod render;
+pub mod schema;
 pub mod value;
 
 pub use error::{Error, Result};

@@ -7,17 +7,10 @@
 //! richly without any other trait in scope (two traits with that method would
 //! make the engine's call ambiguous).
 
+pub use crate::schema::{COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, RATIO_JSON_MIME};
 use std::collections::BTreeMap;
 use std::io::Write;
 
-/// MIME type of the machine-readable fit document.
-pub const FIT_JSON_MIME: &str = "application/vnd.plumbline.fit+json";
-/// MIME type of the machine-readable comparison document.
-pub const COMPARISON_JSON_MIME: &str = "application/vnd.plumbline.comparison+json";
-/// MIME type of the machine-readable ratio-study document.
-pub const RATIO_JSON_MIME: &str = "application/vnd.plumbline.ratio-study+json";
-/// MIME type of the machine-readable drift report (schema `plumbline.drift`).
-pub const DRIFT_JSON_MIME: &str = "application/vnd.plumbline.drift+json";
 
 /// Renderings of one result, by MIME type, in a stable order.
 #[derive(Debug, Clone, Default, PartialEq, Eq)]

@@ -4,7 +4,7 @@
 //! marked.
 
 use super::bundle::{MimeBundle, Report, DRIFT_JSON_MIME};
-use super::fit_report::VALUATION_CAUTION;
+use super::prose::VALUATION_CAUTION;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_count, format_trimmed};
 use crate::drift::{CoefficientDrift, DataStamp, DriftReport, FitDrift, ThresholdDrift};

@@ -2,9 +2,10 @@
 //! this fit, for colleagues learning to read a regression.
 
 use super::bundle::{MimeBundle, Report};
-use super::fit_report::{fit_html, VALUATION_CAUTION};
+use super::fit_report::fit_html;
 use super::html::{escape, CARD, HEADING};
 use super::numbers::{format_p_value, format_significant};
+use super::prose::{percent, wrap, VALUATION_CAUTION};
 use crate::diagnose::collinearity::CONDITION_INDEX_WARNING;
 use crate::fit::Fit;
 use crate::model::design::INTERCEPT_NAME;
@@ -121,7 +122,7 @@ pub fn explanations(fit: &Fit, level: f64) -> crate::Result<Vec<(String, String)
         ),
     ));
     let logged = logged_columns(fit);
-    let level_pct = super::text::percent(level);
+    let level_pct = percent(level);
     for c in fit.coefficients(level)? {
         if c.term == INTERCEPT_NAME {
             out.push((
@@ -200,25 +201,3 @@ impl Report for Explained<'_> {
     }
 }
 
-/// Greedy word wrap to `width` columns with first-line and continuation indents.
-pub(crate) fn wrap(text: &str, width: usize, first: &str, rest: &str) -> String {
-    let mut out = String::new();
-    let mut line = first.to_string();
-    let mut empty = true;
-    for word in text.split_whitespace() {
-        if !empty && line.chars().count() + 1 + word.chars().count() > width {
-            out.push_str(line.trim_end());
-            out.push('\n');
-            line = rest.to_string();
-            empty = true;
-        }
-        if !empty {
-            line.push(' ');
-        }
-        line.push_str(word);
-        empty = false;
-    }
-    out.push_str(line.trim_end());
-    out.push('\n');
-    out
-}

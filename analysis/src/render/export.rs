@@ -8,7 +8,7 @@ use crate::fit::Fit;
 pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
     let stats = fit.statistics();
     let prov = fit.provenance();
-    let pct = super::text::percent(level);
+    let pct = super::prose::percent(level);
     let mut out = format!("### Least-squares fit of {}\n\n", fit.spec().target_label());
     out.push_str(&format!(
         "Data: `{}` (SHA-256 `{}`), {} rows used, dropped for missing values: {}. Standard errors: {}.\n\n",
@@ -36,7 +36,7 @@ pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
         out.push_str(&format!("- **{}**: {}\n", group.heading, group.line().replace('|', "\\|")));
     }
     out.push('\n');
-    out.push_str(&format!("> {}\n", super::fit_report::VALUATION_CAUTION));
+    out.push_str(&format!("> {}\n", super::prose::VALUATION_CAUTION));
     Ok(out)
 }
 

@@ -5,15 +5,13 @@ use super::bundle::{MimeBundle, Report, FIT_JSON_MIME};
 use super::fit_figures::figure_groups;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_p_value, format_significant};
-use super::text::{fit_text, percent};
+use super::prose::{percent, wrap, VALUATION_CAUTION};
+use super::text::fit_text;
 use crate::diagnose::collinearity::{CONDITION_INDEX_WARNING, INTERVAL_WIDENING_WARNING};
 use crate::fit::{CovarianceKind, Fit};
 use crate::inference::Coefficient;
 use crate::model::design::INTERCEPT_NAME;
 
-/// The caution every valuation-facing report carries.
-pub const VALUATION_CAUTION: &str = "These figures are analytical estimates, not appraisals. Valuations for taxation or \
-lending are governed by local assessment law and licensed appraisal practice.";
 
 /// A fit shown at a chosen confidence level.
 #[derive(Debug, Clone, Copy)]
@@ -171,7 +169,7 @@ impl Report for FitReport<'_> {
         let text = fit_text(self.fit, self.level).unwrap_or_else(|e| format!("(cannot show the fit: {e})\n"));
         let mut text = text;
         for warning in fit_warnings(self.fit) {
-            text.push_str(&super::explain::wrap(&format!("warning: {warning}"), 96, "  ", "    "));
+            text.push_str(&wrap(&format!("warning: {warning}"), 96, "  ", "    "));
         }
         let html = fit_html(self.fit, self.level).unwrap_or_else(|e| format!("<div>{}</div>", escape(&e.to_string())));
         let json = self

@@ -13,6 +13,7 @@ mod fit_report;
 mod frame_report;
 pub mod html;
 mod numbers;
+mod prose;
 mod ratio_report;
 mod result_reports;
 mod text;
@@ -22,7 +23,8 @@ pub use diagnostics_text::{collinearity_text, comparison_text, cross_validation_
 pub use drift_report::{drift_html, drift_text};
 pub use explain::{explanations, Explained};
 pub use export::{fit_csv, fit_markdown};
-pub use fit_report::{fit_html, fit_warnings, FitReport, VALUATION_CAUTION};
+pub use fit_report::{fit_html, fit_warnings, FitReport};
+pub use prose::VALUATION_CAUTION;
 pub use frame_report::{frame_html, frame_text, ProfileReport};
 pub use numbers::{format_column, format_p_value, format_significant, format_trimmed};
 pub use ratio_report::{ratio_html, ratio_text};

@@ -2,7 +2,7 @@
 //! standard named, with the valuation caution.
 
 use super::bundle::{MimeBundle, Report};
-use super::fit_report::VALUATION_CAUTION;
+use super::prose::{percent, wrap, VALUATION_CAUTION};
 use super::html::{card_end, card_start, escape, table, CAUTION, SUBTLE};
 use super::numbers::format_significant;
 use crate::value::{Judgement, RatioStatistics, RatioStudy};
@@ -44,7 +44,7 @@ fn rows(s: &RatioStatistics) -> Vec<[String; 5]> {
 
 /// The study as aligned text.
 pub fn ratio_text(study: &RatioStudy) -> String {
-    let pct = super::text::percent(study.level);
+    let pct = percent(study.level);
     let mut out = format!(
         "Ratio study: {} sales with a value and a price, {} used after trimming\n  property class: {}\n",
         study.n_pairs,
@@ -90,13 +90,13 @@ pub fn ratio_text(study: &RatioStudy) -> String {
         }
     }
     out.push_str(&format!("\n  ranges: {}\n", study.standard));
-    out.push_str(&super::explain::wrap(VALUATION_CAUTION, 96, "  ", "  "));
+    out.push_str(&wrap(VALUATION_CAUTION, 96, "  ", "  "));
     out
 }
 
 /// The study as an HTML card.
 pub fn ratio_html(study: &RatioStudy) -> String {
-    let pct = super::text::percent(study.level);
+    let pct = percent(study.level);
     let mut out = String::new();
     card_start(&mut out, &format!("Ratio study — {} sales", study.overall.count));
     out.push_str(&format!(

@@ -4,7 +4,7 @@
 
 use super::bundle::{MimeBundle, Report, COMPARISON_JSON_MIME};
 use super::diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
-use super::fit_report::VALUATION_CAUTION;
+use super::prose::{percent, VALUATION_CAUTION};
 use super::html::{card_end, card_start, escape, table, CAUTION};
 use super::numbers::{format_p_value, format_significant};
 use super::text::predictions_text;
@@ -202,7 +202,7 @@ impl Report for Predictions {
         let mut text = predictions_text(self);
         text.push_str(&format!("  {VALUATION_CAUTION}\n"));
         let mut html = String::new();
-        card_start(&mut html, &format!("Predictions with {} % intervals", super::text::percent(self.level)));
+        card_start(&mut html, &format!("Predictions with {} % intervals", percent(self.level)));
         let log_scale = self.rows.iter().any(|p| p.median_original.is_some());
         let rows: Vec<Vec<String>> = self
             .rows

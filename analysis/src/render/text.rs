@@ -2,6 +2,7 @@
 
 use super::fit_figures::figure_groups;
 use super::numbers::{format_count, format_p_value, format_significant};
+use super::prose::percent;
 use crate::error::Result;
 use crate::fit::Fit;
 use crate::predict::Predictions;
@@ -127,8 +128,3 @@ pub fn predictions_text(predictions: &Predictions) -> String {
     out
 }
 
-/// A confidence level as a percentage without trailing zeros (`95`, `99.5`).
-pub(crate) fn percent(level: f64) -> String {
-    let value = (level * 100.0 * 1e6).round() / 1e6;
-    format!("{value}")
-}
