@@ -1,0 +1,137 @@
+//! The analysis crate's layers, written once, and a check that every module
+//! imports only layers below its own.
+//!
+//! A module's layer is its top-level name under `analysis/src/` (`fit`,
+//! `render`, …). A reference is any `crate::NAME` path outside a comment,
+//! whether in a `use` line or inline. Modules in the same layer may not
+//! import each other either: a piece two of them share belongs a layer
+//! below both. Submodules within one top-level module are not checked here.
+
+use std::collections::BTreeSet;
+use std::path::Path;
+
+/// The layers, lowest first. Each entry lists the top-level modules of one
+/// layer; a module may import only modules of earlier entries.
+const LAYERS: &[&[&str]] = &[
+    // Foundations: the error type, extended arithmetic, document names.
+    &["error", "numeric", "schema"],
+    // Files to frames.
+    &["data"],
+    // What to fit: specifications and design matrices.
+    &["model"],
+    // Solving.
+    &["fit"],
+    // Reading a fit: tests, intervals, distributions, the JSON summary.
+    &["inference"],
+    // Uses of a fit, side by side.
+    &["predict", "diagnose", "compare", "value"],
+    // Charts, and what moved between two runs.
+    &["plot", "drift"],
+    // Everything people read.
+    &["render"],
+];
+
+/// Modules exempt from the check: the crate root re-exports every layer.
+const EXEMPT: &[&str] = &["lib"];
+
+fn layer_of(module: &str) -> Option<usize> {
+    LAYERS.iter().position(|layer| layer.contains(&module))
+}
+
+/// The `crate::NAME` references of one source text, comments left out.
+fn references(source: &str) -> Vec<String> {
+    let mut out = Vec::new();
+    for line in source.lines() {
+        let code = line.split("//").next().unwrap_or("");
+        let mut rest = code;
+        while let Some(at) = rest.find("crate::") {
+            let after = &rest[at + "crate::".len()..];
+            let name: String = after.chars().take_while(|c| c.is_ascii_lowercase() || *c == '_').collect();
+            if !name.is_empty() {
+                out.push(name);
+            }
+            rest = after;
+        }
+    }
+    out
+}
+
+/// Every import that breaks the layering, as `module → imported (file)`,
+/// for sources given as `(top-level module, file name, text)`.
+fn violations(sources: &[(String, String, String)]) -> Vec<String> {
+    let mut out = Vec::new();
+    for (module, file, text) in sources {
+        if EXEMPT.contains(&module.as_str()) {
+            continue;
+        }
+        let Some(own) = layer_of(module) else {
+            out.push(format!("{module} ({file}) is in no layer: add it to LAYERS in tests/analysis/layers.rs"));
+            continue;
+        };
+        for imported in references(text) {
+            if imported == *module {
+                continue;
+            }
+            match layer_of(&imported) {
+                Some(layer) if layer < own => {}
+                Some(_) => out.push(format!("{module} → {imported} ({file}): imports a module of its own or a higher layer")),
+                None => out.push(format!("{module} → {imported} ({file}): {imported} is in no layer")),
+            }
+        }
+    }
+    out.sort();
+    out.dedup();
+    out
+}
+
+/// Reads every `.rs` file under `dir`, naming each by its top-level module.
+fn read_sources(root: &Path, dir: &Path, out: &mut Vec<(String, String, String)>) {
+    let mut entries: Vec<_> = std::fs::read_dir(dir).expect("read the source folder").flatten().collect();
+    entries.sort_by_key(|e| e.path());
+    for entry in entries {
+        let path = entry.path();
+        if path.is_dir() {
+            read_sources(root, &path, out);
+        } else if path.extension().is_some_and(|e| e == "rs") {
+            let relative = path.strip_prefix(root).expect("under the root");
+            let first = relative.components().next().expect("a component").as_os_str().to_string_lossy().to_string();
+            let module = first.trim_end_matches(".rs").to_string();
+            let text = std::fs::read_to_string(&path).expect("read a source file");
+            out.push((module, relative.display().to_string(), text));
+        }
+    }
+}
+
+#[test]
+fn the_analysis_crate_imports_only_downward() {
+    let root = plumbline_tests::repo_root().join("analysis").join("src");
+    let mut sources = Vec::new();
+    read_sources(&root, &root, &mut sources);
+    let modules: BTreeSet<&str> = sources.iter().map(|(m, _, _)| m.as_str()).collect();
+    assert!(modules.contains("render") && modules.contains("fit"), "read the crate's modules: {modules:?}");
+    let found = violations(&sources);
+    assert!(found.is_empty(), "imports against the layer order:\n{}", found.join("\n"));
+}
+
+#[test]
+fn an_upward_or_sideways_import_is_caught() {
+    let source = |module: &str, text: &str| (module.to_string(), format!("{module}/x.rs"), text.to_string());
+    let sources = vec![
+        // Upward: the solver reaching into reports.
+        source("fit", "use crate::render::fit_text;\n"),
+        // Sideways: two peers of one layer.
+        source("value", "fn f() { crate::compare::nested_test(a, b); }\n"),
+        // Downward, and in a comment: both fine.
+        source("render", "use crate::fit::Fit;\n// see crate::drift for the reader\n"),
+        source("newthing", "use crate::data::Frame;\n"),
+    ];
+    let found = violations(&sources);
+    assert_eq!(
+        found,
+        vec![
+            "fit → render (fit/x.rs): imports a module of its own or a higher layer".to_string(),
+            "newthing (newthing/x.rs) is in no layer: add it to LAYERS in tests/analysis/layers.rs".to_string(),
+            "value → compare (value/x.rs): imports a module of its own or a higher layer".to_string(),
+        ]
+    );
+}
