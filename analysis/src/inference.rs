@@ -20,13 +20,13 @@
 //!
 //! Distributions come from `statrs` (regularized incomplete beta).
 
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::fit::{CovarianceKind, Fit};
 use crate::model::design::INTERCEPT_NAME;
 use crate::model::TargetTransform;
 use crate::numeric::DoubleDouble;
+use crate::stats::{check_level, f_upper_p, t_critical, t_two_sided_p};
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, FisherSnedecor, StudentsT};
 
 /// Version of the JSON document produced by [`Fit::summary`]; bumped on any
 /// change that a reader would notice.
@@ -90,35 +90,6 @@ pub struct FitStatistics {
     pub condition_number: f64,
 }
 
-/// Checks a confidence level.
-pub(crate) fn check_level(level: f64) -> Result<()> {
-    if level > 0.0 && level < 1.0 {
-        Ok(())
-    } else {
-        Err(Error::OutOfRange { what: "the confidence level".into(), requirement: "strictly between 0 and 1 (e.g. 0.95)".into(), value: level.to_string() })
-    }
-}
-
-/// The two-sided critical value `t_{1−α/2, df}`; the normal quantile when `df` is infinite.
-pub(crate) fn t_critical(level: f64, df: f64) -> f64 {
-    match StudentsT::new(0.0, 1.0, df) {
-        Ok(t) => t.inverse_cdf(0.5 + level / 2.0),
-        Err(_) => f64::NAN,
-    }
-}
-
-/// Two-sided p-value of a t statistic, from the survival function (accurate in the tail).
-pub(crate) fn t_two_sided_p(t: f64, df: f64) -> f64 {
-    match StudentsT::new(0.0, 1.0, df) {
-        Ok(dist) => (2.0 * dist.sf(t.abs())).min(1.0),
-        Err(_) => f64::NAN,
-    }
-}
-
-/// Upper-tail p-value of an F statistic.
-pub(crate) fn f_upper_p(f: f64, df1: f64, df2: f64) -> Option<f64> {
-    FisherSnedecor::new(df1, df2).ok().map(|d| d.sf(f))
-}
 
 impl Fit {
     /// Residual degrees of freedom `n − k`.

@@ -47,6 +47,7 @@ pub mod plot;
 pub mod predict;
 pub mod render;
 pub mod schema;
+pub mod stats;
 pub mod value;
 
 pub use error::{Error, Result};

@@ -15,7 +15,7 @@
 use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{quadratic_form, Fit};
-use crate::inference::{check_level, t_critical};
+use crate::stats::{check_level, t_critical};
 use crate::model::TargetTransform;
 use serde::Serialize;
 

@@ -13,8 +13,10 @@ use std::path::Path;
 /// The layers, lowest first. Each entry lists the top-level modules of one
 /// layer; a module may import only modules of earlier entries.
 const LAYERS: &[&[&str]] = &[
-    // Foundations: the error type, extended arithmetic, document names.
-    &["error", "numeric", "schema"],
+    // The error type.
+    &["error"],
+    // Foundations: extended arithmetic, document names, distributions and quantiles.
+    &["numeric", "schema", "stats"],
     // Files to frames.
     &["data"],
     // What to fit: specifications and design matrices.

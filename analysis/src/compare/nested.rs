@@ -15,7 +15,7 @@
 
 use crate::error::{Error, Result};
 use crate::fit::{auxiliary_regression, Fit};
-use crate::inference::f_upper_p;
+use crate::stats::f_upper_p;
 use serde::Serialize;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 

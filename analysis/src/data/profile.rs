@@ -3,6 +3,7 @@
 
 use super::Frame;
 use crate::error::Result;
+use crate::stats::median_of_sorted;
 use polars::prelude::DataType;
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -96,20 +97,3 @@ pub fn profile(frame: &Frame) -> Result<Vec<ColumnProfile>> {
     Ok(out)
 }
 
-/// Median of an ascending slice; `None` when empty.
-pub(crate) fn median_of_sorted(sorted: &[f64]) -> Option<f64> {
-    let n = sorted.len();
-    match n {
-        0 => None,
-        _ if n % 2 == 1 => Some(sorted[n / 2]),
-        _ => Some(0.5 * (sorted[n / 2 - 1] + sorted[n / 2])),
-    }
-}
-
-/// Quantile `q` of ascending data by linear interpolation between order
-/// statistics (numpy's default method); used for trimming fences and bin widths.
-pub(crate) fn quantile_of_sorted(sorted: &[f64], q: f64) -> f64 {
-    let position = q * (sorted.len() - 1) as f64;
-    let (i, frac) = (position.floor() as usize, position.fract());
-    if i + 1 < sorted.len() { sorted[i] + (sorted[i + 1] - sorted[i]) * frac } else { sorted[i] }
-}

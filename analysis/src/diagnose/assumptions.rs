@@ -260,7 +260,7 @@ impl Fit {
             alternative: "the model misses curvature or interactions".into(),
             statistic,
             df: vec![q as f64, df2],
-            p_value: crate::inference::f_upper_p(statistic, q as f64, df2).unwrap_or(f64::NAN),
+            p_value: crate::stats::f_upper_p(statistic, q as f64, df2).unwrap_or(f64::NAN),
             note: None,
         }
     }

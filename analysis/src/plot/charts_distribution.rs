@@ -7,7 +7,7 @@ use crate::data::Frame;
 use crate::error::{Error, Result};
 use plotters::prelude::*;
 
-use crate::data::profile::quantile_of_sorted as quantile;
+use crate::stats::quantile_of_sorted as quantile;
 
 /// Histogram of `values` with a Gaussian kernel density curve scaled to counts.
 ///

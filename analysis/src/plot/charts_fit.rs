@@ -7,7 +7,7 @@ use super::{plot_error, PlotSize, Svg};
 use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{quadratic_form, Fit};
-use crate::inference::t_critical;
+use crate::stats::t_critical;
 use crate::model::design::INTERCEPT_NAME;
 use crate::model::encode::{RowValues, TermEncoding};
 use plotters::prelude::*;
@@ -22,7 +22,7 @@ use std::collections::BTreeMap;
 /// the fitting rows; interactions involving `column` are held at their mean too.
 /// The y axis is the model scale (the log of the target for a logged target).
 pub fn fit_line(fit: &Fit, frame: &Frame, column: &str, level: f64, size: PlotSize) -> Result<Svg> {
-    crate::inference::check_level(level)?;
+    crate::stats::check_level(level)?;
     let design = fit.design();
     let spans: Vec<(std::ops::Range<usize>, &TermEncoding)> = design
         .recipe

@@ -18,7 +18,7 @@ use super::review::{month_tick, ReviewData};
 use super::smoother::{group_medians, tier_medians};
 use super::theme::{format_tick, ACCENT, BAND, FONT, INK, POINT, SOFT};
 use super::plot_error;
-use crate::data::profile::{median_of_sorted, quantile_of_sorted};
+use crate::stats::{median_of_sorted, quantile_of_sorted};
 use crate::diagnose::flags::STUDENTIZED_CUTOFF;
 use crate::error::Result;
 use plotters::prelude::*;

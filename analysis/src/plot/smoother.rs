@@ -19,7 +19,7 @@
 //! Written here because it is a few lines over [`median_of_sorted`], which
 //! the ratio study shares.
 
-use crate::data::profile::median_of_sorted;
+use crate::stats::median_of_sorted;
 use std::collections::BTreeMap;
 
 /// Fewest sales a tier should hold before more tiers are added.

@@ -19,7 +19,7 @@
 
 use super::standards::{Judgement, PropertyClass, LEVEL_RANGE, PRB_RANGE, PRD_RANGE, STANDARD};
 use crate::error::{Error, Result};
-use crate::inference::t_critical;
+use crate::stats::t_critical;
 use serde::Serialize;
 use statrs::distribution::{Binomial, DiscreteCDF};
 use std::collections::BTreeMap;
@@ -99,10 +99,10 @@ pub struct RatioStudy {
     pub standard: String,
 }
 
-use crate::data::profile::quantile_of_sorted as quantile;
+use crate::stats::quantile_of_sorted as quantile;
 
 fn median(sorted: &[f64]) -> f64 {
-    crate::data::profile::median_of_sorted(sorted).unwrap_or(f64::NAN)
+    crate::stats::median_of_sorted(sorted).unwrap_or(f64::NAN)
 }
 
 /// Statistics of `(value, price)` pairs.
@@ -175,7 +175,7 @@ pub fn ratio_study(
     if values.len() != prices.len() || groups.is_some_and(|g| g.len() != values.len()) {
         return Err(Error::Specification("values, prices and groups must have one entry per row".into()));
     }
-    crate::inference::check_level(options.level)?;
+    crate::stats::check_level(options.level)?;
     let mut rows: Vec<(usize, f64, f64)> = Vec::new();
     for (i, (v, p)) in values.iter().zip(prices).enumerate() {
         if let (Some(v), Some(p)) = (v, p) {
