@@ -19,6 +19,12 @@ pub fn leverage_cutoff(k: usize, n: usize) -> f64 {
     2.0 * k as f64 / n as f64
 }
 
+/// Cook's distance above which one sale alone moves the fit noticeably: 0.5
+/// (common practice: a softer screen than the `D > 1` often quoted after
+/// Cook & Weisberg, *Residuals and Influence in Regression*, 1982 — recalled
+/// from memory).
+pub const COOKS_LARGE: f64 = 0.5;
+
 /// Cut-off for Cook's distance over `n` rows: `4/n` (common practice).
 pub fn cooks_cutoff(n: usize) -> f64 {
     4.0 / n as f64

@@ -8,6 +8,7 @@ use super::numbers::{format_p_value, format_significant};
 use super::prose::{percent, wrap, VALUATION_CAUTION};
 use super::text::fit_text;
 use crate::diagnose::collinearity::{CONDITION_INDEX_WARNING, INTERVAL_WIDENING_WARNING};
+use crate::diagnose::flags::{cooks_cutoff, COOKS_LARGE};
 use crate::fit::{CovarianceKind, Fit};
 use crate::inference::Coefficient;
 use crate::model::design::INTERCEPT_NAME;
@@ -32,7 +33,8 @@ impl Fit {
 /// Warnings about a fit, in plain words. Thresholds are common practice:
 /// condition number among the terms (centred) above
 /// [`CONDITION_INDEX_WARNING`], interval widening above
-/// [`INTERVAL_WIDENING_WARNING`], Cook's distance above 4/n, and the
+/// [`INTERVAL_WIDENING_WARNING`], Cook's distance above [`COOKS_LARGE`] (else
+/// above 4/n), and the
 /// studentized Breusch–Pagan test at the 5 % level.
 pub fn fit_warnings(fit: &Fit) -> Vec<String> {
     let mut out = Vec::new();
@@ -63,12 +65,12 @@ pub fn fit_warnings(fit: &Fit) -> Vec<String> {
         ));
     }
     let influence = fit.influence();
-    let cutoff = crate::diagnose::flags::cooks_cutoff(influence.rows.len());
+    let cutoff = cooks_cutoff(influence.rows.len());
     let influential = influence.rows.iter().filter(|r| r.cooks_distance.is_some_and(|d| d > cutoff)).count();
-    let big = influence.rows.iter().filter(|r| r.cooks_distance.is_some_and(|d| d > 0.5)).count();
+    let big = influence.rows.iter().filter(|r| r.cooks_distance.is_some_and(|d| d > COOKS_LARGE)).count();
     if big > 0 {
         out.push(format!(
-            "{big} sale(s) have Cook's distance above 0.5: each alone moves the fit noticeably. Check them for keying errors or non-market sales."
+            "{big} sale(s) have Cook's distance above {COOKS_LARGE}: each alone moves the fit noticeably. Check them for keying errors or non-market sales."
         ));
     } else if influential > 0 {
         out.push(format!("{influential} sale(s) have Cook's distance above 4/n; worth a look, not necessarily a problem."));
