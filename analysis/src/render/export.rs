@@ -11,10 +11,10 @@ pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
     let pct = super::prose::percent(level);
     let mut out = format!("### Least-squares fit of {}\n\n", fit.spec().target_label());
     out.push_str(&format!(
-        "Data: `{}` (SHA-256 `{}`), {} rows used, dropped for missing values: {}. Standard errors: {}.\n\n",
+        "Data: `{}` (SHA-256 `{}`), {} records used, dropped for missing values: {}. Standard errors: {}.\n\n",
         prov.path,
         prov.sha256,
-        stats.n_obs,
+        super::numbers::format_count(stats.n_obs),
         fit.design().dropped.describe(),
         fit.covariance_description()
     ));

@@ -4,7 +4,7 @@
 use super::bundle::{MimeBundle, Report, FIT_JSON_MIME};
 use super::fit_figures::figure_groups;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
-use super::numbers::{format_p_value, format_significant};
+use super::numbers::{format_count, format_p_value, format_significant};
 use super::prose::{percent, wrap, VALUATION_CAUTION};
 use super::text::fit_text;
 use crate::diagnose::collinearity::{CONDITION_INDEX_WARNING, INTERVAL_WIDENING_WARNING};
@@ -117,10 +117,10 @@ pub fn fit_html(fit: &Fit, level: f64) -> crate::Result<String> {
     let mut out = String::new();
     card_start(&mut out, &format!("Least-squares fit of {}", spec.target_label()));
     out.push_str(&format!(
-        "<div style=\"{SUBTLE}\">{} · sha256 <code>{}</code>… · {} rows used · dropped for missing values: {}</div>\n",
+        "<div style=\"{SUBTLE}\">{} · sha256 <code>{}</code>… · {} records used · dropped for missing values: {}</div>\n",
         escape(&prov.path),
         escape(prov.short_hash()),
-        stats.n_obs,
+        format_count(stats.n_obs),
         escape(&dropped.describe())
     ));
     let terms: Vec<String> = fit.design().recipe.term_spans.iter().map(|s| s.label.clone()).collect();
