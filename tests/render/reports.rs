@@ -74,7 +74,7 @@ fn fit_snapshot() {
     assert!(html.contains("not appraisals"), "the caution is part of every fit report");
     let json: serde_json::Value = serde_json::from_str(bundle.get(FIT_JSON_MIME).expect("fit json")).expect("valid JSON");
     assert_eq!(json["schema_version"], plumbline::inference::SUMMARY_SCHEMA_VERSION);
-    assert!(json.get("model_df").is_some() && json.get("df_model").is_none(), "schema 2 names the degrees of freedom model_df and residual_df");
+    assert!(json.get("model_df").is_some() && json.get("residual_df").is_some(), "schema 2 names the degrees of freedom model_df and residual_df");
     insta::assert_snapshot!("fit_text", stable(text, &frame));
     insta::assert_snapshot!("fit_html", stable(html, &frame));
 }
