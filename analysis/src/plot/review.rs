@@ -234,7 +234,6 @@ fn time_axis(fit: &Fit, frame: &Frame, options: &ReviewOptions, rows: &[usize]) 
             .or_else(|| frame.data().columns().iter().find(|c| c.dtype() == &DataType::Date).map(|c| c.name().to_string())),
     };
     let Some(column) = column else { return Ok(None) };
-    frame.require_column(&column)?;
     let is_date = matches!(frame.column_by_name(&column)?.dtype(), DataType::Date | DataType::String);
     let values: Vec<Option<f64>> = if is_date {
         let dates = frame.date_column(&column)?;

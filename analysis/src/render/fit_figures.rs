@@ -58,7 +58,7 @@ impl FigureGroup {
 }
 
 /// The solver in words.
-pub(crate) fn solver_words(method: SolverMethod) -> String {
+fn solver_words(method: SolverMethod) -> String {
     match method {
         SolverMethod::ExtendedQr => "pivoted QR in double-double arithmetic".to_string(),
         SolverMethod::RefinedQr { refinement_steps } => format!("pivoted QR with {refinement_steps} refinement step(s)"),
@@ -67,7 +67,7 @@ pub(crate) fn solver_words(method: SolverMethod) -> String {
 
 /// The typical miss `±s`, and for a log target the same miss as
 /// percentages of the model value.
-pub(crate) fn typical_miss(fit: &Fit) -> String {
+fn typical_miss(fit: &Fit) -> String {
     let s = fit.statistics().residual_std_error;
     if fit.spec().target_transform() == TargetTransform::Log && s.is_finite() {
         format!(
