@@ -1,11 +1,12 @@
 //! What moved between two runs of a study.
 //!
-//! A run leaves machine-readable results behind: fit documents
-//! ([`FIT_JSON_MIME`], schema `plumbline.fit`) and ratio-study documents
-//! ([`RATIO_JSON_MIME`]). [`RunResults`] gathers them — from a notebook's
-//! outputs, a `plumbline fit --format json` file, or fits made in the current
-//! session — and [`drift`] pairs the two runs' results by position and
-//! reports:
+//! A run leaves machine-readable documents behind: fit documents
+//! ([`FitDocument`]) and ratio-study documents ([`RatioStudyDocument`]).
+//! [`RunResults`] gathers them — from a notebook's outputs, a
+//! `plumbline fit --format json` file, or fits made in the current session —
+//! reading each through its type (so a renamed or missing field is an error,
+//! never an empty value), and [`drift`] pairs the two runs' results by
+//! position and reports:
 //!
 //! * the data provenance of each fit (file, sha256, rows) and whether the
 //!   bytes changed;
@@ -18,22 +19,29 @@
 //! The ranges are those recorded in the ratio-study documents themselves (see
 //! [`crate::value::standards`]; recalled from memory, verify before use).
 
+use crate::documents::{read_fit, read_ratio_study, FitDocument, RatioStudyDocument};
 use crate::error::{Error, Result};
 use crate::fit::Fit;
+use crate::inference::FitSummary;
 use crate::schema::{FIT_JSON_MIME, RATIO_JSON_MIME};
-use crate::value::RatioStudy;
-use serde::Serialize;
+use crate::value::{RatioStatistics, RatioStudy};
+use serde::{Deserialize, Serialize};
 use serde_json::Value;
+
+/// `schema` of the drift report.
+pub const DRIFT_SCHEMA: &str = "plumbline.drift";
+/// Version of [`DriftReport`]. 1 is the first versioned form.
+pub const DRIFT_SCHEMA_VERSION: u32 = 1;
 
 /// The machine-readable results one run produced, in the order it produced them.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct RunResults {
     /// Where the results came from (a file path, or a label of your choosing).
     pub source: String,
-    /// Fit documents (schema `plumbline.fit`).
-    pub fits: Vec<Value>,
+    /// Fit documents.
+    pub fits: Vec<FitDocument>,
     /// Ratio-study documents.
-    pub ratio_studies: Vec<Value>,
+    pub ratio_studies: Vec<RatioStudyDocument>,
 }
 
 impl RunResults {
@@ -42,37 +50,40 @@ impl RunResults {
         Self { source: source.into(), ..Self::default() }
     }
 
-    /// Files `document` under fits or ratio studies by its MIME type; other
-    /// types are ignored. A document given as a JSON string is parsed first.
-    /// Returns whether the document was kept.
-    pub fn add_document(&mut self, mime: &str, document: &Value) -> bool {
+    /// Files `document` under fits or ratio studies by its MIME type and
+    /// returns whether it was kept; documents of other types are passed over.
+    /// A document given as a JSON string (as notebooks may hold them) is
+    /// parsed first. A fit or ratio-study document that cannot be read as its
+    /// type — malformed, a field missing, a newer schema version — is an
+    /// error naming this run's source.
+    pub fn add_document(&mut self, mime: &str, document: &Value) -> Result<bool> {
+        if mime != FIT_JSON_MIME && mime != RATIO_JSON_MIME {
+            return Ok(false);
+        }
         let parsed = match document {
-            Value::String(text) => serde_json::from_str(text).unwrap_or(Value::Null),
+            Value::String(text) => serde_json::from_str(text).map_err(|e| Error::Document {
+                what: format!("a `{mime}` output in {}", self.source),
+                reason: format!("not JSON: {e}"),
+            })?,
             other => other.clone(),
         };
-        if mime == FIT_JSON_MIME && parsed.get("schema").and_then(Value::as_str) == Some("plumbline.fit") {
-            self.fits.push(parsed);
-            true
-        } else if mime == RATIO_JSON_MIME && parsed.get("overall").is_some() {
-            self.ratio_studies.push(parsed);
-            true
+        if mime == FIT_JSON_MIME {
+            self.fits.push(read_fit(parsed, &self.source)?);
         } else {
-            false
+            self.ratio_studies.push(read_ratio_study(parsed, &self.source)?);
         }
+        Ok(true)
     }
 
     /// Adds a fit from this session, summarised at confidence `level`.
     pub fn with_fit(mut self, fit: &Fit, level: f64) -> Result<Self> {
-        let summary = fit.summary(level)?;
-        let document = serde_json::to_value(&summary).map_err(|e| Error::Serialization(format!("fit summary: {e}")))?;
-        self.fits.push(document);
+        self.fits.push(FitDocument::from(fit.summary(level)?));
         Ok(self)
     }
 
     /// Adds a ratio study from this session.
     pub fn with_ratio_study(mut self, study: &RatioStudy) -> Result<Self> {
-        let document = serde_json::to_value(study).map_err(|e| Error::Serialization(format!("ratio study: {e}")))?;
-        self.ratio_studies.push(document);
+        self.ratio_studies.push(RatioStudyDocument::from(study.clone()));
         Ok(self)
     }
 
@@ -83,7 +94,8 @@ impl RunResults {
 }
 
 /// One coefficient across the two runs: `(estimate, interval low, interval high)`.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct CoefficientDrift {
     /// Design column name.
     pub term: String,
@@ -96,7 +108,8 @@ pub struct CoefficientDrift {
 }
 
 /// One scalar statistic across the runs.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct StatisticDrift {
     /// Statistic name as in the fit document.
     pub statistic: String,
@@ -110,7 +123,8 @@ pub struct StatisticDrift {
 pub type DataStamp = (String, String, u64);
 
 /// The drift between one pair of fits.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct FitDrift {
     /// Target of the fit.
     pub target: String,
@@ -127,7 +141,8 @@ pub struct FitDrift {
 }
 
 /// One ratio-study statistic across the runs, beside its range.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct ThresholdDrift {
     /// `overall` or the group's label.
     pub scope: String,
@@ -148,7 +163,8 @@ pub struct ThresholdDrift {
 }
 
 /// The drift between one pair of ratio studies.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct RatioDrift {
     /// Sales used, old → new.
     pub count_old: Option<u64>,
@@ -161,10 +177,13 @@ pub struct RatioDrift {
 }
 
 /// The drift report between two runs.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct DriftReport {
-    /// Always `plumbline.drift`.
+    /// Always [`DRIFT_SCHEMA`].
     pub schema: String,
+    /// [`DRIFT_SCHEMA_VERSION`].
+    pub schema_version: u32,
     /// The old run's source.
     pub old: String,
     /// The new run's source.
@@ -194,7 +213,8 @@ impl DriftReport {
 /// Compares two runs; results are paired by position.
 pub fn drift(old: &RunResults, new: &RunResults) -> DriftReport {
     DriftReport {
-        schema: "plumbline.drift".into(),
+        schema: DRIFT_SCHEMA.into(),
+        schema_version: DRIFT_SCHEMA_VERSION,
         old: old.source.clone(),
         new: new.source.clone(),
         fits: old.fits.iter().zip(&new.fits).map(|(a, b)| compare_fits(a, b)).collect(),
@@ -204,50 +224,53 @@ pub fn drift(old: &RunResults, new: &RunResults) -> DriftReport {
     }
 }
 
-fn coefficient_table(doc: &Value) -> Vec<(String, (f64, f64, f64))> {
-    doc.get("coefficients")
-        .and_then(Value::as_array)
-        .into_iter()
-        .flatten()
-        .filter_map(|c| {
-            Some((
-                c.get("term")?.as_str()?.to_string(),
-                (c.get("estimate")?.as_f64()?, c.get("ci_low")?.as_f64()?, c.get("ci_high")?.as_f64()?),
-            ))
-        })
-        .collect()
+/// A coefficient's `(estimate, interval low, interval high)` by term.
+fn coefficient_table(summary: &FitSummary) -> Vec<(&str, (f64, f64, f64))> {
+    summary.coefficients.iter().map(|c| (c.term.as_str(), (c.estimate, c.ci_low, c.ci_high))).collect()
 }
 
-fn data_stamp(doc: &Value) -> DataStamp {
-    let d = &doc["data"];
-    (
-        d["path"].as_str().unwrap_or("").to_string(),
-        d["sha256"].as_str().unwrap_or("").to_string(),
-        d["rows"].as_u64().unwrap_or(0),
-    )
+fn data_stamp(summary: &FitSummary) -> DataStamp {
+    (summary.data.path.clone(), summary.data.sha256.clone(), summary.data.rows as u64)
+}
+
+/// The whole-fit statistics drift reports, by their document names.
+fn fit_statistics(summary: &FitSummary) -> [(&'static str, f64); 5] {
+    [
+        ("n_obs", summary.n_obs as f64),
+        ("r_squared", summary.r_squared),
+        ("adj_r_squared", summary.adj_r_squared),
+        ("residual_std_error", summary.residual_std_error),
+        ("aic", summary.aic),
+    ]
 }
 
 /// Compares two fit documents.
-pub fn compare_fits(old: &Value, new: &Value) -> FitDrift {
+pub fn compare_fits(old: &FitDocument, new: &FitDocument) -> FitDrift {
+    let (old, new) = (&old.summary, &new.summary);
     let (old_table, new_table) = (coefficient_table(old), coefficient_table(new));
     let mut coefficients = Vec::new();
     for (term, o) in &old_table {
         let n = new_table.iter().find(|(t, _)| t == term).map(|(_, v)| *v);
         let moved = n.is_some_and(|n| n.0 < o.1 || n.0 > o.2);
-        coefficients.push(CoefficientDrift { term: term.clone(), old: Some(*o), new: n, moved });
+        coefficients.push(CoefficientDrift { term: term.to_string(), old: Some(*o), new: n, moved });
     }
     for (term, n) in &new_table {
         if !old_table.iter().any(|(t, _)| t == term) {
-            coefficients.push(CoefficientDrift { term: term.clone(), old: None, new: Some(*n), moved: false });
+            coefficients.push(CoefficientDrift { term: term.to_string(), old: None, new: Some(*n), moved: false });
         }
     }
-    let statistics = ["n_obs", "r_squared", "adj_r_squared", "residual_std_error", "aic"]
-        .iter()
-        .map(|s| StatisticDrift { statistic: s.to_string(), old: old[*s].as_f64(), new: new[*s].as_f64() })
+    let statistics = fit_statistics(old)
+        .into_iter()
+        .zip(fit_statistics(new))
+        .map(|((name, o), (_, n))| StatisticDrift {
+            statistic: name.to_string(),
+            old: Some(o).filter(|v| v.is_finite()),
+            new: Some(n).filter(|v| v.is_finite()),
+        })
         .collect();
     let (data_old, data_new) = (data_stamp(old), data_stamp(new));
     FitDrift {
-        target: new["target"].as_str().unwrap_or("").to_string(),
+        target: new.target.clone(),
         data_changed: data_old.1 != data_new.1,
         data_old,
         data_new,
@@ -256,40 +279,26 @@ pub fn compare_fits(old: &Value, new: &Value) -> FitDrift {
     }
 }
 
-/// `(statistic, value, range, inside)` of a ratio-statistics object's judgements.
-fn judgements(statistics: &Value) -> Vec<(String, f64, Option<(f64, f64)>, Option<bool>)> {
-    statistics
-        .get("judgements")
-        .and_then(Value::as_array)
-        .into_iter()
-        .flatten()
-        .filter_map(|j| {
-            let range = j.get("range").and_then(Value::as_array).and_then(|r| Some((r.first()?.as_f64()?, r.get(1)?.as_f64()?)));
-            Some((j.get("statistic")?.as_str()?.to_string(), j.get("value")?.as_f64()?, range, j.get("inside").and_then(Value::as_bool)))
-        })
-        .collect()
-}
-
-fn threshold_drifts(scope: &str, old: &Value, new: &Value) -> Vec<ThresholdDrift> {
-    let (old_j, new_j) = (judgements(old), judgements(new));
-    let mut names: Vec<&String> = old_j.iter().map(|j| &j.0).collect();
-    for j in &new_j {
-        if !names.contains(&&j.0) {
-            names.push(&j.0);
+fn threshold_drifts(scope: &str, old: Option<&RatioStatistics>, new: Option<&RatioStatistics>) -> Vec<ThresholdDrift> {
+    let (old_j, new_j) = (old.map_or(&[][..], |s| &s.judgements), new.map_or(&[][..], |s| &s.judgements));
+    let mut names: Vec<&String> = old_j.iter().map(|j| &j.statistic).collect();
+    for j in new_j {
+        if !names.contains(&&j.statistic) {
+            names.push(&j.statistic);
         }
     }
     names
         .into_iter()
         .map(|name| {
-            let o = old_j.iter().find(|j| &j.0 == name);
-            let n = new_j.iter().find(|j| &j.0 == name);
-            let (old_inside, new_inside) = (o.and_then(|j| j.3), n.and_then(|j| j.3));
+            let o = old_j.iter().find(|j| &j.statistic == name);
+            let n = new_j.iter().find(|j| &j.statistic == name);
+            let (old_inside, new_inside) = (o.and_then(|j| j.inside), n.and_then(|j| j.inside));
             ThresholdDrift {
                 scope: scope.to_string(),
                 statistic: name.clone(),
-                old: o.map(|j| j.1),
-                new: n.map(|j| j.1),
-                range: n.and_then(|j| j.2).or_else(|| o.and_then(|j| j.2)),
+                old: o.map(|j| j.value),
+                new: n.map(|j| j.value),
+                range: n.and_then(|j| j.range).or_else(|| o.and_then(|j| j.range)),
                 old_inside,
                 new_inside,
                 crossed: matches!((old_inside, new_inside), (Some(a), Some(b)) if a != b),
@@ -299,26 +308,22 @@ fn threshold_drifts(scope: &str, old: &Value, new: &Value) -> Vec<ThresholdDrift
 }
 
 /// Compares two ratio-study documents.
-pub fn compare_ratio_studies(old: &Value, new: &Value) -> RatioDrift {
-    let mut statistics = threshold_drifts("overall", &old["overall"], &new["overall"]);
-    let groups = |doc: &Value| -> Vec<(String, Value)> {
-        doc.get("groups")
-            .and_then(Value::as_array)
-            .into_iter()
-            .flatten()
-            .filter_map(|g| Some((g.get("group")?.as_str()?.to_string(), g.get("statistics")?.clone())))
-            .collect()
-    };
-    let old_groups = groups(old);
-    for (label, new_stats) in groups(new) {
-        if let Some((_, old_stats)) = old_groups.iter().find(|(l, _)| *l == label) {
-            statistics.extend(threshold_drifts(&label, old_stats, &new_stats).into_iter().filter(|t| t.crossed));
+pub fn compare_ratio_studies(old: &RatioStudyDocument, new: &RatioStudyDocument) -> RatioDrift {
+    let (old, new) = (&old.study, &new.study);
+    let mut statistics = threshold_drifts("overall", Some(&old.overall), Some(&new.overall));
+    for group in &new.groups {
+        if let Some(old_group) = old.groups.iter().find(|g| g.group == group.group) {
+            statistics.extend(
+                threshold_drifts(&group.group, old_group.statistics.as_ref(), group.statistics.as_ref())
+                    .into_iter()
+                    .filter(|t| t.crossed),
+            );
         }
     }
     RatioDrift {
-        count_old: old["overall"]["count"].as_u64(),
-        count_new: new["overall"]["count"].as_u64(),
+        count_old: Some(old.overall.count as u64),
+        count_new: Some(new.overall.count as u64),
         statistics,
-        standard: new["standard"].as_str().or(old["standard"].as_str()).unwrap_or("").to_string(),
+        standard: if new.standard.is_empty() { old.standard.clone() } else { new.standard.clone() },
     }
 }

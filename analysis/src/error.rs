@@ -7,11 +7,24 @@
 use std::path::PathBuf;
 
 /// Everything that can go wrong between a file on disk and a fitted model.
+///
+/// Non-exhaustive: new failure kinds arrive with new data sources, so match
+/// with a wildcard arm. Causes from below (I/O, Parquet, JSON) are kept and
+/// reachable through [`std::error::Error::source`].
 #[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
 pub enum Error {
     /// The data file does not exist or cannot be opened.
-    #[error("cannot open data file `{path}`: {reason}. Check the path (relative paths start from `{cwd}`).")]
-    FileUnreadable { path: PathBuf, reason: String, cwd: String },
+    #[error("cannot open data file `{path}`: {cause}. Check the path (relative paths start from `{cwd}`).")]
+    FileUnreadable {
+        /// The path as given.
+        path: PathBuf,
+        /// The operating system's reason.
+        #[source]
+        cause: std::io::Error,
+        /// The working directory relative paths start from.
+        cwd: String,
+    },
 
     /// The file's extension names no format we read, and none was given.
     #[error("cannot tell the format of `{path}` from its extension; use a `.csv`, `.tsv`, `.txt` or `.parquet` file, or load it with an explicit reader")]
@@ -34,8 +47,14 @@ pub enum Error {
     DuplicateColumn { path: PathBuf, name: String },
 
     /// A Parquet file could not be decoded.
-    #[error("cannot read Parquet file `{path}`: {reason}")]
-    ParquetUnreadable { path: PathBuf, reason: String },
+    #[error("cannot read Parquet file `{path}`: {cause}")]
+    ParquetUnreadable {
+        /// The path as given.
+        path: PathBuf,
+        /// The decoder's reason.
+        #[source]
+        cause: polars::error::PolarsError,
+    },
 
     /// A column named by the user is not in the frame.
     #[error("no column `{name}` in {source_label}{}; the columns are: {}", suggestion_text(.suggestions), .available.join(", "))]
@@ -131,8 +150,25 @@ pub enum Error {
     FrameMismatch { fitted: String, given: String },
 
     /// A result could not be written as its machine-readable JSON document.
-    #[error("could not write the result as JSON: {0}")]
-    Serialization(String),
+    #[error("could not write the {what} as JSON: {cause}")]
+    Serialization {
+        /// Which document.
+        what: &'static str,
+        /// The encoder's reason.
+        #[source]
+        cause: serde_json::Error,
+    },
+
+    /// A machine-readable document could not be read back as its type: not
+    /// JSON, a field missing or of the wrong type, or a schema version this
+    /// build does not know.
+    #[error("cannot read {what}: {reason}")]
+    Document {
+        /// Which document, and where it came from.
+        what: String,
+        /// What is wrong with it, and what to do.
+        reason: String,
+    },
 
     /// Polars reported an error while building or reading a frame.
     #[error("data frame error: {0}")]

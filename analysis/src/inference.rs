@@ -26,14 +26,15 @@ use crate::model::design::INTERCEPT_NAME;
 use crate::model::TargetTransform;
 use crate::numeric::DoubleDouble;
 use crate::stats::{check_level, f_upper_p, t_critical, t_two_sided_p};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Version of the JSON document produced by [`Fit::summary`]; bumped on any
 /// change that a reader would notice.
 pub const SUMMARY_SCHEMA_VERSION: u32 = 2;
 
 /// One row of the coefficient table.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Coefficient {
     /// Design column name.
     pub term: String,
@@ -273,7 +274,8 @@ impl Fit {
 }
 
 /// The machine-readable fit, serialized as the JSON documented in README.md.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct FitSummary {
     /// Always `plumbline.fit`.
     pub schema: String,
@@ -311,28 +313,48 @@ pub struct FitSummary {
     /// Design columns left out as linearly dependent.
     pub aliased: Vec<String>,
     /// R².
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub r_squared: f64,
     /// Adjusted R².
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub adj_r_squared: f64,
     /// Residual standard error.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub residual_std_error: f64,
     /// Overall F.
     pub f_statistic: Option<f64>,
     /// p-value of the overall F.
     pub f_p_value: Option<f64>,
     /// Regression sum of squares.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub ss_regression: f64,
     /// Residual sum of squares.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub ss_residual: f64,
     /// Total sum of squares.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub ss_total: f64,
     /// Gaussian log-likelihood.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub log_likelihood: f64,
     /// AIC.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub aic: f64,
     /// BIC.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub bic: f64,
     /// Condition number of the column-equilibrated design.
+    #[serde(deserialize_with = "crate::schema::number_or_null")]
+    #[cfg_attr(feature = "json-schema", schemars(with = "Option<f64>"))]
     pub condition_number: f64,
     /// Provenance of the data.
     pub data: crate::data::Provenance,

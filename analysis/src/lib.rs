@@ -30,6 +30,7 @@
 //! | [`diagnose`] | influence, collinearity, assumption tests, rows to check |
 //! | [`compare`] | nested tests, side-by-side tables, cross-validation, holdout splits |
 //! | [`value`] | ratio studies, sale-date adjustment, model values |
+//! | [`documents`] | the JSON documents we write, as types, and how each is read back |
 //! | [`drift`] | what moved between two runs of a study |
 //! | [`render`] | every human-readable report |
 //! | [`numeric`] | double-double arithmetic and the extended-precision QR |
@@ -37,6 +38,7 @@
 pub mod compare;
 pub mod data;
 pub mod diagnose;
+pub mod documents;
 pub mod drift;
 mod error;
 pub mod fit;

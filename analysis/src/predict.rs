@@ -17,10 +17,11 @@ use crate::error::{Error, Result};
 use crate::fit::{quadratic_form, Fit};
 use crate::stats::{check_level, t_critical};
 use crate::model::TargetTransform;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// One predicted row.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Prediction {
     /// 1-based data row of the new frame.
     pub row: usize,
@@ -46,7 +47,8 @@ pub struct Prediction {
 }
 
 /// Predictions for the rows of a frame, with the rows that could not be predicted.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Predictions {
     /// Confidence level of the intervals.
     pub level: f64,

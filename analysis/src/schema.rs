@@ -10,3 +10,11 @@ pub const COMPARISON_JSON_MIME: &str = "application/vnd.plumbline.comparison+jso
 pub const RATIO_JSON_MIME: &str = "application/vnd.plumbline.ratio-study+json";
 /// MIME type of the machine-readable drift report (schema `plumbline.drift`).
 pub const DRIFT_JSON_MIME: &str = "application/vnd.plumbline.drift+json";
+
+/// Reads a number that JSON may hold as `null`: `serde_json` writes a
+/// non-finite `f64` (a perfect fit's infinite log-likelihood, an undefined
+/// R²) as `null`, and this reads it back as NaN instead of failing. The
+/// value's meaning is kept as "not a number", never as zero.
+pub fn number_or_null<'de, D: serde::Deserializer<'de>>(deserializer: D) -> Result<f64, D::Error> {
+    <Option<f64> as serde::Deserialize>::deserialize(deserializer).map(|value| value.unwrap_or(f64::NAN))
+}

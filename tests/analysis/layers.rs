@@ -27,8 +27,10 @@ const LAYERS: &[&[&str]] = &[
     &["inference"],
     // Uses of a fit, side by side.
     &["predict", "diagnose", "compare", "value"],
-    // Charts, and what moved between two runs.
-    &["plot", "drift"],
+    // Charts, and the documents we write (each read back through its type).
+    &["plot", "documents"],
+    // What moved between two runs, read from their documents.
+    &["drift"],
     // Everything people read.
     &["render"],
 ];

@@ -16,7 +16,7 @@ use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{fit_with, FitOptions};
 use crate::model::ModelSpec;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// How to cross-validate.
 #[derive(Debug, Clone, PartialEq)]
@@ -36,7 +36,8 @@ impl Default for CrossValidation {
 }
 
 /// Errors of one fold.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct FoldScore {
     /// Fold number, from 1.
     pub fold: usize,
@@ -53,7 +54,8 @@ pub struct FoldScore {
 }
 
 /// Cross-validation results.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct CrossValidationResult {
     /// Folds requested.
     pub folds: usize,

@@ -16,11 +16,12 @@
 use crate::error::{Error, Result};
 use crate::fit::{auxiliary_regression, Fit};
 use crate::stats::f_upper_p;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
 /// Result of a nested-model comparison.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct NestedTest {
     /// Coefficients of the restricted model.
     pub k_restricted: usize,

@@ -2,10 +2,11 @@
 
 use crate::error::Result;
 use crate::fit::Fit;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// One term's estimates across the models (`None` where a model lacks it).
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct ComparisonRow {
     /// Design column name.
     pub term: String,
@@ -14,7 +15,8 @@ pub struct ComparisonRow {
 }
 
 /// Whole-fit figures of one model.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct ModelFigures {
     /// The model's name as given.
     pub name: String,
@@ -35,7 +37,8 @@ pub struct ModelFigures {
 }
 
 /// Side-by-side comparison of fits.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Comparison {
     /// Per model figures, in the order given.
     pub models: Vec<ModelFigures>,

@@ -59,7 +59,7 @@ pub(crate) fn read_bytes(path: &Path) -> Result<Vec<u8>> {
 pub(crate) fn unreadable(path: &Path, cause: std::io::Error) -> Error {
     Error::FileUnreadable {
         path: path.to_path_buf(),
-        reason: cause.to_string(),
+        cause,
         cwd: std::env::current_dir().map(|d| d.display().to_string()).unwrap_or_else(|_| "?".into()),
     }
 }

@@ -14,7 +14,7 @@ pub fn load_parquet(path: impl AsRef<Path>) -> Result<Frame> {
     let bytes = read_bytes(path)?;
     let data = ParquetReader::new(Cursor::new(&bytes))
         .finish()
-        .map_err(|e| Error::ParquetUnreadable { path: path.to_path_buf(), reason: e.to_string() })?;
+        .map_err(|e| Error::ParquetUnreadable { path: path.to_path_buf(), cause: e })?;
     let provenance = Provenance::for_file(path, &bytes, data.height(), data.width());
     Ok(Frame::from_parts(data, provenance, None))
 }

@@ -6,6 +6,7 @@ use sha2::{Digest, Sha256};
 
 /// The provenance stamp every loaded frame carries.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Provenance {
     /// The path the data was read from, as given by the user, or a label such
     /// as `(built in memory)` for frames made in code.

@@ -27,11 +27,12 @@
 
 use crate::fit::{auxiliary_regression, weighted_rows, Fit};
 use crate::model::DesignColumn;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use statrs::distribution::{Beta, ChiSquared, ContinuousCDF};
 
 /// The outcome of one hypothesis test.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct TestResult {
     /// Test name.
     pub name: String,

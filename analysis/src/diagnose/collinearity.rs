@@ -18,10 +18,11 @@
 use crate::fit::Fit;
 use crate::model::design::INTERCEPT_NAME;
 use faer::Mat;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Variance inflation of one term.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct TermVif {
     /// The term as written.
     pub term: String,
@@ -44,7 +45,8 @@ pub const INTERVAL_WIDENING_WARNING: f64 = 3.162_277_660_168_379_5;
 pub const CONDITION_INDEX_WARNING: f64 = 30.0;
 
 /// Collinearity summary of a fit.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Collinearity {
     /// One entry per term with at least one estimated column.
     pub terms: Vec<TermVif>,

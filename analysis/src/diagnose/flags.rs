@@ -8,7 +8,7 @@
 use crate::data::Frame;
 use crate::error::Result;
 use crate::fit::Fit;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Cut-off for |externally studentized residual| (common practice).
 pub const STUDENTIZED_CUTOFF: f64 = 3.0;
@@ -31,7 +31,8 @@ pub fn cooks_cutoff(n: usize) -> f64 {
 }
 
 /// A row beyond at least one cut-off.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct FlaggedRow {
     /// 1-based data row of the fitting frame.
     pub row: usize,
@@ -50,7 +51,8 @@ pub struct FlaggedRow {
 }
 
 /// The flagged rows and the cut-offs used.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct RowFlags {
     /// Cut-off for |studentized residual|.
     pub studentized_cutoff: f64,

@@ -15,10 +15,11 @@
 //! and studentized residuals and Cook's distance are reported as `None`.
 
 use crate::fit::{leverages, weighted_rows, Fit};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Influence measures of one row.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct InfluenceRow {
     /// 1-based data row of the fitting frame.
     pub row: usize,
@@ -37,7 +38,8 @@ pub struct InfluenceRow {
 }
 
 /// Influence measures of every row of a fit.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Influence {
     /// One entry per row used, in data order.
     pub rows: Vec<InfluenceRow>,

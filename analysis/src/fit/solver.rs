@@ -25,6 +25,7 @@
 //! excluded from the fit and named in its result; the remaining columns are
 //! refitted alone, so the reported coefficients are those of the reduced model.
 
+use serde::{Deserialize, Serialize};
 use super::Precision;
 use crate::numeric::dd_qr;
 use crate::numeric::equilibrate::power_of_two_scale;
@@ -34,7 +35,8 @@ use faer::linalg::solvers::SolveLstsq;
 use faer::Mat;
 
 /// Which algorithm produced a solution.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "snake_case")]
 pub enum SolverMethod {
     /// Pivoted QR in double-double arithmetic.

@@ -3,6 +3,7 @@
 //! and the ratio-study statistics beside their ranges with the crossings
 //! marked.
 
+use crate::documents::to_json;
 use super::bundle::{MimeBundle, Report, DRIFT_JSON_MIME};
 use super::prose::VALUATION_CAUTION;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
@@ -208,7 +209,10 @@ pub fn drift_html(report: &DriftReport) -> String {
 
 impl Report for DriftReport {
     fn bundle(&self) -> MimeBundle {
-        let json = serde_json::to_string(self).unwrap_or_else(|_| "{}".into());
-        MimeBundle::text_and_html(drift_text(self), drift_html(self)).with(DRIFT_JSON_MIME, json)
+        let bundle = MimeBundle::text_and_html(drift_text(self), drift_html(self));
+        match to_json(self, "drift report") {
+            Ok(json) => bundle.with(DRIFT_JSON_MIME, json),
+            Err(_) => bundle,
+        }
     }
 }

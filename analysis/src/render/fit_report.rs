@@ -2,6 +2,7 @@
 //! inline interval bar per row, fit quality, and warnings in plain words.
 
 use super::bundle::{MimeBundle, Report, FIT_JSON_MIME};
+use crate::documents::{to_json, FitDocument};
 use super::fit_figures::figure_groups;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_count, format_p_value, format_significant};
@@ -174,13 +175,13 @@ impl Report for FitReport<'_> {
             text.push_str(&wrap(&format!("warning: {warning}"), 96, "  ", "    "));
         }
         let html = fit_html(self.fit, self.level).unwrap_or_else(|e| format!("<div>{}</div>", escape(&e.to_string())));
-        let json = self
-            .fit
-            .summary(self.level)
-            .ok()
-            .and_then(|s| serde_json::to_string(&s).ok())
-            .unwrap_or_else(|| "{}".into());
-        MimeBundle::text_and_html(text, html).with(FIT_JSON_MIME, json)
+        let bundle = MimeBundle::text_and_html(text, html);
+        // Without a summary (the text already says why) there is no document:
+        // an empty one would only mislead a reader of the notebook's outputs.
+        match self.fit.summary(self.level).and_then(|s| to_json(&FitDocument::from(s), "fit document")) {
+            Ok(json) => bundle.with(FIT_JSON_MIME, json),
+            Err(_) => bundle,
+        }
     }
 }
 

@@ -1,6 +1,7 @@
 //! Ratio studies as text and HTML, each statistic beside its range and the
 //! standard named, with the valuation caution.
 
+use crate::documents::{to_json, RatioStudyDocument};
 use super::bundle::{MimeBundle, Report};
 use super::prose::{percent, wrap, VALUATION_CAUTION};
 use super::html::{card_end, card_start, escape, table, CAUTION, SUBTLE};
@@ -144,7 +145,10 @@ pub fn ratio_html(study: &RatioStudy) -> String {
 
 impl Report for RatioStudy {
     fn bundle(&self) -> MimeBundle {
-        let json = serde_json::to_string(self).unwrap_or_else(|_| "{}".into());
-        MimeBundle::text_and_html(ratio_text(self), ratio_html(self)).with(super::bundle::RATIO_JSON_MIME, json)
+        let bundle = MimeBundle::text_and_html(ratio_text(self), ratio_html(self));
+        match to_json(&RatioStudyDocument::from(self.clone()), "ratio-study document") {
+            Ok(json) => bundle.with(super::bundle::RATIO_JSON_MIME, json),
+            Err(_) => bundle,
+        }
     }
 }

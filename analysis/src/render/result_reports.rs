@@ -2,6 +2,7 @@
 //! diagnostics and predictions. Text comes from the text renderers; HTML
 //! uses the same card and table style as fits and frames.
 
+use crate::documents::{to_json, ComparisonDocument};
 use super::bundle::{MimeBundle, Report, COMPARISON_JSON_MIME};
 use super::diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
 use super::prose::{percent, VALUATION_CAUTION};
@@ -82,8 +83,11 @@ impl Report for Comparison {
         }
         table(&mut html, &header_refs, &numeric, &rows);
         card_end(&mut html);
-        let json = serde_json::to_string(self).unwrap_or_else(|_| "{}".into());
-        MimeBundle::text_and_html(text, html).with(COMPARISON_JSON_MIME, json)
+        let bundle = MimeBundle::text_and_html(text, html);
+        match to_json(&ComparisonDocument::of_table(self), "comparison document") {
+            Ok(json) => bundle.with(COMPARISON_JSON_MIME, json),
+            Err(_) => bundle,
+        }
     }
 }
 

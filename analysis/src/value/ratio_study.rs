@@ -20,7 +20,7 @@
 use super::standards::{Judgement, PropertyClass, LEVEL_RANGE, PRB_RANGE, PRD_RANGE, STANDARD};
 use crate::error::{Error, Result};
 use crate::stats::t_critical;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use statrs::distribution::{Binomial, DiscreteCDF};
 use std::collections::BTreeMap;
 
@@ -43,7 +43,8 @@ impl Default for RatioOptions {
 }
 
 /// Ratio statistics of one set of sales.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct RatioStatistics {
     /// Sales used (after trimming).
     pub count: usize,
@@ -70,7 +71,8 @@ pub struct RatioStatistics {
 }
 
 /// A group's statistics.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct GroupStudy {
     /// The group's label.
     pub group: String,
@@ -79,7 +81,8 @@ pub struct GroupStudy {
 }
 
 /// A complete ratio study.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct RatioStudy {
     /// Sales with both a value and a price.
     pub n_pairs: usize,

@@ -7,10 +7,11 @@
 //! relying on them. The standard is advisory: where it conflicts with local
 //! law, the law governs.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// The property class a study's COD range depends on.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum PropertyClass {
     /// Single-family residential, newer or fairly homogeneous areas (COD 5–10).
@@ -82,7 +83,8 @@ pub const PRB_RANGE: (f64, f64) = (-0.05, 0.05);
 pub const STANDARD: &str = "IAAO Standard on Ratio Studies (2013) — ranges recalled from memory; verify before use";
 
 /// A statistic set beside its range.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct Judgement {
     /// The statistic.
     pub statistic: String,

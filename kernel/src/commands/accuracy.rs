@@ -160,7 +160,7 @@ pub fn run(args: &AccuracyArgs) -> Result<String, CommandError> {
     match args.format {
         Format::Json => serde_json::to_string_pretty(&scores)
             .map(|s| s + "\n")
-            .map_err(|e| CommandError::Usage(format!("could not serialise the table: {e}"))),
+            .map_err(|e| CommandError::Runtime(format!("could not serialise the table: {e}"))),
         Format::Text | Format::Html => Ok(table(&scores)),
     }
 }

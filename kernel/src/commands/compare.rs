@@ -4,6 +4,7 @@ use super::fit::{covariance, load_with_flags};
 use super::CommandError;
 use crate::cli::{CompareArgs, Format};
 use plumbline::compare::{cross_validate, nested_test, rows_with_values, side_by_side, CrossValidation};
+use plumbline::documents::{to_pretty_json, ComparedModel, ComparisonDocument, NestedEntry, ValidationEntry};
 use plumbline::model::parse_term_list;
 use plumbline::prelude::*;
 use std::io::{IsTerminal, Write};
@@ -75,30 +76,24 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
 
     match args.format {
         Format::Json => {
-            let nested_json: Vec<serde_json::Value> = nested
-                .iter()
-                .map(|(a, b, r)| match r {
-                    Ok(t) => serde_json::json!({ "restricted": a, "full": b, "test": t }),
-                    Err(e) => serde_json::json!({ "restricted": a, "full": b, "not_comparable": e }),
-                })
-                .collect();
-            let cv_json: Vec<serde_json::Value> =
-                validation.iter().map(|(n, r)| serde_json::json!({ "model": n, "result": r })).collect();
-            let document = serde_json::json!({
-                "schema": "plumbline.comparison",
-                // 2: nested tests name the full model's residual degrees of freedom `residual_df_full`.
-                "schema_version": 2,
-                "models": names.iter().zip(&args.models).map(|(n, t)| serde_json::json!({"name": n, "terms": t})).collect::<Vec<_>>(),
-                "rows_used": frame.height(),
-                "rows_dropped": dropped,
-                "table": table,
-                "nested": nested_json,
-                "cross_validation": cv_json,
-                "data": frame.provenance(),
-            });
-            serde_json::to_string_pretty(&document)
-                .map(|s| s + "\n")
-                .map_err(|e| CommandError::Usage(format!("could not serialise the comparison: {e}")))
+            let document = ComparisonDocument {
+                models: names.iter().zip(&args.models).map(|(n, t)| ComparedModel { name: n.clone(), terms: Some(t.clone()) }).collect(),
+                rows_dropped: Some(dropped),
+                nested: nested
+                    .into_iter()
+                    .map(|(restricted, full, result)| {
+                        let (test, not_comparable) = match result {
+                            Ok(t) => (Some(t), None),
+                            Err(e) => (None, Some(e)),
+                        };
+                        NestedEntry { restricted, full, test, not_comparable }
+                    })
+                    .collect(),
+                cross_validation: validation.into_iter().map(|(model, result)| ValidationEntry { model, result }).collect(),
+                data: Some(frame.provenance().clone()),
+                ..ComparisonDocument::of_table(&table)
+            };
+            Ok(to_pretty_json(&document, "comparison document")?)
         }
         Format::Html => {
             use plumbline::render::Report;

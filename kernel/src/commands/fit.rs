@@ -2,6 +2,7 @@
 
 use super::CommandError;
 use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg};
+use plumbline::documents::{to_pretty_json, FitDiagnostics, FitDocument};
 use plumbline::prelude::*;
 use std::collections::BTreeMap;
 
@@ -203,23 +204,13 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
             Ok(plumbline::render::html::page(&format!("Fit of {}", model.spec().target_label()), &cards))
         }
         Format::Json => {
-            let serialise = |e: serde_json::Error| CommandError::Usage(format!("could not serialise the result: {e}"));
-            let mut document = serde_json::to_value(model.summary(args.level)?).map_err(serialise)?;
-            if let (Some(p), Some(object)) = (&predictions, document.as_object_mut()) {
-                object.insert("predictions".into(), serde_json::to_value(p).map_err(serialise)?);
-            }
-            if let (Some((tests, collinearity, flags)), Some(object)) = (&diagnostics, document.as_object_mut()) {
-                object.insert(
-                    "diagnostics".into(),
-                    serde_json::json!({ "tests": tests, "collinearity": collinearity, "flagged_rows": flags }),
-                );
-            }
-            if let (true, Some(object)) = (args.influence, document.as_object_mut()) {
-                object.insert("influence".into(), serde_json::to_value(model.influence()).map_err(serialise)?);
-            }
-            let mut json = serde_json::to_string_pretty(&document).map_err(serialise)?;
-            json.push('\n');
-            Ok(json)
+            let document = FitDocument {
+                summary: model.summary(args.level)?,
+                predictions,
+                diagnostics: diagnostics.map(|(tests, collinearity, flagged_rows)| FitDiagnostics { tests, collinearity, flagged_rows }),
+                influence: args.influence.then(|| model.influence()),
+            };
+            Ok(to_pretty_json(&document, "fit document")?)
         }
     }
 }

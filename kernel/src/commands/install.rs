@@ -33,7 +33,7 @@ fn kernels_dir(args: &InstallArgs) -> Result<PathBuf, CommandError> {
 /// Runs `plumbline install`.
 pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
     let dir = kernels_dir(args)?.join(KERNEL_NAME);
-    let io = |what: &str, e: std::io::Error| CommandError::Usage(format!("{what} `{}`: {e}", dir.display()));
+    let io = |what: &str, e: std::io::Error| CommandError::Runtime(format!("{what} `{}`: {e}", dir.display()));
     if args.uninstall {
         if dir.exists() {
             std::fs::remove_dir_all(&dir).map_err(|e| io("cannot remove", e))?;
@@ -41,7 +41,7 @@ pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
         }
         return Ok(format!("no Plumbline kernelspec at {} — nothing to remove\n", dir.display()));
     }
-    let exe = std::env::current_exe().map_err(|e| CommandError::Usage(format!("cannot locate this program: {e}")))?;
+    let exe = std::env::current_exe().map_err(|e| CommandError::Runtime(format!("cannot locate this program: {e}")))?;
     let spec = serde_json::json!({
         "argv": [exe.display().to_string(), "kernel", "--connection-file", "{connection_file}"],
         "display_name": "Plumbline (Rust)",
@@ -50,7 +50,7 @@ pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
         "metadata": { "plumbline_version": env!("CARGO_PKG_VERSION") },
     });
     std::fs::create_dir_all(&dir).map_err(|e| io("cannot create", e))?;
-    let text = serde_json::to_string_pretty(&spec).map_err(|e| CommandError::Usage(e.to_string()))?;
+    let text = serde_json::to_string_pretty(&spec).map_err(|e| CommandError::Runtime(e.to_string()))?;
     std::fs::write(dir.join("kernel.json"), text + "\n").map_err(|e| io("cannot write kernel.json in", e))?;
     for (name, bytes) in [("logo-32x32.png", LOGO_32), ("logo-64x64.png", LOGO_64), ("logo-svg.svg", LOGO_SVG)] {
         std::fs::write(dir.join(name), bytes).map_err(|e| io("cannot write a logo in", e))?;
@@ -67,7 +67,7 @@ pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
         let outcome = session.execute("plumbline_session_ready");
         sink.close();
         if let Some(error) = outcome.error {
-            return Err(CommandError::Usage(format!("the engine warm-up failed: {}", error.traceback.join("\n"))));
+            return Err(CommandError::Runtime(format!("the engine warm-up failed: {}", error.traceback.join("\n"))));
         }
         out.push_str(&format!("engine cache ready in {} (delete it to rebuild)\n", config.build_dir.display()));
     }

@@ -11,7 +11,7 @@ pub fn run(args: &KernelArgs) -> Result<String, CommandError> {
         .worker_threads(2)
         .enable_all()
         .build()
-        .map_err(|e| CommandError::Usage(format!("cannot start the async runtime: {e}")))?;
-    runtime.block_on(crate::server::serve(connection)).map_err(|e| CommandError::Usage(e.to_string()))?;
+        .map_err(|e| CommandError::Runtime(format!("cannot start the async runtime: {e}")))?;
+    runtime.block_on(crate::server::serve(connection)).map_err(|e| CommandError::Runtime(e.to_string()))?;
     Ok(String::new())
 }

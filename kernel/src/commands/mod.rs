@@ -19,9 +19,16 @@ pub enum CommandError {
     /// A flag's value could not be understood.
     #[error("{0}")]
     Usage(String),
+    /// The command was understood but failed while running: a file it writes,
+    /// the async runtime, the evaluation engine.
+    #[error("{0}")]
+    Runtime(String),
     /// A notebook run stopped or could not start.
     #[error("{0}")]
     Run(String),
+    /// A run's results could not be read for `plumbline diff`.
+    #[error(transparent)]
+    Results(#[from] crate::notebook::results::ResultsError),
     /// Reference data for a check is missing or malformed.
     #[error("{0}")]
     Reference(String),

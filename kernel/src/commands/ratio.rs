@@ -3,6 +3,7 @@
 use super::fit::load_with_flags;
 use super::CommandError;
 use crate::cli::{Format, RatioArgs};
+use plumbline::documents::{to_pretty_json, RatioStudyDocument};
 use plumbline::render::Report;
 use plumbline::value::{ratio_study, PropertyClass, RatioOptions};
 
@@ -21,9 +22,7 @@ pub fn run(args: &RatioArgs) -> Result<String, CommandError> {
     let bundle = study.bundle();
     Ok(match args.format {
         Format::Text => bundle.get("text/plain").unwrap_or_default().to_string(),
-        Format::Json => serde_json::to_string_pretty(&study)
-            .map(|s| s + "\n")
-            .map_err(|e| CommandError::Usage(format!("could not serialise the study: {e}")))?,
+        Format::Json => to_pretty_json(&RatioStudyDocument::from(study), "ratio-study document")?,
         Format::Html => plumbline::render::html::page("Ratio study", &[bundle.get("text/html").unwrap_or_default().to_string()]),
     })
 }

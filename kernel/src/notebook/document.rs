@@ -130,7 +130,12 @@ impl Notebook {
         }
     }
 
-    /// Sets `metadata.<key>` of the notebook.
+    /// The notebook-level metadata entry `key`, if any.
+    pub fn metadata(&self, key: &str) -> Option<&Value> {
+        self.root.get("metadata").and_then(|m| m.get(key))
+    }
+
+    /// Sets the notebook-level metadata entry `key`.
     pub fn set_metadata(&mut self, key: &str, value: Value) {
         if !self.root["metadata"].is_object() {
             self.root["metadata"] = json!({});

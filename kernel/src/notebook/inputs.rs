@@ -62,7 +62,8 @@ pub struct DeclaredInput {
 }
 
 /// An input changed for this run.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct AppliedInput {
     /// Variable name.
     pub name: String,

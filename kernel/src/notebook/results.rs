@@ -13,6 +13,9 @@ pub enum ResultsError {
     /// The file could not be read or parsed.
     #[error("cannot read `{path}`: {reason}")]
     Unreadable { path: String, reason: String },
+    /// A document in the file cannot be read as its type.
+    #[error(transparent)]
+    Document(#[from] plumbline::Error),
     /// The file holds no result the drift report compares.
     #[error("`{path}` holds no Plumbline fit results (expected a `plumbline fit --format json` file or an executed notebook with fit or ratio-study outputs)")]
     NoResults { path: String },
@@ -26,14 +29,14 @@ pub fn read_run(path: &Path) -> Result<RunResults, ResultsError> {
     let root: Value = serde_json::from_str(&text).map_err(|e| unreadable(e.to_string()))?;
     let mut run = RunResults::new(shown.clone());
     if root.get("schema").and_then(Value::as_str) == Some("plumbline.fit") {
-        run.add_document(plumbline::render::FIT_JSON_MIME, &root);
+        run.add_document(plumbline::render::FIT_JSON_MIME, &root)?;
     } else if root.get("cells").is_some() {
         let notebook = Notebook::from_json(root).map_err(unreadable)?;
         for cell in 0..notebook.len() {
             for output in notebook.outputs(cell) {
                 if let Some(data) = output.get("data").and_then(Value::as_object) {
                     for (mime, document) in data {
-                        run.add_document(mime, document);
+                        run.add_document(mime, document)?;
                     }
                 }
             }

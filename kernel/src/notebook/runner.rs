@@ -11,6 +11,7 @@
 
 use super::document::{CellKind, Notebook};
 use super::inputs::AppliedInput;
+use super::record::{RunRecord, RunStatus, RUN_RECORD_SCHEMA, RUN_RECORD_SCHEMA_VERSION};
 use crate::eval::{bundle_json, display_bundle, CellError, EngineConfig, Session, StreamLine};
 use serde_json::{json, Value};
 use std::io::Write;
@@ -143,19 +144,20 @@ pub fn execute(notebook: &mut Notebook, config: EngineConfig, applied: &[Applied
         notebook.set_outputs(cell, outputs, Some(execution_count));
     }
     outcome.elapsed = started.elapsed();
-    notebook.set_metadata(
-        "plumbline",
-        json!({
-            "run": {
-                "started_at": outcome.started_at,
-                "seconds": (outcome.elapsed.as_secs_f64() * 10.0).round() / 10.0,
-                "plumbline_version": env!("CARGO_PKG_VERSION"),
-                "inputs_set": applied,
-                "cells_executed": outcome.executed,
-                "status": if outcome.failure.is_some() { "stopped at an error" } else { "complete" },
-            }
-        }),
-    );
+    let record = RunRecord {
+        schema: RUN_RECORD_SCHEMA.into(),
+        schema_version: RUN_RECORD_SCHEMA_VERSION,
+        started_at: outcome.started_at.clone(),
+        seconds: (outcome.elapsed.as_secs_f64() * 10.0).round() / 10.0,
+        plumbline_version: env!("CARGO_PKG_VERSION").into(),
+        inputs_set: applied.to_vec(),
+        cells_executed: outcome.executed,
+        status: if outcome.failure.is_some() { RunStatus::StoppedAtError } else { RunStatus::Complete },
+    };
+    // The record holds strings and numbers only; serializing it cannot fail.
+    if let Err(e) = record.write_into(notebook) {
+        eprintln!("warning: the run record could not be written into the notebook's metadata: {e}");
+    }
     outcome
 }
 

@@ -1,0 +1,302 @@
+//! The machine-readable documents Plumbline writes, as types, and the one
+//! way each is read back.
+//!
+//! Every document carries a `schema` name and a `schema_version`. Writers
+//! (the command line's `--format json`, the notebook bundles of
+//! [`crate::render`]) serialize these types; readers ([`crate::drift`],
+//! `plumbline diff`) deserialize the same types through [`read_fit`],
+//! [`read_comparison`] and [`read_ratio_study`], which upgrade older
+//! versions and refuse newer ones with a message, so a renamed field can never
+//! read as an empty value. The JSON Schema of each (feature `json-schema`) is
+//! committed under `schemas/` and checked to be current by the test suite.
+//!
+//! | document | type | `schema` | version | MIME type |
+//! |---|---|---|---|---|
+//! | fit | [`FitDocument`] | `plumbline.fit` | [`FIT_SCHEMA_VERSION`] | [`FIT_JSON_MIME`] |
+//! | comparison | [`ComparisonDocument`] | `plumbline.comparison` | [`COMPARISON_SCHEMA_VERSION`] | [`COMPARISON_JSON_MIME`] |
+//! | ratio study | [`RatioStudyDocument`] | `plumbline.ratio-study` | [`RATIO_STUDY_SCHEMA_VERSION`] | [`RATIO_JSON_MIME`] |
+//! | drift report | [`crate::drift::DriftReport`] | `plumbline.drift` | [`crate::drift::DRIFT_SCHEMA_VERSION`] | [`crate::schema::DRIFT_JSON_MIME`] |
+//!
+//! The run record of `plumbline run` lives in the kernel crate, beside the
+//! notebook it describes.
+
+use crate::compare::{Comparison, CrossValidationResult, NestedTest};
+use crate::data::Provenance;
+use crate::diagnose::{Collinearity, Influence, RowFlags, TestResult};
+use crate::error::{Error, Result};
+use crate::inference::FitSummary;
+use crate::predict::Predictions;
+use crate::schema::{COMPARISON_JSON_MIME, FIT_JSON_MIME, RATIO_JSON_MIME};
+use crate::value::RatioStudy;
+use serde::{Deserialize, Serialize};
+use serde_json::Value;
+
+pub use crate::inference::SUMMARY_SCHEMA_VERSION as FIT_SCHEMA_VERSION;
+
+/// `schema` of a fit document.
+pub const FIT_SCHEMA: &str = "plumbline.fit";
+/// `schema` of a comparison document.
+pub const COMPARISON_SCHEMA: &str = "plumbline.comparison";
+/// Version of [`ComparisonDocument`]. 2: nested tests name the full model's
+/// residual degrees of freedom `residual_df_full`; 3: the notebook bundle of a
+/// side-by-side table carries this same document (`rows_dropped`, `data` and
+/// each model's `terms` may then be absent).
+pub const COMPARISON_SCHEMA_VERSION: u32 = 3;
+/// `schema` of a ratio-study document.
+pub const RATIO_STUDY_SCHEMA: &str = "plumbline.ratio-study";
+/// Version of [`RatioStudyDocument`]. 1 is the first versioned form; earlier
+/// documents had no `schema` field and read as version 1.
+pub const RATIO_STUDY_SCHEMA_VERSION: u32 = 1;
+
+/// The fit document: the summary every fit has, plus the sections the
+/// command line adds on request (`--predict`, `--diagnose`, `--influence`).
+/// The notebook bundle of a fit is this document with no optional section.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct FitDocument {
+    /// Coefficients, fit statistics and provenance.
+    #[serde(flatten)]
+    pub summary: FitSummary,
+    /// Predictions for new rows, when asked for.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub predictions: Option<Predictions>,
+    /// Assumption tests, collinearity and rows to check, when asked for.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub diagnostics: Option<FitDiagnostics>,
+    /// Per-row leverage, studentized residuals and Cook's distance, when asked for.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub influence: Option<Influence>,
+}
+
+impl From<FitSummary> for FitDocument {
+    fn from(summary: FitSummary) -> Self {
+        Self { summary, predictions: None, diagnostics: None, influence: None }
+    }
+}
+
+/// The diagnostics section of a fit document.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct FitDiagnostics {
+    /// Tests of the model's assumptions.
+    pub tests: Vec<TestResult>,
+    /// How much terms moving together widen the intervals.
+    pub collinearity: Collinearity,
+    /// Sales beyond the flag cut-offs.
+    pub flagged_rows: RowFlags,
+}
+
+/// One model of a comparison.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct ComparedModel {
+    /// The model's name (`A`, `B`, … on the command line; the caller's in code).
+    pub name: String,
+    /// The terms as the user wrote them (command line only).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub terms: Option<String>,
+}
+
+/// A nested test between two neighbouring models, or why there is none.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct NestedEntry {
+    /// The smaller model's name.
+    pub restricted: String,
+    /// The larger model's name.
+    pub full: String,
+    /// The F test, when the first model is nested in the second.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub test: Option<NestedTest>,
+    /// Why the two were not compared, otherwise.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub not_comparable: Option<String>,
+}
+
+/// The cross-validation of one model.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct ValidationEntry {
+    /// The model's name.
+    pub model: String,
+    /// Fold scores and their summary.
+    pub result: CrossValidationResult,
+}
+
+/// The comparison document: candidate models on one set of rows.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct ComparisonDocument {
+    /// Always [`COMPARISON_SCHEMA`].
+    pub schema: String,
+    /// [`COMPARISON_SCHEMA_VERSION`].
+    pub schema_version: u32,
+    /// The models, in the order given.
+    pub models: Vec<ComparedModel>,
+    /// Rows every model was fitted on.
+    pub rows_used: usize,
+    /// Rows left out because some model's column was missing (command line only).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rows_dropped: Option<usize>,
+    /// Coefficients aligned by term, and whole-fit figures.
+    pub table: Comparison,
+    /// Nested tests between neighbours, in the order given.
+    #[serde(default)]
+    pub nested: Vec<NestedEntry>,
+    /// Cross-validation of each model, when asked for.
+    #[serde(default)]
+    pub cross_validation: Vec<ValidationEntry>,
+    /// Provenance of the data (command line only).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub data: Option<Provenance>,
+}
+
+impl ComparisonDocument {
+    /// The document of a side-by-side table alone (what a notebook shows).
+    pub fn of_table(table: &Comparison) -> Self {
+        Self {
+            schema: COMPARISON_SCHEMA.into(),
+            schema_version: COMPARISON_SCHEMA_VERSION,
+            models: table.models.iter().map(|m| ComparedModel { name: m.name.clone(), terms: None }).collect(),
+            rows_used: table.models.first().map_or(0, |m| m.n_obs),
+            rows_dropped: None,
+            table: table.clone(),
+            nested: Vec::new(),
+            cross_validation: Vec::new(),
+            data: None,
+        }
+    }
+}
+
+/// The ratio-study document.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct RatioStudyDocument {
+    /// Always [`RATIO_STUDY_SCHEMA`].
+    pub schema: String,
+    /// [`RATIO_STUDY_SCHEMA_VERSION`].
+    pub schema_version: u32,
+    /// Level, uniformity and vertical equity, overall and per group.
+    #[serde(flatten)]
+    pub study: RatioStudy,
+}
+
+impl From<RatioStudy> for RatioStudyDocument {
+    fn from(study: RatioStudy) -> Self {
+        Self { schema: RATIO_STUDY_SCHEMA.into(), schema_version: RATIO_STUDY_SCHEMA_VERSION, study }
+    }
+}
+
+/// Serializes a document as compact JSON.
+pub fn to_json<T: Serialize>(document: &T, what: &'static str) -> Result<String> {
+    serde_json::to_string(document).map_err(|cause| Error::Serialization { what, cause })
+}
+
+/// Serializes a document as indented JSON ending in a newline (the command line's form).
+pub fn to_pretty_json<T: Serialize>(document: &T, what: &'static str) -> Result<String> {
+    serde_json::to_string_pretty(document).map(|s| s + "\n").map_err(|cause| Error::Serialization { what, cause })
+}
+
+/// The `schema` name of a JSON value, if it has one.
+pub fn schema_name(document: &Value) -> Option<&str> {
+    document.get("schema").and_then(Value::as_str)
+}
+
+/// Reads a fit document, upgrading version 1 (`df_model`, `df_resid`) and
+/// refusing versions newer than this build's. `origin` names where it came
+/// from in the error.
+pub fn read_fit(mut document: Value, origin: &str) -> Result<FitDocument> {
+    let what = format!("the fit document in {origin}");
+    let version = check_version(&document, FIT_SCHEMA, FIT_SCHEMA_VERSION, &what)?;
+    if version == 1 {
+        if let Some(object) = document.as_object_mut() {
+            for (old, new) in [("df_model", "model_df"), ("df_resid", "residual_df")] {
+                if let Some(value) = object.remove(old) {
+                    object.insert(new.into(), value);
+                }
+            }
+        }
+    }
+    typed(document, what)
+}
+
+/// Reads a comparison document (versions 2 and 3 read alike: version 3 only
+/// allowed fields to be absent).
+pub fn read_comparison(document: Value, origin: &str) -> Result<ComparisonDocument> {
+    let what = format!("the comparison document in {origin}");
+    let version = check_version(&document, COMPARISON_SCHEMA, COMPARISON_SCHEMA_VERSION, &what)?;
+    if version < 2 {
+        return Err(Error::Document {
+            what,
+            reason: format!("schema version {version} predates the nested tests' `residual_df_full`; rerun the comparison"),
+        });
+    }
+    typed(document, what)
+}
+
+/// Reads a ratio-study document; one without a `schema` field (written before
+/// ratio studies were versioned) reads as version 1.
+pub fn read_ratio_study(mut document: Value, origin: &str) -> Result<RatioStudyDocument> {
+    let what = format!("the ratio-study document in {origin}");
+    if let Some(object) = document.as_object_mut() {
+        object.entry("schema").or_insert_with(|| RATIO_STUDY_SCHEMA.into());
+        object.entry("schema_version").or_insert_with(|| 1.into());
+    }
+    check_version(&document, RATIO_STUDY_SCHEMA, RATIO_STUDY_SCHEMA_VERSION, &what)?;
+    typed(document, what)
+}
+
+/// The MIME types whose documents [`read_fit`], [`read_comparison`] and
+/// [`read_ratio_study`] read, in that order.
+pub const READABLE_MIME_TYPES: [&str; 3] = [FIT_JSON_MIME, COMPARISON_JSON_MIME, RATIO_JSON_MIME];
+
+/// Checks the `schema` name and returns the version, refusing a newer one.
+fn check_version(document: &Value, schema: &str, newest: u32, what: &str) -> Result<u32> {
+    let refuse = |reason: String| Error::Document { what: what.to_string(), reason };
+    match schema_name(document) {
+        Some(name) if name == schema => {}
+        Some(other) => return Err(refuse(format!("it is a `{other}` document, not `{schema}`"))),
+        None => return Err(refuse(format!("it has no `schema` field (expected `{schema}`)"))),
+    }
+    let version = document
+        .get("schema_version")
+        .and_then(Value::as_u64)
+        .ok_or_else(|| refuse("it has no whole-number `schema_version`".into()))?;
+    let version = u32::try_from(version).unwrap_or(u32::MAX);
+    if version > newest {
+        return Err(refuse(format!(
+            "it is schema version {version}, written by a newer Plumbline; this build reads up to version {newest} — update Plumbline"
+        )));
+    }
+    Ok(version)
+}
+
+fn typed<T: for<'de> Deserialize<'de>>(document: Value, what: String) -> Result<T> {
+    serde_json::from_value(document).map_err(|e| Error::Document { what, reason: format!("{e}; was it edited by hand?") })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_newer_version_is_refused_with_a_message() {
+        let document = serde_json::json!({ "schema": FIT_SCHEMA, "schema_version": FIT_SCHEMA_VERSION + 1 });
+        let message = read_fit(document, "q3.json").expect_err("newer version").to_string();
+        assert!(message.contains("newer Plumbline") && message.contains("q3.json"), "{message}");
+    }
+
+    #[test]
+    fn a_document_of_another_kind_is_refused() {
+        let document = serde_json::json!({ "schema": COMPARISON_SCHEMA, "schema_version": 3 });
+        let message = read_fit(document, "run.json").expect_err("wrong kind").to_string();
+        assert!(message.contains("`plumbline.comparison` document"), "{message}");
+    }
+
+    #[test]
+    fn a_missing_field_is_an_error_not_an_empty_value() {
+        let document = serde_json::json!({ "schema": FIT_SCHEMA, "schema_version": FIT_SCHEMA_VERSION, "target": "price" });
+        let message = read_fit(document, "run.json").expect_err("fields missing").to_string();
+        assert!(message.contains("missing field"), "{message}");
+    }
+}
