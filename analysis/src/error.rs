@@ -28,23 +28,52 @@ pub enum Error {
 
     /// The file's extension names no format we read, and none was given.
     #[error("cannot tell the format of `{path}` from its extension; use a `.csv`, `.tsv`, `.txt` or `.parquet` file, or load it with an explicit reader")]
-    UnknownFormat { path: PathBuf },
+    UnknownFormat {
+        /// The file, as given.
+        path: PathBuf,
+    },
 
     /// A CSV record could not be read (bad quoting, invalid UTF-8, I/O).
     #[error("`{path}` line {line}: {reason}")]
-    CsvMalformed { path: PathBuf, line: u64, reason: String },
+    CsvMalformed {
+        /// The file, as given.
+        path: PathBuf,
+        /// The 1-based line of the file, where the source has lines.
+        line: u64,
+        /// What went wrong.
+        reason: String,
+    },
 
     /// A CSV record has a different number of fields than the header.
     #[error("`{path}` line {line} has {found} fields but the header has {expected}; check for a stray delimiter or an unquoted text field")]
-    CsvRagged { path: PathBuf, line: u64, expected: usize, found: usize },
+    CsvRagged {
+        /// The file, as given.
+        path: PathBuf,
+        /// The 1-based line of the file, where the source has lines.
+        line: u64,
+        /// Fields in the header.
+        expected: usize,
+        /// Fields on the line.
+        found: usize,
+    },
 
     /// The file holds no header or no columns.
     #[error("`{path}` holds no columns; is it empty, or is the delimiter wrong (we used `{delimiter}`)?")]
-    NoColumns { path: PathBuf, delimiter: char },
+    NoColumns {
+        /// The file, as given.
+        path: PathBuf,
+        /// The field delimiter used.
+        delimiter: char,
+    },
 
     /// The same column name appears twice in a header.
     #[error("`{path}` has the column name `{name}` twice; rename one of them")]
-    DuplicateColumn { path: PathBuf, name: String },
+    DuplicateColumn {
+        /// The file, as given.
+        path: PathBuf,
+        /// The name as given.
+        name: String,
+    },
 
     /// A Parquet file could not be decoded.
     #[error("cannot read Parquet file `{path}`: {cause}")]
@@ -58,56 +87,161 @@ pub enum Error {
 
     /// A column named by the user is not in the frame.
     #[error("no column `{name}` in {source_label}{}; the columns are: {}", suggestion_text(.suggestions), .available.join(", "))]
-    ColumnNotFound { name: String, source_label: String, suggestions: Vec<String>, available: Vec<String> },
+    ColumnNotFound {
+        /// The name as given.
+        name: String,
+        /// Where the frame came from.
+        source_label: String,
+        /// Close matches among the columns.
+        suggestions: Vec<String>,
+        /// Every column of the frame.
+        available: Vec<String>,
+    },
 
     /// A value that should be a number is not one.
     #[error("column `{column}` must be numeric, but data row {row}{} holds `{value}`; {}", line_text(*.line), .hint.clone().unwrap_or_else(|| "correct that value, or mark it missing with a null marker".into()))]
-    NotNumeric { column: String, row: usize, line: Option<u64>, value: String, hint: Option<String> },
+    NotNumeric {
+        /// The column concerned.
+        column: String,
+        /// The 1-based data row (header excluded).
+        row: usize,
+        /// The 1-based line of the file, where the source has lines.
+        line: Option<u64>,
+        /// The offending value.
+        value: String,
+        /// What to do, when more specific than the default advice.
+        hint: Option<String>,
+    },
 
     /// A number the model uses is NaN or infinite (or was written beyond the
     /// range of a 64-bit float).
     #[error("column `{column}` holds a value that is not a finite number at data row {row}{}: {value}{}; correct it, or treat such values as missing (command line `--non-finite missing`; library `CsvOptions::non_finite_as_missing()` or `Frame::non_finite_as_missing()`)", line_text(*.line), overflow_note(*.value))]
-    NonFinite { column: String, row: usize, line: Option<u64>, value: f64 },
+    NonFinite {
+        /// The column concerned.
+        column: String,
+        /// The 1-based data row (header excluded).
+        row: usize,
+        /// The 1-based line of the file, where the source has lines.
+        line: Option<u64>,
+        /// The offending value.
+        value: f64,
+    },
 
     /// A field of a text file is not valid in the file's encoding.
     #[error("`{path}` line {line}, {place}: byte {byte_in_field} of the field (0x{byte:02X}) is not valid UTF-8 (the field reads `{preview}`); the file is probably in an office program's encoding: load it with `--encoding windows-1252` (or `latin-1`; library: `CsvOptions::encoding(TextEncoding::Windows1252)`)")]
-    NotUtf8 { path: PathBuf, line: u64, place: String, byte_in_field: usize, byte: u8, preview: String },
+    NotUtf8 {
+        /// The file, as given.
+        path: PathBuf,
+        /// The 1-based line of the file.
+        line: u64,
+        /// Which field of the line.
+        place: String,
+        /// 1-based position of the bad byte within the field.
+        byte_in_field: usize,
+        /// The bad byte.
+        byte: u8,
+        /// The field as far as it could be read.
+        preview: String,
+    },
 
     /// A value of a date column is not a date in the column's format.
     #[error("column `{column}` holds dates written as `{format}`, but data row {row}{} holds `{value}`; correct that value, or give the column's format (`--date-format {column}=FORMAT`, e.g. `%d/%m/%Y`)", line_text(*.line))]
-    BadDate { column: String, row: usize, line: Option<u64>, value: String, format: String },
+    BadDate {
+        /// The column concerned.
+        column: String,
+        /// The 1-based data row (header excluded).
+        row: usize,
+        /// The 1-based line of the file, where the source has lines.
+        line: Option<u64>,
+        /// The offending value.
+        value: String,
+        /// The date format expected (chrono `strftime` syntax).
+        format: String,
+    },
 
     /// A date column was used where numbers are needed.
     #[error("column `{column}` holds dates, not numbers; use it through a date term (months or days since a reference date, year, quarter or month of the year), e.g. `Term::months_since(\"{column}\", \"2023-01-01\")` or `months:{column}:2023-01-01`")]
-    DatesNotNumbers { column: String },
+    DatesNotNumbers {
+        /// The column concerned.
+        column: String,
+    },
 
     /// A column used as dates does not hold dates.
     #[error("column `{column}` is used as a date but holds {found}; load it as a date column (`--column-type {column}=date`, or `--date-format {column}=FORMAT`)")]
-    NotDates { column: String, found: String },
+    NotDates {
+        /// The column concerned.
+        column: String,
+        /// The type the column holds instead.
+        found: String,
+    },
 
     /// A column the model needs has no value at all.
     #[error("column `{column}` is missing on every row, so it cannot be used in a model")]
-    ColumnAllMissing { column: String },
+    ColumnAllMissing {
+        /// The column concerned.
+        column: String,
+    },
 
     /// A schema override names a type we do not know.
     #[error("unknown column type `{given}` for `{column}`; use one of: number, integer, text, date, formatted-number")]
-    UnknownColumnType { column: String, given: String },
+    UnknownColumnType {
+        /// The column concerned.
+        column: String,
+        /// The type name given.
+        given: String,
+    },
 
     /// A transform met a value outside its domain (e.g. log of a non-positive number).
     #[error("{transform} of column `{column}` needs {requirement}, but data row {row}{} holds {value}; drop or correct that row, or choose another transform", line_text(*.line))]
-    TransformDomain { transform: String, column: String, requirement: String, row: usize, line: Option<u64>, value: f64 },
+    TransformDomain {
+        /// The transform applied.
+        transform: String,
+        /// The column concerned.
+        column: String,
+        /// What the value must satisfy.
+        requirement: String,
+        /// The 1-based data row (header excluded).
+        row: usize,
+        /// The 1-based line of the file, where the source has lines.
+        line: Option<u64>,
+        /// The offending value.
+        value: f64,
+    },
 
     /// A column to be standardized has no spread.
     #[error("column `{column}` is constant ({value}) over the rows used, so it cannot be {action}")]
-    ConstantColumn { column: String, value: f64, action: String },
+    ConstantColumn {
+        /// The column concerned.
+        column: String,
+        /// The one value the column holds.
+        value: f64,
+        /// What was to be done with the column.
+        action: String,
+    },
 
     /// The reference level asked for a category does not occur.
     #[error("reference level `{level}` does not occur in column `{column}` (levels: {})", .levels.join(", "))]
-    UnknownLevel { column: String, level: String, levels: Vec<String> },
+    UnknownLevel {
+        /// The column concerned.
+        column: String,
+        /// The level asked for.
+        level: String,
+        /// The levels that occur.
+        levels: Vec<String>,
+    },
 
     /// A weight is zero, negative or not finite.
     #[error("weight column `{column}` must be positive and finite, but data row {row}{} holds {value}", line_text(*.line))]
-    BadWeight { column: String, row: usize, line: Option<u64>, value: f64 },
+    BadWeight {
+        /// The column concerned.
+        column: String,
+        /// The 1-based data row (header excluded).
+        row: usize,
+        /// The 1-based line of the file, where the source has lines.
+        line: Option<u64>,
+        /// The offending value.
+        value: f64,
+    },
 
     /// The model specification itself is inconsistent.
     #[error("model specification: {0}")]
@@ -115,23 +249,46 @@ pub enum Error {
 
     /// Every row was dropped for missing values.
     #[error("no rows left to fit: every row misses at least one model column ({detail})")]
-    AllRowsDropped { detail: String },
+    AllRowsDropped {
+        /// Which columns, and why.
+        detail: String,
+    },
 
     /// Fewer usable rows than coefficients.
     #[error("{rows} rows but {columns} coefficients to estimate; a least-squares fit needs more rows than coefficients (drop terms or add data)")]
-    TooFewRows { rows: usize, columns: usize },
+    TooFewRows {
+        /// Usable rows.
+        rows: usize,
+        /// Coefficients to estimate.
+        columns: usize,
+    },
 
     /// The target does not vary, so there is nothing to explain.
     #[error("target `{target}` has the same value ({value}) on every row used; there is no variation to explain")]
-    ConstantTarget { target: String, value: f64 },
+    ConstantTarget {
+        /// The target column.
+        target: String,
+        /// The one value the target holds.
+        value: f64,
+    },
 
     /// No column of the design survived the rank test.
     #[error("the design has no linearly independent column: {detail}")]
-    SingularDesign { detail: String },
+    SingularDesign {
+        /// Which columns, and why.
+        detail: String,
+    },
 
     /// An argument outside its allowed range (confidence level, degree, …).
     #[error("{what} must be {requirement}, got {value}")]
-    OutOfRange { what: String, requirement: String, value: String },
+    OutOfRange {
+        /// What was checked.
+        what: String,
+        /// What the value must satisfy.
+        requirement: String,
+        /// The value given.
+        value: String,
+    },
 
     /// New data for prediction lacks what the model needs.
     #[error("prediction data: {0}")]
@@ -147,7 +304,12 @@ pub enum Error {
 
     /// A chart that reads the data beside the fit was given another frame.
     #[error("the frame given ({given}) is not the one the model was fitted to ({fitted}); pass the frame the fit read, so that each residual is matched to its own sale")]
-    FrameMismatch { fitted: String, given: String },
+    FrameMismatch {
+        /// The frame the model was fitted to.
+        fitted: String,
+        /// The frame passed.
+        given: String,
+    },
 
     /// A result could not be written as its machine-readable JSON document.
     #[error("could not write the {what} as JSON: {cause}")]

@@ -33,7 +33,10 @@
 //! | [`documents`] | the JSON documents we write, as types, and how each is read back |
 //! | [`drift`] | what moved between two runs of a study |
 //! | [`render`] | every human-readable report |
+//! | [`grouping`] | digit grouping shared by chart ticks and reports |
 //! | [`numeric`] | double-double arithmetic and the extended-precision QR |
+
+#![warn(missing_docs)]
 
 pub mod compare;
 pub mod data;
@@ -42,6 +45,7 @@ pub mod documents;
 pub mod drift;
 mod error;
 pub mod fit;
+pub mod grouping;
 pub mod inference;
 pub mod model;
 pub mod numeric;

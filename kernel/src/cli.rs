@@ -20,9 +20,9 @@ pub enum Command {
     /// Register the kernelspec where notebook front ends find it, and warm the engine cache.
     Install(InstallArgs),
     /// Fit a least-squares model to a CSV or Parquet file and print the result.
-    Fit(FitArgs),
+    Fit(Box<FitArgs>),
     /// Compare candidate models on one data file: side by side, nested tests, cross-validation.
-    Compare(CompareArgs),
+    Compare(Box<CompareArgs>),
     /// Ratio study of values against sale prices: level, uniformity, vertical equity.
     Ratio(RatioArgs),
     /// Execute a study notebook headlessly; save the executed notebook and an HTML report.

@@ -15,8 +15,8 @@ use std::path::Path;
 const LAYERS: &[&[&str]] = &[
     // The error type.
     &["error"],
-    // Foundations: extended arithmetic, document names, distributions and quantiles.
-    &["numeric", "schema", "stats"],
+    // Foundations: extended arithmetic, document names, distributions and quantiles, digit grouping.
+    &["numeric", "schema", "stats", "grouping"],
     // Files to frames.
     &["data"],
     // What to fit: specifications and design matrices.

@@ -42,7 +42,10 @@ pub enum SolverMethod {
     /// Pivoted QR in double-double arithmetic.
     ExtendedQr,
     /// Pivoted QR in double precision with `refinement_steps` steps of refinement.
-    RefinedQr { refinement_steps: usize },
+    RefinedQr {
+        /// Steps of iterative refinement taken.
+        refinement_steps: usize,
+    },
 }
 
 /// The solution of a (weighted) least-squares problem.

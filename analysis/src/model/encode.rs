@@ -42,19 +42,47 @@ pub enum NumericParams {
     /// The transform needs nothing from the data.
     Fixed,
     /// Mean (and, for standardizing, the sample standard deviation).
-    Moments { mean: f64, sd: f64 },
+    Moments {
+        /// Mean over the fitting rows.
+        mean: f64,
+        /// Sample standard deviation over the fitting rows.
+        sd: f64,
+    },
     /// Orthogonal-polynomial recurrence: `P_{k+1} = (x − alpha_k) P_k − beta_k P_{k−1}`,
     /// with `norms[k]² = Σ P_k²` over the fitting rows.
-    Recurrence { alpha: Vec<f64>, beta: Vec<f64>, norms: Vec<f64> },
+    Recurrence {
+        /// The `alpha_k` of the recurrence.
+        alpha: Vec<f64>,
+        /// The `beta_k` of the recurrence.
+        beta: Vec<f64>,
+        /// `norms[k]`, the root of `Σ P_k²` over the fitting rows.
+        norms: Vec<f64>,
+    },
 }
 
 /// A term together with what it learned from the fitting rows.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub enum TermEncoding {
     /// A numeric column and its transform.
-    Numeric { column: String, transform: Transform, params: NumericParams },
+    Numeric {
+        /// The column.
+        column: String,
+        /// Its transform.
+        transform: Transform,
+        /// What the transform learned from the fitting rows.
+        params: NumericParams,
+    },
     /// Indicator coding: one 0/1 column per entry of `coded_levels`.
-    Category { column: String, coded_levels: Vec<String>, reference: Option<String>, all_levels: Vec<String> },
+    Category {
+        /// The column.
+        column: String,
+        /// Levels with an indicator column, in design order.
+        coded_levels: Vec<String>,
+        /// The level without one (the baseline), if any.
+        reference: Option<String>,
+        /// Every level seen in the fitting rows, sorted.
+        all_levels: Vec<String>,
+    },
     /// Products of the two sides' columns.
     Interaction(Box<TermEncoding>, Box<TermEncoding>),
 }

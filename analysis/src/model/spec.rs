@@ -65,6 +65,9 @@ pub enum DatePart {
     MonthOfYear,
 }
 
+/// A calendar measure from a first date to a second (months or days).
+pub(crate) type CalendarMeasure = fn(NaiveDate, NaiveDate) -> f64;
+
 impl DatePart {
     /// Whether the part enters the design as a number (else as a category).
     pub fn is_numeric(&self) -> bool {
@@ -74,7 +77,7 @@ impl DatePart {
     /// For a numeric part, its reference date as written and the calendar
     /// measure from a first date to a second (months or days, see
     /// [`crate::data::dates`]); `None` for categorical parts.
-    pub(crate) fn trend_measure(&self) -> Option<(&str, fn(NaiveDate, NaiveDate) -> f64)> {
+    pub(crate) fn trend_measure(&self) -> Option<(&str, CalendarMeasure)> {
         match self {
             DatePart::MonthsSince(reference) => Some((reference, dates::months_between)),
             DatePart::DaysSince(reference) => Some((reference, dates::days_between)),

@@ -30,19 +30,12 @@ pub fn format_tick(value: f64) -> String {
         return if value.is_finite() { "0".into() } else { String::new() };
     }
     let magnitude = value.abs();
-    if magnitude >= 1e9 || magnitude < 1e-4 {
+    if !(1e-4..1e9).contains(&magnitude) {
         return format!("{value:.1e}");
     }
     if magnitude >= 1000.0 {
         let rounded = value.round() as i64;
-        let digits = rounded.unsigned_abs().to_string();
-        let mut grouped = String::new();
-        for (i, c) in digits.chars().enumerate() {
-            if i > 0 && (digits.len() - i) % 3 == 0 {
-                grouped.push(',');
-            }
-            grouped.push(c);
-        }
+        let grouped = crate::grouping::group_digits(rounded.unsigned_abs());
         return if rounded < 0 { format!("−{grouped}") } else { grouped };
     }
     let decimals = (3 - magnitude.log10().floor() as i32).clamp(0, 6) as usize;

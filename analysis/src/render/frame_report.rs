@@ -41,7 +41,17 @@ fn shown_rows(height: usize) -> Vec<Option<usize>> {
     }
 }
 
-fn frame_cells(frame: &Frame) -> (Vec<String>, Vec<String>, Vec<bool>, Vec<Option<Vec<String>>>) {
+/// What a frame display shows: column names, their types in words, which
+/// columns are numeric (right-aligned), and the rows shown (`None` marks the
+/// gap between the first and last rows of a long frame).
+struct FrameCells {
+    names: Vec<String>,
+    dtypes: Vec<String>,
+    numeric: Vec<bool>,
+    rows: Vec<Option<Vec<String>>>,
+}
+
+fn frame_cells(frame: &Frame) -> FrameCells {
     let data = frame.data();
     let names = frame.column_names();
     let dtypes: Vec<String> = data.columns().iter().map(|c| kind_words(c.dtype()).to_string()).collect();
@@ -60,7 +70,7 @@ fn frame_cells(frame: &Frame) -> (Vec<String>, Vec<String>, Vec<bool>, Vec<Optio
             })
         })
         .collect();
-    (names, dtypes, numeric, rows)
+    FrameCells { names, dtypes, numeric, rows }
 }
 
 /// A column's storage type in the words of the column types people give on
@@ -81,7 +91,7 @@ fn kind_words(dtype: &polars::prelude::DataType) -> String {
 /// The frame as aligned text under 100 columns (columns that do not fit are counted).
 pub fn frame_text(frame: &Frame) -> String {
     let prov = frame.provenance();
-    let (names, dtypes, numeric, rows) = frame_cells(frame);
+    let FrameCells { names, dtypes, numeric, rows } = frame_cells(frame);
     let mut out = format!("{} records · {} columns from {}\n", format_count(frame.height()), frame.width(), prov.path);
     if !prov.sha256.is_empty() {
         out.push_str(&format!("  sha256 {}…, read {}\n", prov.short_hash(), prov.loaded_at));
@@ -129,7 +139,7 @@ pub fn frame_text(frame: &Frame) -> String {
 /// The frame as an HTML card.
 pub fn frame_html(frame: &Frame) -> String {
     let prov = frame.provenance();
-    let (names, dtypes, numeric, rows) = frame_cells(frame);
+    let FrameCells { names, dtypes, numeric, rows } = frame_cells(frame);
     let mut out = String::new();
     card_start(&mut out, &format!("{} records · {} columns", format_count(frame.height()), frame.width()));
     out.push_str(&format!("<div style=\"{SUBTLE}\">{}", escape(&prov.path)));

@@ -20,15 +20,7 @@ pub fn format_significant(value: f64, digits: usize) -> String {
 
 /// A count with digit groups of three: `3,000`, `1,250,000`.
 pub fn format_count(n: usize) -> String {
-    let digits = n.to_string();
-    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
-    for (i, c) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i).is_multiple_of(3) {
-            out.push(',');
-        }
-        out.push(c);
-    }
-    out
+    crate::grouping::group_digits(n as u64)
 }
 
 /// Like [`format_significant`], without trailing zeros after the decimal

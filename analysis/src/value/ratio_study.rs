@@ -129,7 +129,7 @@ fn statistics(pairs: &[(f64, f64)], options: &RatioOptions) -> Option<RatioStati
     let alpha = 1.0 - options.level;
     let median_interval = Binomial::new(0.5, n as u64).ok().and_then(|b| {
         let mut j = 0u64;
-        while j + 1 <= n as u64 / 2 && b.cdf(j) <= alpha / 2.0 {
+        while j < n as u64 / 2 && b.cdf(j) <= alpha / 2.0 {
             j += 1;
         }
         // j is now the count of order statistics cut from each end.

@@ -62,7 +62,7 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
         .iter()
         .map(|r| split_pair(r, '=', "reference", "COL=LEVEL such as `district=Tidewright Quay`"))
         .collect::<Result<_, _>>()?;
-    for (column, _) in &references {
+    for column in references.keys() {
         if !args.category.iter().any(|c| c == column) {
             return Err(CommandError::Usage(format!("--reference names `{column}`, which is not listed in --category")));
         }

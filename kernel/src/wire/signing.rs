@@ -52,7 +52,7 @@ impl Signer {
 }
 
 fn decode_hex(text: &[u8]) -> Option<Vec<u8>> {
-    if text.len() % 2 != 0 {
+    if !text.len().is_multiple_of(2) {
         return None;
     }
     text.chunks(2)
