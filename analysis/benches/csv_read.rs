@@ -32,13 +32,8 @@ fn main() {
     };
     let seconds = started.elapsed().as_secs_f64();
     let peak = status_bytes("VmHWM:").unwrap_or(0);
-    let numeric_bytes: usize = frame
-        .data()
-        .columns()
-        .iter()
-        .filter(|c| c.dtype().is_primitive_numeric())
-        .map(|c| c.len() * 8)
-        .sum();
+    let numeric_bytes: usize =
+        frame.data().columns().iter().filter(|c| c.dtype().is_primitive_numeric()).map(|c| c.len() * 8).sum();
     println!(
         "{{\"reader\": \"plumbline\", \"rows\": {}, \"cols\": {}, \"seconds\": {seconds:.4}, \"peak_rss_bytes\": {peak}, \
          \"baseline_rss_bytes\": {baseline}, \"f64_column_bytes\": {numeric_bytes}}}",

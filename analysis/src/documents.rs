@@ -228,7 +228,9 @@ pub fn read_comparison(document: Value, origin: &str) -> Result<ComparisonDocume
     if version < 2 {
         return Err(Error::Document {
             what,
-            reason: format!("schema version {version} predates the nested tests' `residual_df_full`; rerun the comparison"),
+            reason: format!(
+                "schema version {version} predates the nested tests' `residual_df_full`; rerun the comparison"
+            ),
         });
     }
     typed(document, what)
@@ -272,7 +274,8 @@ fn check_version(document: &Value, schema: &str, newest: u32, what: &str) -> Res
 }
 
 fn typed<T: for<'de> Deserialize<'de>>(document: Value, what: String) -> Result<T> {
-    serde_json::from_value(document).map_err(|e| Error::Document { what, reason: format!("{e}; was it edited by hand?") })
+    serde_json::from_value(document)
+        .map_err(|e| Error::Document { what, reason: format!("{e}; was it edited by hand?") })
 }
 
 #[cfg(test)]
@@ -295,7 +298,8 @@ mod tests {
 
     #[test]
     fn a_missing_field_is_an_error_not_an_empty_value() {
-        let document = serde_json::json!({ "schema": FIT_SCHEMA, "schema_version": FIT_SCHEMA_VERSION, "target": "price" });
+        let document =
+            serde_json::json!({ "schema": FIT_SCHEMA, "schema_version": FIT_SCHEMA_VERSION, "target": "price" });
         let message = read_fit(document, "run.json").expect_err("fields missing").to_string();
         assert!(message.contains("missing field"), "{message}");
     }

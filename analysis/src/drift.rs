@@ -219,7 +219,12 @@ pub fn drift(old: &RunResults, new: &RunResults) -> DriftReport {
         new: new.source.clone(),
         fits: old.fits.iter().zip(&new.fits).map(|(a, b)| compare_fits(a, b)).collect(),
         unpaired_fits: old.fits.len().abs_diff(new.fits.len()),
-        ratio_studies: old.ratio_studies.iter().zip(&new.ratio_studies).map(|(a, b)| compare_ratio_studies(a, b)).collect(),
+        ratio_studies: old
+            .ratio_studies
+            .iter()
+            .zip(&new.ratio_studies)
+            .map(|(a, b)| compare_ratio_studies(a, b))
+            .collect(),
         unpaired_ratio_studies: old.ratio_studies.len().abs_diff(new.ratio_studies.len()),
     }
 }

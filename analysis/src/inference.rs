@@ -91,7 +91,6 @@ pub struct FitStatistics {
     pub condition_number: f64,
 }
 
-
 impl Fit {
     /// Residual degrees of freedom `n − k`.
     pub fn residual_df(&self) -> usize {
@@ -113,7 +112,8 @@ impl Fit {
 
     /// Whether the intercept is among the estimated columns.
     fn intercept_estimated(&self) -> bool {
-        self.spec().has_intercept() && self.solution.kept.first().is_some_and(|&j| self.design.columns[j].name == INTERCEPT_NAME)
+        self.spec().has_intercept()
+            && self.solution.kept.first().is_some_and(|&j| self.design.columns[j].name == INTERCEPT_NAME)
     }
 
     /// The coefficient table at confidence `level` (e.g. 0.95).

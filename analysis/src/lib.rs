@@ -58,16 +58,17 @@ pub mod value;
 
 pub use error::{Error, Result};
 
+/// Re-exported for the same reason as `polars`.
+pub use faer;
 /// Re-exported so that cells and programs can name frame types without a
 /// separate dependency (and with the same version).
 pub use polars;
-/// Re-exported for the same reason as `polars`.
-pub use faer;
 
 /// Everything a notebook cell or a small program needs, in one `use`.
 pub mod prelude {
     pub use crate::data::{
-        load, load_csv, load_parquet, profile, ColumnProfile, ColumnType, CsvOptions, Frame, NonFinite, Provenance, Screen, TextEncoding,
+        load, load_csv, load_parquet, profile, ColumnProfile, ColumnType, CsvOptions, Frame, NonFinite, Provenance,
+        Screen, TextEncoding,
     };
     pub use crate::fit::{fit, fit_with, CovarianceKind, Fit, FitOptions, Precision};
     pub use crate::inference::{Coefficient, FitStatistics, FitSummary};

@@ -15,8 +15,8 @@
 use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{quadratic_form, Fit};
-use crate::stats::{check_level, t_critical};
 use crate::model::TargetTransform;
+use crate::stats::{check_level, t_critical};
 use serde::{Deserialize, Serialize};
 
 /// One predicted row.

@@ -12,7 +12,11 @@ pub(crate) fn check_level(level: f64) -> Result<()> {
     if level > 0.0 && level < 1.0 {
         Ok(())
     } else {
-        Err(Error::OutOfRange { what: "the confidence level".into(), requirement: "strictly between 0 and 1 (e.g. 0.95)".into(), value: level.to_string() })
+        Err(Error::OutOfRange {
+            what: "the confidence level".into(),
+            requirement: "strictly between 0 and 1 (e.g. 0.95)".into(),
+            value: level.to_string(),
+        })
     }
 }
 
@@ -52,5 +56,9 @@ pub(crate) fn median_of_sorted(sorted: &[f64]) -> Option<f64> {
 pub(crate) fn quantile_of_sorted(sorted: &[f64], q: f64) -> f64 {
     let position = q * (sorted.len() - 1) as f64;
     let (i, frac) = (position.floor() as usize, position.fract());
-    if i + 1 < sorted.len() { sorted[i] + (sorted[i + 1] - sorted[i]) * frac } else { sorted[i] }
+    if i + 1 < sorted.len() {
+        sorted[i] + (sorted[i + 1] - sorted[i]) * frac
+    } else {
+        sorted[i]
+    }
 }

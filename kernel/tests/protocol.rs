@@ -135,8 +135,13 @@ async fn iopub_until_idle(kernel: &mut Kernel, id: &str, wait: Duration) -> Vec<
 }
 
 async fn execute(kernel: &mut Kernel, code: &str, wait: Duration) -> (Value, Vec<(String, Value)>) {
-    let (frames, id) = frames_of("execute_request", &kernel.session, json!({ "code": code, "silent": false, "store_history": true,
-        "user_expressions": {}, "allow_stdin": false, "stop_on_error": true }), true);
+    let (frames, id) = frames_of(
+        "execute_request",
+        &kernel.session,
+        json!({ "code": code, "silent": false, "store_history": true,
+        "user_expressions": {}, "allow_stdin": false, "stop_on_error": true }),
+        true,
+    );
     kernel.shell.send(frames).await.expect("send");
     let (_, _, content) = reply(&mut kernel.shell, wait).await.expect("execute_reply");
     let broadcasts = iopub_until_idle(kernel, &id, Duration::from_secs(20)).await;
@@ -156,19 +161,30 @@ async fn the_kernel_speaks_the_protocol() {
     assert_eq!(info["protocol_version"], "5.3");
 
     // A cell with output and a value (the first one waits for the engine).
-    let (content, broadcasts) = execute(&mut kernel, "println!(\"hello from a cell\");\n40 + 2", Duration::from_secs(3600)).await;
+    let (content, broadcasts) =
+        execute(&mut kernel, "println!(\"hello from a cell\");\n40 + 2", Duration::from_secs(3600)).await;
     assert_eq!(content["status"], "ok", "{content}");
-    assert!(broadcasts.iter().any(|(k, c)| k == "stream" && c["text"].as_str().unwrap_or("").contains("hello from a cell")), "{broadcasts:?}");
+    assert!(
+        broadcasts.iter().any(|(k, c)| k == "stream" && c["text"].as_str().unwrap_or("").contains("hello from a cell")),
+        "{broadcasts:?}"
+    );
     let result = broadcasts.iter().find(|(k, _)| k == "execute_result").expect("execute_result");
     assert_eq!(result.1["data"]["text/plain"], "42");
     assert!(broadcasts.iter().any(|(k, c)| k == "status" && c["execution_state"] == "busy"));
     assert!(broadcasts.iter().any(|(k, _)| k == "execute_input"));
 
     // A compile error, reported in the cell's own line numbers.
-    let (content, broadcasts) = execute(&mut kernel, "let a = 1;\nlet s: i32 = \"text\";", Duration::from_secs(600)).await;
+    let (content, broadcasts) =
+        execute(&mut kernel, "let a = 1;\nlet s: i32 = \"text\";", Duration::from_secs(600)).await;
     assert_eq!(content["status"], "error");
     assert_eq!(content["ename"], "CompileError");
-    let traceback = content["traceback"].as_array().expect("traceback").iter().map(|l| l.as_str().unwrap_or("")).collect::<Vec<_>>().join("\n");
+    let traceback = content["traceback"]
+        .as_array()
+        .expect("traceback")
+        .iter()
+        .map(|l| l.as_str().unwrap_or(""))
+        .collect::<Vec<_>>()
+        .join("\n");
     assert!(traceback.contains("cell line 2"), "{traceback}");
     assert!(broadcasts.iter().any(|(k, _)| k == "error"));
 
@@ -181,7 +197,12 @@ async fn the_kernel_speaks_the_protocol() {
     assert!(!marker.exists(), "a mis-signed request was executed");
 
     // An endless loop stops on interrupt, promptly, and the kernel says what was lost.
-    let (frames, _) = frames_of("execute_request", &kernel.session, json!({ "code": "let keep = 5;\nloop { std::hint::spin_loop(); }", "silent": false }), true);
+    let (frames, _) = frames_of(
+        "execute_request",
+        &kernel.session,
+        json!({ "code": "let keep = 5;\nloop { std::hint::spin_loop(); }", "silent": false }),
+        true,
+    );
     kernel.shell.send(frames).await.expect("send");
     tokio::time::sleep(Duration::from_secs(8)).await;
     let asked = Instant::now();
@@ -189,8 +210,13 @@ async fn the_kernel_speaks_the_protocol() {
     kernel.control.send(frames).await.expect("send");
     let (header, _, _) = reply(&mut kernel.control, Duration::from_secs(10)).await.expect("interrupt_reply");
     assert_eq!(header["msg_type"], "interrupt_reply");
-    let (_, _, content) = reply(&mut kernel.shell, Duration::from_secs(30)).await.expect("execute_reply after interrupt");
-    assert!(asked.elapsed() < Duration::from_secs(2) + Duration::from_millis(500), "interrupt took {:?}", asked.elapsed());
+    let (_, _, content) =
+        reply(&mut kernel.shell, Duration::from_secs(30)).await.expect("execute_reply after interrupt");
+    assert!(
+        asked.elapsed() < Duration::from_secs(2) + Duration::from_millis(500),
+        "interrupt took {:?}",
+        asked.elapsed()
+    );
     assert_eq!(content["status"], "error");
     assert_eq!(content["ename"], "Interrupted");
 

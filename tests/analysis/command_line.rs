@@ -18,12 +18,29 @@ fn run(args: &[&str]) -> Result<String, CommandError> {
 #[test]
 fn json_has_the_documented_fields_and_nist_values() {
     let norris = reference_dir().join("nist-strd").join("Norris.csv");
-    let text = run(&["fit", norris.to_str().expect("utf8"), "--target", "y", "--terms", "x", "--format", "json"]).expect("fit");
+    let text = run(&["fit", norris.to_str().expect("utf8"), "--target", "y", "--terms", "x", "--format", "json"])
+        .expect("fit");
     let doc: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
     for key in [
-        "n_obs", "n_dropped", "model_df", "residual_df", "intercept", "coefficients", "r_squared", "adj_r_squared",
-        "residual_std_error", "f_statistic", "f_p_value", "ss_regression", "ss_residual", "log_likelihood", "aic",
-        "bic", "condition_number", "aliased", "data",
+        "n_obs",
+        "n_dropped",
+        "model_df",
+        "residual_df",
+        "intercept",
+        "coefficients",
+        "r_squared",
+        "adj_r_squared",
+        "residual_std_error",
+        "f_statistic",
+        "f_p_value",
+        "ss_regression",
+        "ss_residual",
+        "log_likelihood",
+        "aic",
+        "bic",
+        "condition_number",
+        "aliased",
+        "data",
     ] {
         assert!(doc.get(key).is_some(), "missing `{key}` in {text}");
     }
@@ -47,7 +64,8 @@ fn json_has_the_documented_fields_and_nist_values() {
 fn filip_through_poly_flag_keeps_certified_digits() {
     // NIST StRD Filip certified values: B0 = -1467.48961422980, B10 = -0.402962525080404E-04.
     let filip = reference_dir().join("nist-strd").join("Filip.csv");
-    let text = run(&["fit", filip.to_str().expect("utf8"), "--target", "y", "--poly", "x:10", "--format", "json"]).expect("fit");
+    let text = run(&["fit", filip.to_str().expect("utf8"), "--target", "y", "--poly", "x:10", "--format", "json"])
+        .expect("fit");
     let doc: serde_json::Value = serde_json::from_str(&text).expect("json");
     let coefs = doc["coefficients"].as_array().expect("array");
     assert_eq!(coefs.len(), 11);
@@ -76,11 +94,16 @@ fn flag_mistakes_are_explained() {
     let path = p.to_str().expect("utf8");
     let m = run(&["fit", path, "--target", "y", "--poly", "x"]).expect_err("bad poly").to_string();
     assert!(m.contains("COL:DEGREE"), "{m}");
-    let m = run(&["fit", path, "--target", "y", "--reference", "d=a"]).expect_err("reference without category").to_string();
+    let m =
+        run(&["fit", path, "--target", "y", "--reference", "d=a"]).expect_err("reference without category").to_string();
     assert!(m.contains("not listed in --category"), "{m}");
-    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--delimiter", ";;"]).expect_err("bad delimiter").to_string();
+    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--delimiter", ";;"])
+        .expect_err("bad delimiter")
+        .to_string();
     assert!(m.contains("one character"), "{m}");
-    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--column-type", "x=weekday"]).expect_err("bad type").to_string();
+    let m = run(&["fit", path, "--target", "y", "--terms", "x", "--column-type", "x=weekday"])
+        .expect_err("bad type")
+        .to_string();
     assert!(m.contains("number, integer, text, date, formatted-number"), "{m}");
 }
 
@@ -93,11 +116,24 @@ fn categories_and_interactions_are_named() {
         "y,x,d\n1,2,North\n2,3,South\n3,5,North\n4,4,South\n5,7,East\n6,6,East\n7,9,North\n9,8,South\n",
     );
     let text = run(&[
-        "fit", p.to_str().expect("utf8"), "--target", "y", "--terms", "x", "--category", "d", "--reference", "d=North",
-        "--interact", "x*d", "--format", "json",
+        "fit",
+        p.to_str().expect("utf8"),
+        "--target",
+        "y",
+        "--terms",
+        "x",
+        "--category",
+        "d",
+        "--reference",
+        "d=North",
+        "--interact",
+        "x*d",
+        "--format",
+        "json",
     ])
     .expect("fit");
     let doc: serde_json::Value = serde_json::from_str(&text).expect("json");
-    let terms: Vec<&str> = doc["coefficients"].as_array().expect("a").iter().map(|c| c["term"].as_str().expect("s")).collect();
+    let terms: Vec<&str> =
+        doc["coefficients"].as_array().expect("a").iter().map(|c| c["term"].as_str().expect("s")).collect();
     assert_eq!(terms, vec!["intercept", "x", "d=East", "d=South", "x*d=East", "x*d=South"]);
 }

@@ -6,7 +6,8 @@ use plumbline::compare::{cross_validate, split_by_cutoff, split_by_fraction, Cro
 use plumbline::prelude::*;
 
 fn norris() -> Frame {
-    load_csv(plumbline_tests::reference_dir().join("nist-strd").join("Norris.csv"), &CsvOptions::default()).expect("Norris")
+    load_csv(plumbline_tests::reference_dir().join("nist-strd").join("Norris.csv"), &CsvOptions::default())
+        .expect("Norris")
 }
 
 fn permuted(frame: &Frame, seed: u64) -> Frame {

@@ -81,7 +81,10 @@ fn all_rows_dropped_says_which_columns() {
     let p = write_file(&dir, "s.csv", "price,area,lot\n100,,1\n200,20,\n,35,3\n");
     let frame = load_csv(&p, &CsvOptions::default()).expect("load");
     let m = message(fit(&frame, &ModelSpec::new("price").numeric("area").numeric("lot")));
-    assert!(m.contains("no rows left") && m.contains("area: 1") && m.contains("lot: 1") && m.contains("price: 1"), "{m}");
+    assert!(
+        m.contains("no rows left") && m.contains("area: 1") && m.contains("lot: 1") && m.contains("price: 1"),
+        "{m}"
+    );
 }
 
 #[test]

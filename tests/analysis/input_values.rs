@@ -43,13 +43,19 @@ fn nan_and_infinity_in_a_used_column_name_the_column_and_line() {
     let p = write_file(&dir, "s.csv", &sales_with_last_row("NaN,inf,1"));
     let frame = load_csv(&p, &CsvOptions::default()).expect("the file loads; the values are refused where used");
     let m = message(fit(&frame, &spec()));
-    assert!(m.contains("`price`") && m.contains("data row 13") && m.contains("file line 14") && m.contains("NaN"), "{m}");
+    assert!(
+        m.contains("`price`") && m.contains("data row 13") && m.contains("file line 14") && m.contains("NaN"),
+        "{m}"
+    );
     assert!(m.contains("--non-finite missing"), "the message names the option: {m}");
 
     for (last, column) in [("5,inf,1", "area"), ("5,-Infinity,1", "area"), ("5,2,-inf", "quality")] {
         let p = write_file(&dir, "t.csv", &sales_with_last_row(last));
         let m = message(fit(&load_csv(&p, &CsvOptions::default()).expect("load"), &spec()));
-        assert!(m.contains(&format!("`{column}`")) && m.contains("file line 14") && m.contains("not a finite number"), "{last}: {m}");
+        assert!(
+            m.contains(&format!("`{column}`")) && m.contains("file line 14") && m.contains("not a finite number"),
+            "{last}: {m}"
+        );
     }
 }
 
@@ -74,7 +80,11 @@ fn non_finite_values_can_be_read_as_missing_and_the_account_says_so() {
     let dropped = &model.design().dropped;
     assert_eq!(dropped.total, 1);
     assert_eq!(dropped.non_finite_by_column, vec![("price".to_string(), 1), ("area".to_string(), 1)]);
-    assert!(dropped.describe().contains("price: 1, of which 1 not finite and read as missing"), "{}", dropped.describe());
+    assert!(
+        dropped.describe().contains("price: 1, of which 1 not finite and read as missing"),
+        "{}",
+        dropped.describe()
+    );
     let summary = model.summary(0.95).expect("summary");
     assert_eq!(summary.non_finite_by_column.len(), 2);
     let report = plumbline::render::fit_text(&model, 0.95).expect("text");
@@ -89,7 +99,11 @@ fn parquet_and_in_memory_frames_follow_the_same_rule() {
     let quality: Vec<f64> = (0..13).map(|i| (i % 3) as f64).collect();
     let mut df = DataFrame::new(
         13,
-        vec![Column::new("price".into(), price), Column::new("area".into(), area), Column::new("quality".into(), quality)],
+        vec![
+            Column::new("price".into(), price),
+            Column::new("area".into(), area),
+            Column::new("quality".into(), quality),
+        ],
     )
     .expect("frame");
     let path = dir.join("s.parquet");
@@ -120,18 +134,25 @@ fn spreadsheet_numbers_are_refused_with_the_option_that_reads_them() {
     let dir = scratch_dir("formatted");
     let body = "price,area\n\"$250,000\",1200\n\"$310,500\",1500\n\"$199,900\",1000\n\"$402,000\",2100\n";
     let p = write_file(&dir, "s.csv", body);
-    let m = message(fit(&load_csv(&p, &CsvOptions::default()).expect("load"), &ModelSpec::new("price").numeric("area")));
+    let m =
+        message(fit(&load_csv(&p, &CsvOptions::default()).expect("load"), &ModelSpec::new("price").numeric("area")));
     assert!(m.contains("`price`") && m.contains("`$250,000`") && m.contains("file line 2"), "{m}");
     assert!(m.contains("--column-type price=formatted-number"), "{m}");
 
     let read = load_csv(&p, &CsvOptions::default().column_type("price", ColumnType::FormattedNumber)).expect("load");
-    assert_eq!(read.numeric_column("price").expect("numbers"), vec![Some(250_000.0), Some(310_500.0), Some(199_900.0), Some(402_000.0)]);
+    assert_eq!(
+        read.numeric_column("price").expect("numbers"),
+        vec![Some(250_000.0), Some(310_500.0), Some(199_900.0), Some(402_000.0)]
+    );
 
     // Thousands separated by spaces, and percentages (read as fractions).
     let p = write_file(&dir, "t.csv", "price,share\n250 000,12.5%\n1 250 000,3%\n");
-    let m = message(fit(&load_csv(&p, &CsvOptions::default()).expect("load"), &ModelSpec::new("price").numeric("share")));
+    let m =
+        message(fit(&load_csv(&p, &CsvOptions::default()).expect("load"), &ModelSpec::new("price").numeric("share")));
     assert!(m.contains("`250 000`") && m.contains("formatted-number"), "{m}");
-    let options = CsvOptions::default().column_type("price", ColumnType::FormattedNumber).column_type("share", ColumnType::FormattedNumber);
+    let options = CsvOptions::default()
+        .column_type("price", ColumnType::FormattedNumber)
+        .column_type("share", ColumnType::FormattedNumber);
     let read = load_csv(&p, &options).expect("load");
     assert_eq!(read.numeric_column("price").expect("numbers"), vec![Some(250_000.0), Some(1_250_000.0)]);
     assert_eq!(read.numeric_column("share").expect("numbers"), vec![Some(0.125), Some(0.03)]);
@@ -148,7 +169,8 @@ fn latin1_files_are_refused_with_line_and_byte_and_read_with_the_option() {
     let dir = scratch_dir("latin1");
     let path = dir.join("s.csv");
     // "Café Row" and "Müller Lane" in ISO 8859-1 (é = 0xE9, ü = 0xFC).
-    std::fs::write(&path, b"price,area,street\n100,10,Caf\xe9 Row\n200,21,M\xfcller Lane\n310,29,Caf\xe9 Row\n").expect("write");
+    std::fs::write(&path, b"price,area,street\n100,10,Caf\xe9 Row\n200,21,M\xfcller Lane\n310,29,Caf\xe9 Row\n")
+        .expect("write");
     let m = message(load_csv(&path, &CsvOptions::default()));
     assert!(m.contains("line 2") && m.contains("column `street`") && m.contains("byte 4") && m.contains("0xE9"), "{m}");
     assert!(m.contains("--encoding windows-1252"), "{m}");
@@ -177,11 +199,17 @@ fn dates_are_read_as_dates_in_iso_and_custom_formats() {
 
     let p = write_file(&dir, "u.csv", "sale_date,price\n29/02/2024,100\n31/02/2025,200\n");
     let m = message(load_csv(&p, &CsvOptions::default().date_format("sale_date", "%d/%m/%Y")));
-    assert!(m.contains("`sale_date`") && m.contains("`31/02/2025`") && m.contains("file line 3") && m.contains("%d/%m/%Y"), "{m}");
+    assert!(
+        m.contains("`sale_date`") && m.contains("`31/02/2025`") && m.contains("file line 3") && m.contains("%d/%m/%Y"),
+        "{m}"
+    );
 
     // A date column used as a number is refused with the date terms named.
     let p = write_file(&dir, "v.csv", "sale_date,price\n2024-01-01,1\n2024-02-01,2\n2024-03-01,4\n");
-    let m = message(fit(&load_csv(&p, &CsvOptions::default()).expect("load"), &ModelSpec::new("price").numeric("sale_date")));
+    let m = message(fit(
+        &load_csv(&p, &CsvOptions::default()).expect("load"),
+        &ModelSpec::new("price").numeric("sale_date"),
+    ));
     assert!(m.contains("holds dates") && m.contains("months_since"), "{m}");
 }
 
@@ -216,12 +244,21 @@ fn months_since_terms_follow_the_hand_computed_calendar() {
     // Days since, year, quarter and month of the year.
     let days = fit(&frame, &ModelSpec::new("price").term(Term::days_since("sale_date", "2023-01-01"))).expect("fit");
     assert_eq!(days.estimated_names()[1], "sale_date (days since 2023-01-01)");
-    let quarters = fit(&frame, &ModelSpec::new("price").term(Term::sale_quarter("sale_date").reference("2023 Q1"))).expect("fit");
+    let quarters =
+        fit(&frame, &ModelSpec::new("price").term(Term::sale_quarter("sale_date").reference("2023 Q1"))).expect("fit");
     let q: Vec<&str> = quarters.estimated_names();
     assert_eq!(q[1..], ["sale_date (quarter)=2024 Q1", "sale_date (quarter)=2024 Q3", "sale_date (quarter)=2025 Q4"]);
-    let months = plumbline::model::build_design(&frame, &ModelSpec::new("price").term(Term::month_of_year("sale_date")), &[]).expect("design");
-    assert!(months.column_names().contains(&"sale_date (month of year)=07 Jul".to_string()), "{:?}", months.column_names());
-    let years = plumbline::model::build_design(&frame, &ModelSpec::new("price").term(Term::sale_year("sale_date")), &[]).expect("design");
+    let months =
+        plumbline::model::build_design(&frame, &ModelSpec::new("price").term(Term::month_of_year("sale_date")), &[])
+            .expect("design");
+    assert!(
+        months.column_names().contains(&"sale_date (month of year)=07 Jul".to_string()),
+        "{:?}",
+        months.column_names()
+    );
+    let years =
+        plumbline::model::build_design(&frame, &ModelSpec::new("price").term(Term::sale_year("sale_date")), &[])
+            .expect("design");
     assert_eq!(years.column_names(), ["intercept", "sale_date (year)=2024", "sale_date (year)=2025"]);
 
     let m = message(fit(&frame, &ModelSpec::new("price").term(Term::months_since("sale_date", "2023-13-01"))));
@@ -257,7 +294,8 @@ fn time_adjustment_and_holdout_take_dates() {
 
     // Subjects valued as of a date.
     let subjects = write_file(&dir, "subjects.csv", "parcel\nA\nB\n");
-    let at = load_csv(&subjects, &CsvOptions::default()).expect("load").with_date("sale_date", "2025-01-01").expect("date");
+    let at =
+        load_csv(&subjects, &CsvOptions::default()).expect("load").with_date("sale_date", "2025-01-01").expect("date");
     let predicted = model.predict(&at, 0.95).expect("predict");
     assert!((predicted.rows[0].estimate - 12.24).abs() < 1e-9, "{}", predicted.rows[0].estimate);
 }

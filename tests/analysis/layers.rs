@@ -78,7 +78,9 @@ fn violations(sources: &[(String, String, String)]) -> Vec<String> {
             }
             match layer_of(&imported) {
                 Some(layer) if layer < own => {}
-                Some(_) => out.push(format!("{module} → {imported} ({file}): imports a module of its own or a higher layer")),
+                Some(_) => {
+                    out.push(format!("{module} → {imported} ({file}): imports a module of its own or a higher layer"))
+                }
                 None => out.push(format!("{module} → {imported} ({file}): {imported} is in no layer")),
             }
         }

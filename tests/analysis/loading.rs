@@ -63,7 +63,8 @@ fn text_override_keeps_leading_zeros() {
 fn override_of_unknown_column_is_reported() {
     let dir = scratch_dir("overridename");
     let p = write_file(&dir, "d.csv", "parcel,price\n1,5\n");
-    let m = load_csv(&p, &CsvOptions::default().column_type("prise", ColumnType::Number)).expect_err("typo").to_string();
+    let m =
+        load_csv(&p, &CsvOptions::default().column_type("prise", ColumnType::Number)).expect_err("typo").to_string();
     assert!(m.contains("`prise`") && m.contains("did you mean `price`"), "{m}");
 }
 

@@ -42,7 +42,9 @@ fn predictions_outside_the_fitted_range_are_flagged() {
     let frame = sales();
     let model = fit(&frame, &ModelSpec::new("price").log_target().numeric("area").numeric("months")).expect("fit");
     let dir = scratch_dir("subjects");
-    let subjects = load_csv(write_file(&dir, "s.csv", "area,months\n1500,6\n9000,6\n1500,30\n"), &CsvOptions::default()).expect("load");
+    let subjects =
+        load_csv(write_file(&dir, "s.csv", "area,months\n1500,6\n9000,6\n1500,30\n"), &CsvOptions::default())
+            .expect("load");
     let p = model.predict(&subjects, 0.95).expect("predict");
     assert!(p.rows[0].outside_range.is_empty());
     assert_eq!(p.rows[1].outside_range, vec!["area"]);
@@ -74,7 +76,8 @@ fn values_at_a_date_keep_each_sales_ratio() {
     let frame = sales();
     let model = fit(&frame, &ModelSpec::new("price").log_target().numeric("area").numeric("months")).expect("fit");
     let at_sale = model_values(&model, &frame, Retransform::Median).expect("values");
-    let at_date = plumbline::value::model_values_at(&model, &frame, "months", 15.0, Retransform::Median).expect("values at");
+    let at_date =
+        plumbline::value::model_values_at(&model, &frame, "months", 15.0, Retransform::Median).expect("values at");
     let adjusted = time_adjust(&model, &frame, "months", "price", 15.0).expect("adjust");
     let prices = frame.numeric_column("price").expect("price");
     for i in 0..frame.height() {

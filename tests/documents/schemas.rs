@@ -12,7 +12,9 @@
 //! the fit document's type.
 
 use clap::Parser;
-use plumbline::documents::{read_comparison, read_fit, read_ratio_study, ComparisonDocument, FitDocument, RatioStudyDocument};
+use plumbline::documents::{
+    read_comparison, read_fit, read_ratio_study, ComparisonDocument, FitDocument, RatioStudyDocument,
+};
 use plumbline::drift::DriftReport;
 use plumbline_kernel::cli::{Cli, Command};
 use plumbline_kernel::commands::{compare, fit, ratio, CommandError};
@@ -70,7 +72,16 @@ fn longley() -> String {
 #[test]
 fn the_fit_document_reads_back_through_its_type_with_every_section() {
     let text = run(&[
-        "fit", &longley(), "--target", "y", "--terms", "x1,x2,x3,x4,x5,x6", "--format", "json", "--diagnose", "--influence",
+        "fit",
+        &longley(),
+        "--target",
+        "y",
+        "--terms",
+        "x1,x2,x3,x4,x5,x6",
+        "--format",
+        "json",
+        "--diagnose",
+        "--influence",
     ])
     .expect("fit");
     let raw: serde_json::Value = serde_json::from_str(&text).expect("JSON");
@@ -87,14 +98,20 @@ fn the_fit_document_reads_back_through_its_type_with_every_section() {
     assert_eq!(parameters.len(), document.summary.coefficients.len());
     for (parameter, row) in parameters.iter().zip(&document.summary.coefficients) {
         let expected = parameter["estimate"]["value"].as_f64().expect("certified estimate");
-        assert!((row.estimate / expected - 1.0).abs() < 1e-11, "{}: {} vs certified {expected}", row.term, row.estimate);
+        assert!(
+            (row.estimate / expected - 1.0).abs() < 1e-11,
+            "{}: {} vs certified {expected}",
+            row.term,
+            row.estimate
+        );
     }
 }
 
 #[test]
 fn the_comparison_document_reads_back_through_its_type() {
-    let text = run(&["compare", &longley(), "--target", "y", "--model", "x1,x2", "--model", "x1,x2,x3", "--format", "json"])
-        .expect("compare");
+    let text =
+        run(&["compare", &longley(), "--target", "y", "--model", "x1,x2", "--model", "x1,x2,x3", "--format", "json"])
+            .expect("compare");
     let raw: serde_json::Value = serde_json::from_str(&text).expect("JSON");
     let document = read_comparison(raw.clone(), "the test").expect("reads as a ComparisonDocument");
     assert_eq!(serde_json::to_value(&document).expect("serializes"), raw);
@@ -114,8 +131,19 @@ fn the_ratio_study_document_reads_back_through_its_type() {
         csv.push_str(&format!("{value},{price},{}\n", if i % 2 == 0 { "north" } else { "south" }));
     }
     let path = plumbline_tests::write_file(&dir, "ratios.csv", &csv);
-    let text = run(&["ratio", path.to_str().expect("utf8"), "--value", "value", "--price", "price", "--group", "area", "--format", "json"])
-        .expect("ratio");
+    let text = run(&[
+        "ratio",
+        path.to_str().expect("utf8"),
+        "--value",
+        "value",
+        "--price",
+        "price",
+        "--group",
+        "area",
+        "--format",
+        "json",
+    ])
+    .expect("ratio");
     let raw: serde_json::Value = serde_json::from_str(&text).expect("JSON");
     assert_eq!(raw["schema"], "plumbline.ratio-study");
     let document = read_ratio_study(raw.clone(), "the test").expect("reads as a RatioStudyDocument");

@@ -9,9 +9,11 @@ use plumbline::plot::{self, PlotSize, ReviewOptions, Svg};
 use plumbline::prelude::*;
 
 fn longley() -> (Frame, Fit) {
-    let frame = load_csv(plumbline_tests::reference_dir().join("nist-strd").join("Longley.csv"), &CsvOptions::default())
-        .expect("Longley");
-    let spec = ModelSpec::new("y").numeric("x1").term(Term::numeric("x2").log()).numeric("x3").numeric("x4").numeric("x6");
+    let frame =
+        load_csv(plumbline_tests::reference_dir().join("nist-strd").join("Longley.csv"), &CsvOptions::default())
+            .expect("Longley");
+    let spec =
+        ModelSpec::new("y").numeric("x1").term(Term::numeric("x2").log()).numeric("x3").numeric("x4").numeric("x6");
     let model = fit(&frame, &spec).expect("fit");
     (frame, model)
 }
@@ -66,7 +68,12 @@ fn residual_charts() {
     // Longley's x6 is the year: a numeric time column, drawn with tier medians.
     let by_year = ReviewOptions::default().time("x6");
     check("over time", || plot::residuals_over_time(&model, &frame, &by_year).expect("draw"), 0.03, 0.5);
-    check("influence", || plot::influence_by_value(&model, &frame, &ReviewOptions::default()).expect("draw"), 0.03, 0.5);
+    check(
+        "influence",
+        || plot::influence_by_value(&model, &frame, &ReviewOptions::default()).expect("draw"),
+        0.03,
+        0.5,
+    );
     check("sheet", || plot::diagnostic_sheet(&model, &frame, &by_year).expect("draw"), 0.05, 0.6);
 }
 
@@ -74,8 +81,10 @@ fn residual_charts() {
 /// of at most 8,000 sq ft, log price on the hedonic terms, district and a
 /// monthly trend, HC3 errors.
 fn demo_study() -> (Frame, Fit) {
-    let sales = load_csv(plumbline_tests::repo_root().join("notebooks-demo/data/sales.csv"), &CsvOptions::default()).expect("demo sales");
-    let arms_length = sales.keep_where_text("sale_type", "arm's-length", |t| t == Some("arms-length")).expect("screen").kept;
+    let sales = load_csv(plumbline_tests::repo_root().join("notebooks-demo/data/sales.csv"), &CsvOptions::default())
+        .expect("demo sales");
+    let arms_length =
+        sales.keep_where_text("sale_type", "arm's-length", |t| t == Some("arms-length")).expect("screen").kept;
     let study = arms_length
         .keep_where_number("living_area", "at most 8,000 sq ft", |a| a.is_none_or(|a| a <= 8000.0))
         .expect("screen")
@@ -98,7 +107,12 @@ fn svg_texts(markup: &str) -> Vec<String> {
     markup
         .split("<text")
         .skip(1)
-        .filter_map(|piece| piece.split_once('>').and_then(|(_, rest)| rest.split_once("</text>")).map(|(text, _)| text.trim().to_string()))
+        .filter_map(|piece| {
+            piece
+                .split_once('>')
+                .and_then(|(_, rest)| rest.split_once("</text>"))
+                .map(|(text, _)| text.trim().to_string())
+        })
         .collect()
 }
 
@@ -112,7 +126,10 @@ fn the_review_sheet_shows_time_location_and_the_flagged_parcels() {
     assert!(texts.iter().any(|t| t == "Miss by sale_date: median of each quarter"), "no time panel: {texts:?}");
     assert!(texts.iter().any(|t| t == "Miss by district"), "no location panel: {texts:?}");
     for district in ["Wickerholm", "Tidewright Quay", "Brambleknot", "Corvel Heights", "Mossgrieve", "Pellowick"] {
-        assert!(texts.iter().any(|t| t.starts_with(&format!("{district} ("))), "district {district} missing from the location panel");
+        assert!(
+            texts.iter().any(|t| t.starts_with(&format!("{district} ("))),
+            "district {district} missing from the location panel"
+        );
     }
     // The labelled parcels are the ones flagged_rows names for Cook's distance
     // above 4/n, most influential first (at most DEFAULT_LABELLED of them).
@@ -127,10 +144,16 @@ fn the_review_sheet_shows_time_location_and_the_flagged_parcels() {
     assert_eq!(expected.len(), plot::DEFAULT_LABELLED, "the demo study has more than five influential sales");
     let drawn: Vec<&String> = texts.iter().filter(|t| t.len() == 9 && t.as_bytes()[2] == b'-').collect();
     assert_eq!(drawn, expected.iter().collect::<Vec<_>>(), "labels drawn on the sheet");
-    assert!(svg.markup.contains(&format!("most influential first): {}.", expected.join(", "))), "the description names them too");
+    assert!(
+        svg.markup.contains(&format!("most influential first): {}.", expected.join(", "))),
+        "the description names them too"
+    );
     // The picture is not blank and renders in an independent SVG renderer.
     let (fraction, w, h) = ink_fraction(&svg);
-    assert!((w, h) == (plot::SHEET_SIZE.width, plot::SHEET_SIZE.height) && fraction > 0.05 && fraction < 0.6, "{fraction} {w}×{h}");
+    assert!(
+        (w, h) == (plot::SHEET_SIZE.width, plot::SHEET_SIZE.height) && fraction > 0.05 && fraction < 0.6,
+        "{fraction} {w}×{h}"
+    );
 }
 
 #[test]
@@ -141,7 +164,9 @@ fn review_charts_refuse_a_frame_that_is_not_the_fitting_one() {
     assert!(e.contains("not the one the model was fitted to"), "{e}");
     let e = plot::residuals_by_group(&model, &frame, &ReviewOptions::default()).expect_err("no category").to_string();
     assert!(e.contains("no category term"), "{e}");
-    let e = plot::residuals_by_group(&model, &frame, &ReviewOptions::default().groups("x9")).expect_err("no such column").to_string();
+    let e = plot::residuals_by_group(&model, &frame, &ReviewOptions::default().groups("x9"))
+        .expect_err("no such column")
+        .to_string();
     assert!(e.contains("x9"), "{e}");
 }
 

@@ -10,7 +10,8 @@ use plumbline::prelude::*;
 use plumbline::render::{fit_csv, fit_markdown, MimeBundle, ProfileReport, Report, FIT_JSON_MIME};
 
 fn longley() -> Frame {
-    load_csv(plumbline_tests::reference_dir().join("nist-strd").join("Longley.csv"), &CsvOptions::default()).expect("Longley")
+    load_csv(plumbline_tests::reference_dir().join("nist-strd").join("Longley.csv"), &CsvOptions::default())
+        .expect("Longley")
 }
 
 /// Replaces what differs between machines and runs (path, load time).
@@ -20,7 +21,8 @@ fn stable(text: &str, frame: &Frame) -> String {
 }
 
 fn full_model(frame: &Frame) -> Fit {
-    fit(frame, &ModelSpec::new("y").numeric("x1").numeric("x2").numeric("x3").numeric("x4").numeric("x5").numeric("x6")).expect("fit")
+    fit(frame, &ModelSpec::new("y").numeric("x1").numeric("x2").numeric("x3").numeric("x4").numeric("x5").numeric("x6"))
+        .expect("fit")
 }
 
 fn check_html(name: &str, html: &str) {
@@ -72,9 +74,13 @@ fn fit_snapshot() {
     check_text("fit", text);
     check_html("fit", html);
     assert!(html.contains("not appraisals"), "the caution is part of every fit report");
-    let json: serde_json::Value = serde_json::from_str(bundle.get(FIT_JSON_MIME).expect("fit json")).expect("valid JSON");
+    let json: serde_json::Value =
+        serde_json::from_str(bundle.get(FIT_JSON_MIME).expect("fit json")).expect("valid JSON");
     assert_eq!(json["schema_version"], plumbline::inference::SUMMARY_SCHEMA_VERSION);
-    assert!(json.get("model_df").is_some() && json.get("residual_df").is_some(), "schema 2 names the degrees of freedom model_df and residual_df");
+    assert!(
+        json.get("model_df").is_some() && json.get("residual_df").is_some(),
+        "schema 2 names the degrees of freedom model_df and residual_df"
+    );
     insta::assert_snapshot!("fit_text", stable(text, &frame));
     insta::assert_snapshot!("fit_html", stable(html, &frame));
 }

@@ -2,12 +2,17 @@
 
 use super::seeded_order;
 use crate::data::{dates, Frame};
-use polars::prelude::DataType;
 use crate::error::{Error, Result};
+use polars::prelude::DataType;
 
 /// Splits off a seeded `test_fraction` of the rows (order-independent, see
 /// [`super`]). Returns `(training, test)`, each in file order.
-pub fn split_by_fraction(frame: &Frame, test_fraction: f64, seed: u64, id_column: Option<&str>) -> Result<(Frame, Frame)> {
+pub fn split_by_fraction(
+    frame: &Frame,
+    test_fraction: f64,
+    seed: u64,
+    id_column: Option<&str>,
+) -> Result<(Frame, Frame)> {
     if !(test_fraction > 0.0 && test_fraction < 1.0) {
         return Err(Error::OutOfRange {
             what: "the test fraction".into(),
@@ -59,5 +64,8 @@ pub fn split_by_cutoff(frame: &Frame, column: &str, cutoff: &str) -> Result<(Fra
             test.len()
         )));
     }
-    Ok((frame.subset(&train, &format!("{column} before {cutoff}"))?, frame.subset(&test, &format!("{column} from {cutoff}"))?))
+    Ok((
+        frame.subset(&train, &format!("{column} before {cutoff}"))?,
+        frame.subset(&test, &format!("{column} from {cutoff}"))?,
+    ))
 }

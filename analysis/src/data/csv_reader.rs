@@ -31,8 +31,8 @@ use super::values::{number_hint, parse_formatted_number, NonFinite};
 use super::{Frame, Provenance};
 use crate::error::{Error, Result};
 use polars::prelude::{
-    ChunkedBuilder, Column, DataFrame, Float64Type, Int32Type, Int64Type, IntoColumn, IntoSeries, PrimitiveChunkedBuilder,
-    StringChunkedBuilder,
+    ChunkedBuilder, Column, DataFrame, Float64Type, Int32Type, Int64Type, IntoColumn, IntoSeries,
+    PrimitiveChunkedBuilder, StringChunkedBuilder,
 };
 use sha2::{Digest, Sha256};
 use std::collections::BTreeMap;
@@ -213,7 +213,9 @@ fn read_in_two_stages(
                 let mut batch = empty_rx.try_recv().unwrap_or_default();
                 batch.resize_with(BATCH_RECORDS, csv::ByteRecord::new);
                 let mut filled = 0;
-                while filled < BATCH_RECORDS && csv.read_byte_record(&mut batch[filled]).map_err(|e| malformed(&splitter_path, &e))? {
+                while filled < BATCH_RECORDS
+                    && csv.read_byte_record(&mut batch[filled]).map_err(|e| malformed(&splitter_path, &e))?
+                {
                     filled += 1;
                 }
                 let last = filled < BATCH_RECORDS;
@@ -292,7 +294,10 @@ fn read_header(path: &Path, options: &CsvOptions) -> Result<HeaderRead> {
     let (names, pending_first) = if options.has_header {
         let mut names = Vec::with_capacity(record.len());
         for (i, field) in record.iter().enumerate() {
-            let text = options.encoding.decode(field).map_err(|bad| not_utf8(path, line, &format!("header field {}", i + 1), &bad))?;
+            let text = options
+                .encoding
+                .decode(field)
+                .map_err(|bad| not_utf8(path, line, &format!("header field {}", i + 1), &bad))?;
             names.push(text.trim().to_string());
         }
         (names, None)
@@ -373,7 +378,12 @@ impl ReadContext<'_> {
             return Ok(());
         }
         if record.len() != columns.len() {
-            return Err(Error::CsvRagged { path: self.path.to_path_buf(), line, expected: columns.len(), found: record.len() });
+            return Err(Error::CsvRagged {
+                path: self.path.to_path_buf(),
+                line,
+                expected: columns.len(),
+                found: record.len(),
+            });
         }
         let row = lines.len();
         for (index, (column, field)) in columns.iter_mut().zip(record.iter()).enumerate() {
@@ -407,8 +417,10 @@ impl ReadContext<'_> {
 
     /// Reads the columns at `indices` again, as text (second pass).
     fn reread_as_text(&self, indices: &[usize], columns: &mut [ColumnBuilder]) -> Result<()> {
-        let mut builders: Vec<(usize, StringChunkedBuilder)> =
-            indices.iter().map(|&i| (i, StringChunkedBuilder::new(self.names[i].as_str().into(), INITIAL_CAPACITY))).collect();
+        let mut builders: Vec<(usize, StringChunkedBuilder)> = indices
+            .iter()
+            .map(|&i| (i, StringChunkedBuilder::new(self.names[i].as_str().into(), INITIAL_CAPACITY)))
+            .collect();
         let mut reader = read_header(self.path, self.options)?;
         let mut push = |record: &csv::ByteRecord| {
             if is_blank(record, columns.len()) {
@@ -442,7 +454,9 @@ const INITIAL_CAPACITY: usize = 1024;
 /// One column being filled, in the narrowest type its values so far allow.
 enum ColumnBuilder {
     /// Only missing values so far (their count); type undecided.
-    Undecided { missing: usize },
+    Undecided {
+        missing: usize,
+    },
     Integer(PrimitiveChunkedBuilder<Int64Type>),
     Number(PrimitiveChunkedBuilder<Float64Type>),
     Date(PrimitiveChunkedBuilder<Int32Type>),
@@ -451,7 +465,11 @@ enum ColumnBuilder {
     PendingText,
     /// A type fixed by the user: every value must parse as it, or loading
     /// fails at that line. `format` is the date format of a date column.
-    Forced { ty: ColumnType, format: String, builder: Box<ColumnBuilder> },
+    Forced {
+        ty: ColumnType,
+        format: String,
+        builder: Box<ColumnBuilder>,
+    },
 }
 
 impl ColumnBuilder {
@@ -459,7 +477,9 @@ impl ColumnBuilder {
         let field = name.into();
         let builder = match ty {
             ColumnType::Integer => Self::Integer(PrimitiveChunkedBuilder::new(field, INITIAL_CAPACITY)),
-            ColumnType::Number | ColumnType::FormattedNumber => Self::Number(PrimitiveChunkedBuilder::new(field, INITIAL_CAPACITY)),
+            ColumnType::Number | ColumnType::FormattedNumber => {
+                Self::Number(PrimitiveChunkedBuilder::new(field, INITIAL_CAPACITY))
+            }
             ColumnType::Date => Self::Date(PrimitiveChunkedBuilder::new(field, INITIAL_CAPACITY)),
             ColumnType::Text => Self::Text(StringChunkedBuilder::new(field, INITIAL_CAPACITY)),
         };
@@ -607,11 +627,15 @@ fn push_forced(
         hint: number_hint(name, text),
     };
     match builder {
-        ColumnBuilder::Integer(b) => b.append_option(value.map(|t| t.parse::<i64>().map_err(|_| not_numeric(t))).transpose()?),
+        ColumnBuilder::Integer(b) => {
+            b.append_option(value.map(|t| t.parse::<i64>().map_err(|_| not_numeric(t))).transpose()?)
+        }
         ColumnBuilder::Number(b) if ty == ColumnType::FormattedNumber => {
             b.append_option(value.map(|t| parse_formatted_number(t).ok_or_else(|| not_numeric(t))).transpose()?)
         }
-        ColumnBuilder::Number(b) => b.append_option(value.map(|t| parse_f64(t.as_bytes()).ok_or_else(|| not_numeric(t))).transpose()?),
+        ColumnBuilder::Number(b) => {
+            b.append_option(value.map(|t| parse_f64(t.as_bytes()).ok_or_else(|| not_numeric(t))).transpose()?)
+        }
         ColumnBuilder::Date(b) => {
             let parsed = value.map(|t| {
                 parse_date(t, format).map(to_epoch_days).ok_or_else(|| Error::BadDate {

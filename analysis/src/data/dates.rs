@@ -43,7 +43,8 @@ pub fn parse_iso_date(text: &str) -> Option<NaiveDate> {
     if b.len() != 10 || b[4] != b'-' || b[7] != b'-' {
         return None;
     }
-    let number = |s: &[u8]| s.iter().try_fold(0u32, |acc, &c| c.is_ascii_digit().then(|| acc * 10 + u32::from(c - b'0')));
+    let number =
+        |s: &[u8]| s.iter().try_fold(0u32, |acc, &c| c.is_ascii_digit().then(|| acc * 10 + u32::from(c - b'0')));
     NaiveDate::from_ymd_opt(number(&b[0..4])? as i32, number(&b[5..7])?, number(&b[8..10])?)
 }
 
@@ -70,7 +71,8 @@ pub fn from_epoch_days(days: i32) -> Option<NaiveDate> {
 /// Days in the month of `date` (28–31, Gregorian leap years).
 pub fn days_in_month(date: NaiveDate) -> u32 {
     let (y, m) = (date.year(), date.month());
-    let first_of_next = if m == 12 { NaiveDate::from_ymd_opt(y + 1, 1, 1) } else { NaiveDate::from_ymd_opt(y, m + 1, 1) };
+    let first_of_next =
+        if m == 12 { NaiveDate::from_ymd_opt(y + 1, 1, 1) } else { NaiveDate::from_ymd_opt(y, m + 1, 1) };
     let first = NaiveDate::from_ymd_opt(y, m, 1);
     match (first, first_of_next) {
         (Some(a), Some(b)) => (b - a).num_days() as u32,

@@ -75,14 +75,16 @@ pub fn profile(frame: &Frame) -> Result<Vec<ColumnProfile>> {
                 ..base
             }
         } else if dtype == DataType::Date {
-            let mut dates: Vec<chrono::NaiveDate> = frame.date_column(&name).unwrap_or_default().into_iter().flatten().collect();
+            let mut dates: Vec<chrono::NaiveDate> =
+                frame.date_column(&name).unwrap_or_default().into_iter().flatten().collect();
             dates.sort_unstable();
             let iso = |d: Option<&chrono::NaiveDate>| d.map(|d| d.format(super::dates::ISO_DATE_FORMAT).to_string());
             let (earliest, latest) = (iso(dates.first()), iso(dates.last()));
             dates.dedup();
             ColumnProfile { distinct: dates.len(), earliest, latest, ..base }
         } else {
-            let labels = if dtype == DataType::Null { Vec::new() } else { frame.label_column(&name).unwrap_or_default() };
+            let labels =
+                if dtype == DataType::Null { Vec::new() } else { frame.label_column(&name).unwrap_or_default() };
             let mut counts: BTreeMap<String, usize> = BTreeMap::new();
             for label in labels.into_iter().flatten() {
                 *counts.entry(label).or_default() += 1;
@@ -96,4 +98,3 @@ pub fn profile(frame: &Frame) -> Result<Vec<ColumnProfile>> {
     }
     Ok(out)
 }
-

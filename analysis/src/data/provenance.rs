@@ -25,13 +25,7 @@ pub struct Provenance {
 impl Provenance {
     /// Stamps bytes read from `path`.
     pub fn for_file(path: &std::path::Path, bytes: &[u8], rows: usize, cols: usize) -> Self {
-        Self {
-            path: path.display().to_string(),
-            sha256: sha256_hex(bytes),
-            rows,
-            cols,
-            loaded_at: now_utc(),
-        }
+        Self { path: path.display().to_string(), sha256: sha256_hex(bytes), rows, cols, loaded_at: now_utc() }
     }
 
     /// Stamps a file whose bytes were hashed while they were streamed.

@@ -46,7 +46,8 @@ impl Frame {
     pub fn keep_where_number(&self, column: &str, rule: &str, keep: impl Fn(Option<f64>) -> bool) -> Result<Screen> {
         let values = self.numeric_column(column)?;
         let passes: Vec<bool> = values.iter().map(|v| keep(*v)).collect();
-        let shown: Vec<String> = values.iter().map(|v| v.map(|x| x.to_string()).unwrap_or_else(|| "missing".into())).collect();
+        let shown: Vec<String> =
+            values.iter().map(|v| v.map(|x| x.to_string()).unwrap_or_else(|| "missing".into())).collect();
         self.screen(column, rule, &passes, &shown)
     }
 

@@ -55,7 +55,11 @@ impl TextEncoding {
         match self {
             TextEncoding::Utf8 => std::str::from_utf8(field).map(Cow::Borrowed).map_err(|e| {
                 let at = e.valid_up_to();
-                InvalidUtf8 { byte_in_field: at + 1, byte: field[at], preview: String::from_utf8_lossy(field).into_owned() }
+                InvalidUtf8 {
+                    byte_in_field: at + 1,
+                    byte: field[at],
+                    preview: String::from_utf8_lossy(field).into_owned(),
+                }
             }),
             TextEncoding::Latin1 => Ok(Cow::Owned(field.iter().map(|&b| char::from(b)).collect())),
             TextEncoding::Windows1252 => Ok(encoding_rs::WINDOWS_1252.decode_without_bom_handling(field).0),

@@ -126,7 +126,10 @@ fn ungroup(integer: &str) -> Option<String> {
 /// hint to add to the refusal (`None` when nothing suggests it).
 pub(crate) fn number_hint(column: &str, text: &str) -> Option<String> {
     let trimmed = text.trim();
-    if trimmed.starts_with('#') && trimmed.len() > 1 && trimmed[1..].chars().all(|c| c.is_ascii_uppercase() || "/0!?".contains(c)) {
+    if trimmed.starts_with('#')
+        && trimmed.len() > 1
+        && trimmed[1..].chars().all(|c| c.is_ascii_uppercase() || "/0!?".contains(c))
+    {
         return Some(format!(
             "`{trimmed}` is a spreadsheet error value; mark it missing with the null marker `{trimmed}` (`--null '{trimmed}'`)"
         ));

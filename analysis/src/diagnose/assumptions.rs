@@ -73,7 +73,12 @@ impl Fit {
         let data = weighted_rows(&self.design, &self.solution);
         let k = self.solution.kept.len();
         let mut columns: Vec<DesignColumn> = (0..k)
-            .map(|a| column(self.design.columns[self.solution.kept[a]].name.as_str(), data.rows.iter().map(|r| r[a]).collect()))
+            .map(|a| {
+                column(
+                    self.design.columns[self.solution.kept[a]].name.as_str(),
+                    data.rows.iter().map(|r| r[a]).collect(),
+                )
+            })
             .collect();
         let has_constant = columns.iter().any(|c| c.hi.iter().all(|v| *v == c.hi[0]) && c.hi[0] != 0.0);
         if !has_constant {
@@ -240,7 +245,8 @@ impl Fit {
     pub fn reset_test(&self) -> TestResult {
         let n = self.design.n_rows();
         let fitted: Vec<f64> = (0..n).map(|i| self.design.target[i] - self.solution.residuals[i]).collect();
-        let mut columns: Vec<DesignColumn> = self.solution.kept.iter().map(|&j| self.design.columns[j].clone()).collect();
+        let mut columns: Vec<DesignColumn> =
+            self.solution.kept.iter().map(|&j| self.design.columns[j].clone()).collect();
         columns.push(column("fitted^2", fitted.iter().map(|v| v * v).collect()));
         columns.push(column("fitted^3", fitted.iter().map(|v| v * v * v).collect()));
         let tolerance = crate::fit::default_rank_tolerance(n, columns.len());

@@ -92,7 +92,11 @@ impl Fit {
                 Ok(eigen) => {
                     let max = eigen.iter().cloned().fold(0.0, f64::max);
                     let min = eigen.iter().cloned().fold(f64::INFINITY, f64::min);
-                    if min > 0.0 { (max / min).sqrt() } else { f64::INFINITY }
+                    if min > 0.0 {
+                        (max / min).sqrt()
+                    } else {
+                        f64::INFINITY
+                    }
                 }
                 Err(_) => f64::NAN,
             }
@@ -108,7 +112,12 @@ impl Fit {
             let det_out = if outside.is_empty() { 1.0 } else { correlation(&outside).determinant() };
             let gvif = det_in * det_out / det_all;
             let df = inside.len();
-            terms.push(TermVif { term: span.label.clone(), df, gvif, interval_widening: gvif.powf(1.0 / (2.0 * df as f64)) });
+            terms.push(TermVif {
+                term: span.label.clone(),
+                df,
+                gvif,
+                interval_widening: gvif.powf(1.0 / (2.0 * df as f64)),
+            });
         }
 
         // Condition indices of the unit-length-scaled design (intercept included).
@@ -119,7 +128,11 @@ impl Fit {
             .map(|&j| columns[j].hi.iter().zip(&root_w).map(|(v, r)| (v * r).powi(2)).sum::<f64>().sqrt())
             .collect();
         let scaled = Mat::<f64>::from_fn(n, kept.len(), |i, a| {
-            if norms[a] > 0.0 { columns[kept[a]].hi[i] * root_w[i] / norms[a] } else { 0.0 }
+            if norms[a] > 0.0 {
+                columns[kept[a]].hi[i] * root_w[i] / norms[a]
+            } else {
+                0.0
+            }
         });
         let mut indices = match scaled.singular_values() {
             Ok(s) => {
@@ -129,6 +142,11 @@ impl Fit {
             Err(_) => Vec::new(),
         };
         indices.sort_by(f64::total_cmp);
-        Collinearity { terms, condition_number: self.solution.condition_number, condition_indices: indices, centered_condition_number }
+        Collinearity {
+            terms,
+            condition_number: self.solution.condition_number,
+            condition_indices: indices,
+            centered_condition_number,
+        }
     }
 }

@@ -74,7 +74,8 @@ impl Fit {
         let influence = self.influence();
         let n = influence.rows.len();
         let k = self.solution.kept.len();
-        let (studentized_cutoff, leverage_cutoff, cooks_cutoff) = (STUDENTIZED_CUTOFF, leverage_cutoff(k, n), cooks_cutoff(n));
+        let (studentized_cutoff, leverage_cutoff, cooks_cutoff) =
+            (STUDENTIZED_CUTOFF, leverage_cutoff(k, n), cooks_cutoff(n));
         let mut rows: Vec<FlaggedRow> = influence
             .rows
             .iter()
@@ -101,7 +102,10 @@ impl Fit {
             })
             .collect();
         rows.sort_by(|a, b| {
-            b.cooks_distance.unwrap_or(f64::INFINITY).total_cmp(&a.cooks_distance.unwrap_or(f64::INFINITY)).then(a.row.cmp(&b.row))
+            b.cooks_distance
+                .unwrap_or(f64::INFINITY)
+                .total_cmp(&a.cooks_distance.unwrap_or(f64::INFINITY))
+                .then(a.row.cmp(&b.row))
         });
         Ok(RowFlags { studentized_cutoff, leverage_cutoff, cooks_cutoff, rows })
     }

@@ -67,7 +67,8 @@ impl Fit {
             let hi = h[i];
             let one_minus = 1.0 - hi;
             let defined = one_minus > 1e-10 && s > 0.0;
-            let deleted_var = if defined && df > 1.0 { ((df * s2 - e * e / one_minus) / (df - 1.0)).max(0.0) } else { f64::NAN };
+            let deleted_var =
+                if defined && df > 1.0 { ((df * s2 - e * e / one_minus) / (df - 1.0)).max(0.0) } else { f64::NAN };
             let s_i = deleted_var.sqrt();
             let standardized = defined.then(|| e / (s * one_minus.sqrt()));
             let studentized = (defined && s_i > 0.0).then(|| e / (s_i * one_minus.sqrt()));

@@ -86,9 +86,14 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
     let p = design.columns.len();
     let tolerance = options.rank_tolerance.unwrap_or_else(|| default_rank_tolerance(n, p));
     if !(tolerance > 0.0 && tolerance < 1.0) {
-        return Err(Error::OutOfRange { what: "the rank tolerance".into(), requirement: "in (0, 1)".into(), value: tolerance.to_string() });
+        return Err(Error::OutOfRange {
+            what: "the rank tolerance".into(),
+            requirement: "in (0, 1)".into(),
+            value: tolerance.to_string(),
+        });
     }
-    let solution = solver::solve(&design.columns, &design.target, design.weights.as_deref(), options.precision, tolerance);
+    let solution =
+        solver::solve(&design.columns, &design.target, design.weights.as_deref(), options.precision, tolerance);
     if solution.kept.is_empty() {
         return Err(Error::SingularDesign { detail: "every design column is zero on the rows used".into() });
     }
@@ -96,7 +101,8 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
         return Err(Error::TooFewRows { rows: n, columns: solution.kept.len() });
     }
 
-    let (covariance, cluster_count) = estimate_covariance(&design, &solution, &options.covariance, frame, cluster_column)?;
+    let (covariance, cluster_count) =
+        estimate_covariance(&design, &solution, &options.covariance, frame, cluster_column)?;
     Ok(Fit {
         design,
         solution,
@@ -225,7 +231,8 @@ impl Fit {
             }
             _ => None,
         };
-        let (covariance, cluster_count) = estimate_covariance(&self.design, &self.solution, &kind, frame, cluster_column)?;
+        let (covariance, cluster_count) =
+            estimate_covariance(&self.design, &self.solution, &kind, frame, cluster_column)?;
         Ok(Fit { covariance, covariance_kind: kind, cluster_count, ..self.clone() })
     }
 

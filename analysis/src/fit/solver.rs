@@ -25,14 +25,14 @@
 //! excluded from the fit and named in its result; the remaining columns are
 //! refitted alone, so the reported coefficients are those of the reduced model.
 
-use serde::{Deserialize, Serialize};
 use super::Precision;
+use crate::model::DesignColumn;
 use crate::numeric::dd_qr;
 use crate::numeric::equilibrate::power_of_two_scale;
 use crate::numeric::DoubleDouble;
-use crate::model::DesignColumn;
 use faer::linalg::solvers::SolveLstsq;
 use faer::Mat;
+use serde::{Deserialize, Serialize};
 
 /// Which algorithm produced a solution.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -76,7 +76,13 @@ pub fn default_rank_tolerance(n: usize, p: usize) -> f64 {
 }
 
 /// Solves `min ‖W^½ (y − X b)‖₂` over the design columns.
-pub fn solve(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, precision: Precision, tolerance: f64) -> Solution {
+pub fn solve(
+    columns: &[DesignColumn],
+    y: &[f64],
+    weights: Option<&[f64]>,
+    precision: Precision,
+    tolerance: f64,
+) -> Solution {
     let n = y.len();
     let p = columns.len();
     let work = (n as f64) * (p as f64) * (p as f64);
@@ -189,7 +195,11 @@ fn condition_from_r(r: &[Vec<DoubleDouble>]) -> f64 {
         Ok(s) => {
             let max = s.iter().cloned().fold(0.0, f64::max);
             let min = s.iter().cloned().fold(f64::INFINITY, f64::min);
-            if min > 0.0 { max / min } else { f64::INFINITY }
+            if min > 0.0 {
+                max / min
+            } else {
+                f64::INFINITY
+            }
         }
         Err(_) => f64::NAN,
     }
@@ -239,7 +249,9 @@ fn solve_double(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, to
     let root_w = root_weights(weights, n);
     let root_w_f64: Vec<f64> = root_w.iter().map(|v| v.to_f64()).collect();
     let scales = column_scales(columns, &root_w);
-    let build = |set: &[usize]| Mat::<f64>::from_fn(n, set.len(), |i, k| columns[set[k]].hi[i] * root_w_f64[i] * scales[set[k]]);
+    let build = |set: &[usize]| {
+        Mat::<f64>::from_fn(n, set.len(), |i, k| columns[set[k]].hi[i] * root_w_f64[i] * scales[set[k]])
+    };
 
     // First pass: rank.
     let all: Vec<usize> = (0..columns.len()).collect();
@@ -261,13 +273,15 @@ fn solve_double(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, to
     let forward: Vec<usize> = qr.P().arrays().0.to_vec();
     let rhs = Mat::<f64>::from_fn(n, 1, |i, _| y[i] * root_w_f64[i]);
     let first = qr.solve_lstsq(&rhs);
-    let mut b: Vec<DoubleDouble> = (0..kept.len()).map(|k| DoubleDouble::from(first[(k, 0)] * scales[kept[k]])).collect();
+    let mut b: Vec<DoubleDouble> =
+        (0..kept.len()).map(|k| DoubleDouble::from(first[(k, 0)] * scales[kept[k]])).collect();
 
     // Iterative refinement with double-double residuals. A well-conditioned
     // problem is converged after one step; an ill-conditioned one gets up to three.
     let r_first = qr.R();
     let diagonal: Vec<f64> = (0..kept.len()).map(|k| r_first[(k, k)].abs()).collect();
-    let rough_condition = diagonal.iter().cloned().fold(0.0, f64::max) / diagonal.iter().cloned().fold(f64::INFINITY, f64::min);
+    let rough_condition =
+        diagonal.iter().cloned().fold(0.0, f64::max) / diagonal.iter().cloned().fold(f64::INFINITY, f64::min);
     let max_steps = if rough_condition < 1e5 { 1 } else { 3 };
     let mut steps = 0;
     let mut r = residuals_dd(columns, &kept, &b, y);
@@ -292,8 +306,11 @@ fn solve_double(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, to
     // Covariance from R of the kept columns.
     let rank = kept.len();
     let r_mat = qr.R();
-    let r_dd: Vec<Vec<DoubleDouble>> =
-        (0..rank).map(|i| (0..rank).map(|j| if j >= i { DoubleDouble::from(r_mat[(i, j)]) } else { DoubleDouble::ZERO }).collect()).collect();
+    let r_dd: Vec<Vec<DoubleDouble>> = (0..rank)
+        .map(|i| {
+            (0..rank).map(|j| if j >= i { DoubleDouble::from(r_mat[(i, j)]) } else { DoubleDouble::ZERO }).collect()
+        })
+        .collect();
     // forward[pos] = index (within `kept`) of the column at pivot position pos.
     let pivot_of_kept: Vec<usize> = (0..rank).map(|k| forward.iter().position(|&x| x == k).unwrap_or(0)).collect();
     let kept_scales: Vec<f64> = kept.iter().map(|&j| scales[j]).collect();

@@ -3,8 +3,8 @@
 use super::encode::{learn, GeneratedColumn, RowValues, TermEncoding};
 use super::spec::{DatePart, ModelSpec, TargetTransform, Term};
 use crate::data::{dates, Frame};
-use chrono::NaiveDate;
 use crate::error::{Error, Result};
+use chrono::NaiveDate;
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
 
@@ -195,7 +195,9 @@ fn read_labels(frame: &Frame, source: &ValueSource) -> Result<Vec<Option<String>
                 DatePart::Year => dates::year_label,
                 DatePart::Quarter => dates::quarter_label,
                 DatePart::MonthOfYear => dates::month_of_year_label,
-                DatePart::MonthsSince(_) | DatePart::DaysSince(_) => unreachable!("numeric date parts are read as numbers"),
+                DatePart::MonthsSince(_) | DatePart::DaysSince(_) => {
+                    unreachable!("numeric date parts are read as numbers")
+                }
             };
             Ok(frame.date_column(column)?.into_iter().map(|d| d.map(label)).collect())
         }
@@ -300,7 +302,8 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
         return Err(Error::AllRowsDropped { detail: complete.dropped.describe() });
     }
     let line_of = |row: usize| frame.source_line(row);
-    let values = RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
+    let values =
+        RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
 
     // Target.
     let mut target = complete.numbers[spec.target()].clone();
@@ -326,7 +329,12 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
             let ws = complete.numbers[w].clone();
             if let Some((i, &v)) = ws.iter().enumerate().find(|(_, v)| !(v.is_finite() && **v > 0.0)) {
                 let row = complete.rows[i];
-                return Err(Error::BadWeight { column: w.into(), row: row + 1, line: frame.source_line(row), value: v });
+                return Err(Error::BadWeight {
+                    column: w.into(),
+                    row: row + 1,
+                    line: frame.source_line(row),
+                    value: v,
+                });
             }
             Some(ws)
         }
@@ -345,14 +353,20 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
     let (columns, term_spans) = assemble_columns(spec, &encodings, &values, complete.rows.len())?;
     let column_names: Vec<String> = columns.iter().map(|c| c.name.clone()).collect();
     if let Some(dup) = column_names.iter().enumerate().find(|(i, n)| column_names[..*i].contains(n)).map(|(_, n)| n) {
-        return Err(Error::Specification(format!("the design column `{dup}` is generated twice; remove the repeated term")));
+        return Err(Error::Specification(format!(
+            "the design column `{dup}` is generated twice; remove the repeated term"
+        )));
     }
     let numeric_ranges = ValueReads::of_terms(spec.terms())
         .numbers
         .keys()
         .map(|c| {
             let v = &complete.numbers[c];
-            (c.clone(), v.iter().cloned().fold(f64::INFINITY, f64::min), v.iter().cloned().fold(f64::NEG_INFINITY, f64::max))
+            (
+                c.clone(),
+                v.iter().cloned().fold(f64::INFINITY, f64::min),
+                v.iter().cloned().fold(f64::NEG_INFINITY, f64::max),
+            )
         })
         .collect();
     let recipe = DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans, numeric_ranges };
@@ -362,7 +376,10 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
 fn check_degrees(terms: &[Term]) -> Result<()> {
     for term in terms {
         match term {
-            Term::Numeric { transform: super::Transform::Polynomial(d) | super::Transform::OrthogonalPolynomial(d), column } if *d == 0 || *d > 20 => {
+            Term::Numeric {
+                transform: super::Transform::Polynomial(d) | super::Transform::OrthogonalPolynomial(d),
+                column,
+            } if *d == 0 || *d > 20 => {
                 return Err(Error::OutOfRange {
                     what: format!("the polynomial degree of `{column}`"),
                     requirement: "between 1 and 20".into(),
@@ -376,7 +393,12 @@ fn check_degrees(terms: &[Term]) -> Result<()> {
     Ok(())
 }
 
-fn assemble_columns(spec: &ModelSpec, encodings: &[TermEncoding], values: &RowValues, n: usize) -> Result<(Vec<DesignColumn>, Vec<TermSpan>)> {
+fn assemble_columns(
+    spec: &ModelSpec,
+    encodings: &[TermEncoding],
+    values: &RowValues,
+    n: usize,
+) -> Result<(Vec<DesignColumn>, Vec<TermSpan>)> {
     let mut columns = Vec::new();
     let mut spans = Vec::with_capacity(encodings.len());
     if spec.has_intercept() {
@@ -401,7 +423,8 @@ impl DesignRecipe {
         let order: Vec<String> = self.spec.terms().iter().flat_map(|t| t.columns()).map(str::to_string).collect();
         let complete = complete_rows(frame, &reads, &order)?;
         let line_of = |row: usize| frame.source_line(row);
-        let values = RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
+        let values =
+            RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
         let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
         Ok(AppliedDesign { columns, rows: complete.rows, numbers: complete.numbers })
     }

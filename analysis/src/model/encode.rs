@@ -143,7 +143,11 @@ pub fn learn(term: &Term, values: &RowValues, full_coding: bool) -> Result<TermE
                 Transform::Center | Transform::Standardize => {
                     let (mean, sd) = mean_and_sd(x);
                     if *transform == Transform::Standardize && !(sd > 0.0) {
-                        return Err(Error::ConstantColumn { column: column.clone(), value: mean, action: "standardized".into() });
+                        return Err(Error::ConstantColumn {
+                            column: column.clone(),
+                            value: mean,
+                            action: "standardized".into(),
+                        });
                     }
                     NumericParams::Moments { mean, sd }
                 }
@@ -166,7 +170,11 @@ pub fn learn(term: &Term, values: &RowValues, full_coding: bool) -> Result<TermE
                 match reference {
                     Some(r) if counts.contains_key(r.as_str()) => Some(r.clone()),
                     Some(r) => {
-                        return Err(Error::UnknownLevel { column: column.clone(), level: r.clone(), levels: all_levels })
+                        return Err(Error::UnknownLevel {
+                            column: column.clone(),
+                            level: r.clone(),
+                            levels: all_levels,
+                        })
                     }
                     None => {
                         let mut best: Option<(&String, usize)> = None;
@@ -228,7 +236,12 @@ impl TermEncoding {
     }
 }
 
-fn numeric_columns(column: &str, transform: Transform, params: &NumericParams, values: &RowValues) -> Result<Vec<GeneratedColumn>> {
+fn numeric_columns(
+    column: &str,
+    transform: Transform,
+    params: &NumericParams,
+    values: &RowValues,
+) -> Result<Vec<GeneratedColumn>> {
     let x = values.numbers(column);
     Ok(match (transform, params) {
         (Transform::Identity, _) => vec![GeneratedColumn::from_f64(column.to_string(), x.to_vec())],
@@ -261,7 +274,10 @@ fn numeric_columns(column: &str, transform: Transform, params: &NumericParams, v
             vec![GeneratedColumn::from_dd(format!("{column} (centred)"), centered)]
         }
         (Transform::Standardize, NumericParams::Moments { mean, sd }) => {
-            let z = x.iter().map(|&v| (DoubleDouble::from(v) - DoubleDouble::from(*mean)) / DoubleDouble::from(*sd)).collect();
+            let z = x
+                .iter()
+                .map(|&v| (DoubleDouble::from(v) - DoubleDouble::from(*mean)) / DoubleDouble::from(*sd))
+                .collect();
             vec![GeneratedColumn::from_dd(format!("{column} (standardized)"), z)]
         }
         (Transform::Polynomial(degree), _) => (1..=degree)
@@ -276,7 +292,10 @@ fn numeric_columns(column: &str, transform: Transform, params: &NumericParams, v
             let mut out = Vec::with_capacity(degree as usize);
             for k in 0..degree as usize {
                 let next: Vec<DoubleDouble> = (0..x.len())
-                    .map(|i| (DoubleDouble::from(x[i]) - DoubleDouble::from(alpha[k])) * current[i] - previous[i].mul_f64(beta[k]))
+                    .map(|i| {
+                        (DoubleDouble::from(x[i]) - DoubleDouble::from(alpha[k])) * current[i]
+                            - previous[i].mul_f64(beta[k])
+                    })
                     .collect();
                 let scaled = next.iter().map(|v| *v / DoubleDouble::from(norms[k + 1])).collect();
                 out.push(GeneratedColumn::from_dd(format!("{column} (orthogonal {})", k + 1), scaled));
@@ -312,10 +331,13 @@ fn mean_and_sd(x: &[f64]) -> (f64, f64) {
     let n = x.len() as f64;
     let sum: DoubleDouble = x.iter().map(|&v| DoubleDouble::from(v)).sum();
     let mean = sum / DoubleDouble::from(n);
-    let ss: DoubleDouble = x.iter().map(|&v| {
-        let d = DoubleDouble::from(v) - mean;
-        d * d
-    }).sum();
+    let ss: DoubleDouble = x
+        .iter()
+        .map(|&v| {
+            let d = DoubleDouble::from(v) - mean;
+            d * d
+        })
+        .sum();
     let sd = if x.len() > 1 { (ss / DoubleDouble::from(n - 1.0)).sqrt().to_f64() } else { 0.0 };
     (mean.to_f64(), sd)
 }
@@ -342,7 +364,8 @@ fn orthogonal_recurrence(column: &str, x: &[f64], degree: u32) -> Result<Numeric
         let weighted: DoubleDouble = (0..n).map(|i| current[i] * current[i] * DoubleDouble::from(x[i])).sum();
         let a = weighted / norms_sq[k];
         let b = if k == 0 { DoubleDouble::ZERO } else { norms_sq[k] / norms_sq[k - 1] };
-        let next: Vec<DoubleDouble> = (0..n).map(|i| (DoubleDouble::from(x[i]) - a) * current[i] - previous[i] * b).collect();
+        let next: Vec<DoubleDouble> =
+            (0..n).map(|i| (DoubleDouble::from(x[i]) - a) * current[i] - previous[i] * b).collect();
         norms_sq.push(next.iter().map(|v| *v * *v).sum());
         alpha.push(a.to_f64());
         beta.push(b.to_f64());

@@ -262,7 +262,9 @@ impl Term {
     /// Every frame column this term reads.
     pub fn columns(&self) -> Vec<&str> {
         match self {
-            Term::Numeric { column, .. } | Term::Category { column, .. } | Term::Date { column, .. } => vec![column.as_str()],
+            Term::Numeric { column, .. } | Term::Category { column, .. } | Term::Date { column, .. } => {
+                vec![column.as_str()]
+            }
             Term::Interaction(a, b) => {
                 let mut c = a.columns();
                 c.extend(b.columns());
@@ -285,7 +287,13 @@ pub struct ModelSpec {
 impl ModelSpec {
     /// A model of `target` with an intercept and no terms yet.
     pub fn new(target: impl Into<String>) -> Self {
-        Self { target: target.into(), target_transform: TargetTransform::None, terms: Vec::new(), weights: None, intercept: true }
+        Self {
+            target: target.into(),
+            target_transform: TargetTransform::None,
+            terms: Vec::new(),
+            weights: None,
+            intercept: true,
+        }
     }
 
     /// Fit the natural log of the target.

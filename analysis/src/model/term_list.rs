@@ -39,7 +39,8 @@ fn parse_term(token: &str) -> Result<Term> {
     let bad = |why: &str| Error::Specification(format!("term `{token}`: {why}"));
     let parts: Vec<&str> = token.splitn(3, ':').collect();
     let number = |s: &str| s.trim().parse::<f64>().map_err(|_| bad("expected a number after the column"));
-    let degree = |s: &str| s.trim().parse::<u32>().map_err(|_| bad("expected a whole-number degree, e.g. `poly:age:2`"));
+    let degree =
+        |s: &str| s.trim().parse::<u32>().map_err(|_| bad("expected a whole-number degree, e.g. `poly:age:2`"));
     let name = |s: &str| {
         let s = s.trim();
         if s.is_empty() {
@@ -93,18 +94,33 @@ mod tests {
 
     #[test]
     fn parses_every_form() {
-        let terms = parse_term_list("a, log:b, pow:c:0.5, center:d, std:e, poly:f:2, orth:g:3, cat:h, cat:i=X, a*cat:h").unwrap();
+        let terms =
+            parse_term_list("a, log:b, pow:c:0.5, center:d, std:e, poly:f:2, orth:g:3, cat:h, cat:i=X, a*cat:h")
+                .unwrap();
         let labels: Vec<String> = terms.iter().map(Term::label).collect();
         assert_eq!(
             labels,
-            ["a", "log(b)", "c^0.5", "d (centred)", "e (standardized)", "f (powers 1–2)", "g (orthogonal, degree 3)", "h", "i", "a*h"]
+            [
+                "a",
+                "log(b)",
+                "c^0.5",
+                "d (centred)",
+                "e (standardized)",
+                "f (powers 1–2)",
+                "g (orthogonal, degree 3)",
+                "h",
+                "i",
+                "a*h"
+            ]
         );
         assert_eq!(terms[8], Term::category("i").reference("X"));
     }
 
     #[test]
     fn parses_date_terms() {
-        let terms = parse_term_list("months:sale_date:2023-01-01, days:d:2024-02-29, year:d, quarter:d=2024 Q1, month:d").unwrap();
+        let terms =
+            parse_term_list("months:sale_date:2023-01-01, days:d:2024-02-29, year:d, quarter:d=2024 Q1, month:d")
+                .unwrap();
         assert_eq!(terms[0], Term::months_since("sale_date", "2023-01-01"));
         assert_eq!(terms[1], Term::days_since("d", "2024-02-29"));
         assert_eq!(terms[2], Term::sale_year("d"));

@@ -52,8 +52,8 @@ pub fn factor(mut columns: Vec<Vec<DoubleDouble>>, mut rhs: Vec<DoubleDouble>, t
         let mut best_norm = DoubleDouble::ZERO;
         for j in k..p {
             let norm_sq: DoubleDouble = columns[j][k..].iter().map(|&v| v * v).sum();
-            let better = norm_sq.total_cmp(&best_norm).is_gt()
-                || (norm_sq == best_norm && permutation[j] < permutation[best]);
+            let better =
+                norm_sq.total_cmp(&best_norm).is_gt() || (norm_sq == best_norm && permutation[j] < permutation[best]);
             if j == k || better {
                 best = j;
                 best_norm = norm_sq;
@@ -96,7 +96,9 @@ pub fn factor(mut columns: Vec<Vec<DoubleDouble>>, mut rhs: Vec<DoubleDouble>, t
         rank = k + 1;
     }
 
-    let r = (0..rank).map(|i| (0..rank).map(|j| if j >= i { columns[j][i] } else { DoubleDouble::ZERO }).collect()).collect();
+    let r = (0..rank)
+        .map(|i| (0..rank).map(|j| if j >= i { columns[j][i] } else { DoubleDouble::ZERO }).collect())
+        .collect();
     let qt_rhs = rhs[..rank].to_vec();
     PivotedQr { permutation, rank, r, qt_rhs, diagonal }
 }

@@ -70,7 +70,14 @@ pub(crate) struct AxisTicks<'f> {
 
 impl Default for AxisTicks<'_> {
     fn default() -> Self {
-        AxisTicks { x_count: 7, y_count: 6, x_label: &|v| format_tick(*v), y_label: &|v| format_tick(*v), y_label_width: 64, y_grid: true }
+        AxisTicks {
+            x_count: 7,
+            y_count: 6,
+            x_label: &|v| format_tick(*v),
+            y_label: &|v| format_tick(*v),
+            y_label_width: 64,
+            y_grid: true,
+        }
     }
 }
 
@@ -90,8 +97,7 @@ pub(crate) fn axes_with<'a, 'b>(
         .build_cartesian_2d(x, y)
         .map_err(plot_error)?;
     let mut mesh = chart.configure_mesh();
-    mesh
-        .x_desc(x_title)
+    mesh.x_desc(x_title)
         .y_desc(y_title)
         .x_labels(ticks.x_count)
         .y_labels(ticks.y_count)
@@ -105,8 +111,6 @@ pub(crate) fn axes_with<'a, 'b>(
     if !ticks.y_grid {
         mesh.disable_y_mesh();
     }
-    mesh
-        .draw()
-        .map_err(plot_error)?;
+    mesh.draw().map_err(plot_error)?;
     Ok(chart)
 }

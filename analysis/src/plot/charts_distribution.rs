@@ -61,7 +61,8 @@ pub fn histogram(values: &[f64], label: &str, size: PlotSize) -> Result<Svg> {
         chart.draw_series(LineSeries::new(density.clone(), ACCENT.stroke_width(2))).map_err(plot_error)?;
         Ok(())
     })?;
-    let description = format!("Histogram of {} values of {label} in {bins} bins with a smoothed density curve.", data.len());
+    let description =
+        format!("Histogram of {} values of {label} in {bins} bins with a smoothed density curve.", data.len());
     Svg::finish(markup, &title, &description)
 }
 
@@ -76,7 +77,8 @@ pub fn correlation_heatmap(frame: &Frame, columns: &[&str], size: PlotSize) -> R
     let mut r = vec![vec![f64::NAN; k]; k];
     for a in 0..k {
         for b in 0..k {
-            let pairs: Vec<(f64, f64)> = data[a].iter().zip(&data[b]).filter_map(|(x, y)| Some(((*x)?, (*y)?))).collect();
+            let pairs: Vec<(f64, f64)> =
+                data[a].iter().zip(&data[b]).filter_map(|(x, y)| Some(((*x)?, (*y)?))).collect();
             let n = pairs.len() as f64;
             if n < 2.0 {
                 continue;
@@ -101,7 +103,11 @@ pub fn correlation_heatmap(frame: &Frame, columns: &[&str], size: PlotSize) -> R
             .map_err(plot_error)?;
         let label = |v: &f64| {
             let i = v.round();
-            if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() { names[i as usize].clone() } else { String::new() }
+            if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
+                names[i as usize].clone()
+            } else {
+                String::new()
+            }
         };
         chart
             .configure_mesh()
@@ -119,7 +125,10 @@ pub fn correlation_heatmap(frame: &Frame, columns: &[&str], size: PlotSize) -> R
                 let colour = blend(value);
                 let (x, y) = (b as f64, (k - 1 - a) as f64);
                 chart
-                    .draw_series(std::iter::once(Rectangle::new([(x - 0.5, y - 0.5), (x + 0.5, y + 0.5)], colour.filled())))
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(x - 0.5, y - 0.5), (x + 0.5, y + 0.5)],
+                        colour.filled(),
+                    )))
                     .map_err(plot_error)?;
                 let text = if value.is_finite() { format!("{value:.2}") } else { "—".into() };
                 let ink = if value.abs() > 0.6 { PAPER } else { INK };

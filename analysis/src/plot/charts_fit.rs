@@ -7,9 +7,9 @@ use super::{plot_error, PlotSize, Svg};
 use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{quadratic_form, Fit};
-use crate::stats::t_critical;
 use crate::model::design::INTERCEPT_NAME;
 use crate::model::encode::{RowValues, TermEncoding};
+use crate::stats::t_critical;
 use plotters::prelude::*;
 use std::collections::BTreeMap;
 
@@ -33,13 +33,16 @@ pub fn fit_line(fit: &Fit, frame: &Frame, column: &str, level: f64, size: PlotSi
         .map(|(s, e)| (s.columns.clone(), e))
         .collect();
     if spans.is_empty() {
-        return Err(Error::Specification(format!("`{column}` is not a numeric term of this model, so there is no fitted curve to draw")));
+        return Err(Error::Specification(format!(
+            "`{column}` is not a numeric term of this model, so there is no fitted curve to draw"
+        )));
     }
     let raw = frame.numeric_column(column)?;
     let x: Vec<f64> = design.rows_used.iter().map(|&r| raw[r].unwrap_or(f64::NAN)).collect();
     let y = &design.target;
     let x_range = padded_range(x.iter().copied());
-    let (lo, hi) = (x.iter().cloned().fold(f64::INFINITY, f64::min), x.iter().cloned().fold(f64::NEG_INFINITY, f64::max));
+    let (lo, hi) =
+        (x.iter().cloned().fold(f64::INFINITY, f64::min), x.iter().cloned().fold(f64::NEG_INFINITY, f64::max));
     let grid: Vec<f64> = (0..=120).map(|i| lo + (hi - lo) * i as f64 / 120.0).collect();
 
     // Design rows for the grid: column means, then the varied terms.
@@ -80,17 +83,28 @@ pub fn fit_line(fit: &Fit, frame: &Frame, column: &str, level: f64, size: PlotSi
         let band = |b: &[(f64, f64, f64)]| -> Vec<(f64, f64)> {
             b.iter().map(|p| (p.0, p.2)).chain(b.iter().rev().map(|p| (p.0, p.1))).collect()
         };
-        chart.draw_series(std::iter::once(Polygon::new(band(&pi), SOFT.mix(0.22)))).map_err(plot_error)?
+        chart
+            .draw_series(std::iter::once(Polygon::new(band(&pi), SOFT.mix(0.22))))
+            .map_err(plot_error)?
             .label(format!("{pct} % prediction band"))
             .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], SOFT.mix(0.4).filled()));
-        chart.draw_series(std::iter::once(Polygon::new(band(&ci), BAND.mix(0.35)))).map_err(plot_error)?
+        chart
+            .draw_series(std::iter::once(Polygon::new(band(&ci), BAND.mix(0.35))))
+            .map_err(plot_error)?
             .label(format!("{pct} % confidence band"))
             .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], BAND.mix(0.5).filled()));
         let size = if x.len() > 5000 { 1 } else { 2 };
         chart
-            .draw_series(x.iter().zip(y).filter(|(a, _)| a.is_finite()).map(|(a, b)| Circle::new((*a, *b), size, POINT.mix(0.45).filled())))
+            .draw_series(
+                x.iter()
+                    .zip(y)
+                    .filter(|(a, _)| a.is_finite())
+                    .map(|(a, b)| Circle::new((*a, *b), size, POINT.mix(0.45).filled())),
+            )
             .map_err(plot_error)?;
-        chart.draw_series(LineSeries::new(line.clone(), ACCENT.stroke_width(2))).map_err(plot_error)?
+        chart
+            .draw_series(LineSeries::new(line.clone(), ACCENT.stroke_width(2)))
+            .map_err(plot_error)?
             .label("fitted")
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 14, y)], ACCENT.stroke_width(2)));
         chart
@@ -141,7 +155,11 @@ pub fn coefficient_intervals(fit: &Fit, level: f64, size: PlotSize) -> Result<Sv
             .x_label_formatter(&|v| format_tick(*v))
             .y_label_formatter(&|v| {
                 let i = v.round();
-                if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() { names[i as usize].clone() } else { String::new() }
+                if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
+                    names[i as usize].clone()
+                } else {
+                    String::new()
+                }
             })
             .label_style((FONT, 12).into_font().color(&INK))
             .axis_desc_style((FONT, 13).into_font().color(&INK))
@@ -149,11 +167,15 @@ pub fn coefficient_intervals(fit: &Fit, level: f64, size: PlotSize) -> Result<Sv
             .light_line_style(GRID.mix(0.0))
             .draw()
             .map_err(plot_error)?;
-        chart.draw_series(LineSeries::new(vec![(0.0, -0.5), (0.0, k as f64 - 0.5)], SOFT.stroke_width(1))).map_err(plot_error)?;
+        chart
+            .draw_series(LineSeries::new(vec![(0.0, -0.5), (0.0, k as f64 - 0.5)], SOFT.stroke_width(1)))
+            .map_err(plot_error)?;
         for (i, c) in rows.iter().enumerate() {
             let y = i as f64;
             let colour = if c.ci_low > 0.0 || c.ci_high < 0.0 { ACCENT } else { POINT };
-            chart.draw_series(LineSeries::new(vec![(c.ci_low, y), (c.ci_high, y)], colour.stroke_width(3))).map_err(plot_error)?;
+            chart
+                .draw_series(LineSeries::new(vec![(c.ci_low, y), (c.ci_high, y)], colour.stroke_width(3)))
+                .map_err(plot_error)?;
             chart.draw_series(std::iter::once(Circle::new((c.estimate, y), 4, colour.filled()))).map_err(plot_error)?;
         }
         Ok(())

@@ -14,13 +14,13 @@
 //! [`super::sheet`].
 
 use super::canvas::{axes, axes_with, padded_range, Area, AxisTicks};
+use super::plot_error;
 use super::review::{month_tick, ReviewData};
 use super::smoother::{group_medians, tier_medians};
 use super::theme::{format_tick, ACCENT, BAND, FONT, INK, POINT, SOFT};
-use super::plot_error;
-use crate::stats::{median_of_sorted, quantile_of_sorted};
 use crate::diagnose::flags::STUDENTIZED_CUTOFF;
 use crate::error::Result;
+use crate::stats::{median_of_sorted, quantile_of_sorted};
 use plotters::prelude::*;
 use statrs::distribution::{Beta, ContinuousCDF, Normal};
 
@@ -37,7 +37,11 @@ fn point_size(n: usize) -> u32 {
 fn draw_medians(chart: &mut super::canvas::Chart, medians: &[(f64, f64)]) -> Result<()> {
     chart.draw_series(LineSeries::new(medians.iter().copied(), ACCENT.stroke_width(2))).map_err(plot_error)?;
     chart
-        .draw_series(medians.iter().map(|&(x, y)| EmptyElement::at((x, y)) + Rectangle::new([(-3, -3), (3, 3)], ACCENT.filled())))
+        .draw_series(
+            medians
+                .iter()
+                .map(|&(x, y)| EmptyElement::at((x, y)) + Rectangle::new([(-3, -3), (3, 3)], ACCENT.filled())),
+        )
         .map_err(plot_error)?;
     Ok(())
 }
@@ -54,10 +58,20 @@ fn draw_cloud(chart: &mut super::canvas::Chart, x: &[f64], y: &[f64], mark: impl
     let size = point_size(x.len());
     let finite = |i: &usize| x[*i].is_finite() && y[*i].is_finite();
     chart
-        .draw_series((0..x.len()).filter(finite).filter(|i| !mark(*i)).map(|i| Circle::new((x[i], y[i]), size, POINT.mix(0.5).filled())))
+        .draw_series(
+            (0..x.len())
+                .filter(finite)
+                .filter(|i| !mark(*i))
+                .map(|i| Circle::new((x[i], y[i]), size, POINT.mix(0.5).filled())),
+        )
         .map_err(plot_error)?;
     chart
-        .draw_series((0..x.len()).filter(finite).filter(|i| mark(*i)).map(|i| Circle::new((x[i], y[i]), size + 1, ACCENT.mix(0.85).filled())))
+        .draw_series(
+            (0..x.len())
+                .filter(finite)
+                .filter(|i| mark(*i))
+                .map(|i| Circle::new((x[i], y[i]), size + 1, ACCENT.mix(0.85).filled())),
+        )
         .map_err(plot_error)?;
     Ok(())
 }
@@ -121,7 +135,11 @@ pub(crate) fn draw_normal_quantiles(area: &Area, data: &ReviewData) -> Result<()
         .chain((n > 0 && !(n - 1).is_multiple_of(step)).then_some(n))
         .filter_map(|i| {
             let order = Beta::new(i as f64, (n - i + 1) as f64).ok()?;
-            Some((position(i), normal.inverse_cdf(order.inverse_cdf(0.025)), normal.inverse_cdf(order.inverse_cdf(0.975))))
+            Some((
+                position(i),
+                normal.inverse_cdf(order.inverse_cdf(0.025)),
+                normal.inverse_cdf(order.inverse_cdf(0.975)),
+            ))
         })
         .collect();
     let range = padded_range(theoretical.iter().chain(&sample).copied());
@@ -137,8 +155,14 @@ pub(crate) fn draw_normal_quantiles(area: &Area, data: &ReviewData) -> Result<()
     let mut outline: Vec<(f64, f64)> = band.iter().map(|&(x, lo, _)| (x, clamp(lo))).collect();
     outline.extend(band.iter().rev().map(|&(x, _, hi)| (x, clamp(hi))));
     chart.draw_series(std::iter::once(Polygon::new(outline, BAND.mix(0.25)))).map_err(plot_error)?;
-    chart.draw_series(LineSeries::new(vec![(range.start, range.start), (range.end, range.end)], SOFT.stroke_width(1))).map_err(plot_error)?;
-    let outside = |i: usize| band.iter().min_by(|a, b| (a.0 - theoretical[i]).abs().total_cmp(&(b.0 - theoretical[i]).abs())).is_some_and(|b| sample[i] < b.1 || sample[i] > b.2);
+    chart
+        .draw_series(LineSeries::new(vec![(range.start, range.start), (range.end, range.end)], SOFT.stroke_width(1)))
+        .map_err(plot_error)?;
+    let outside = |i: usize| {
+        band.iter()
+            .min_by(|a, b| (a.0 - theoretical[i]).abs().total_cmp(&(b.0 - theoretical[i]).abs()))
+            .is_some_and(|b| sample[i] < b.1 || sample[i] > b.2)
+    };
     draw_cloud(&mut chart, &theoretical, &sample, outside)
 }
 
@@ -195,10 +219,20 @@ pub(crate) fn draw_miss_by_group(area: &Area, data: &ReviewData) -> Result<()> {
     let names: Vec<String> = boxes.iter().map(|b| b.name.clone()).collect();
     let label = |v: &f64| {
         let i = v.round();
-        if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() { names[i as usize].clone() } else { String::new() }
+        if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
+            names[i as usize].clone()
+        } else {
+            String::new()
+        }
     };
     let longest = names.iter().map(|n| n.chars().count()).max().unwrap_or(4) as u32;
-    let ticks = AxisTicks { y_count: names.len().max(1), y_label: &label, y_label_width: (longest * 7 + 12).clamp(60, 190), y_grid: false, ..AxisTicks::default() };
+    let ticks = AxisTicks {
+        y_count: names.len().max(1),
+        y_label: &label,
+        y_label_width: (longest * 7 + 12).clamp(60, 190),
+        y_grid: false,
+        ..AxisTicks::default()
+    };
     let caption = if total > boxes.len() {
         format!("Miss by {} ({} largest of {total})", groups.column, boxes.len())
     } else {
@@ -212,16 +246,34 @@ pub(crate) fn draw_miss_by_group(area: &Area, data: &ReviewData) -> Result<()> {
         (&data.miss_title, ""),
         &ticks,
     )?;
-    chart.draw_series(LineSeries::new(vec![(0.0, -0.6), (0.0, boxes.len() as f64 - 0.4)], SOFT.stroke_width(1))).map_err(plot_error)?;
+    chart
+        .draw_series(LineSeries::new(vec![(0.0, -0.6), (0.0, boxes.len() as f64 - 0.4)], SOFT.stroke_width(1)))
+        .map_err(plot_error)?;
     let size = point_size(data.miss.len());
     for (g, group) in boxes.iter().enumerate() {
         let y = g as f64;
         let jitter = |k: usize| ((k as f64 * 0.618_033_988_749_895).fract() - 0.5) * 0.5;
         chart
-            .draw_series(group.rows.iter().enumerate().map(|(k, &i)| Circle::new((data.miss[i], y + jitter(k)), size, POINT.mix(0.4).filled())))
+            .draw_series(
+                group
+                    .rows
+                    .iter()
+                    .enumerate()
+                    .map(|(k, &i)| Circle::new((data.miss[i], y + jitter(k)), size, POINT.mix(0.4).filled())),
+            )
             .map_err(plot_error)?;
-        chart.draw_series(std::iter::once(Rectangle::new([(group.q1, y - 0.32), (group.q3, y + 0.32)], INK.stroke_width(1)))).map_err(plot_error)?;
-        chart.draw_series(LineSeries::new(vec![(group.median, y - 0.38), (group.median, y + 0.38)], ACCENT.stroke_width(3))).map_err(plot_error)?;
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [(group.q1, y - 0.32), (group.q3, y + 0.32)],
+                INK.stroke_width(1),
+            )))
+            .map_err(plot_error)?;
+        chart
+            .draw_series(LineSeries::new(
+                vec![(group.median, y - 0.38), (group.median, y + 0.38)],
+                ACCENT.stroke_width(3),
+            ))
+            .map_err(plot_error)?;
     }
     Ok(())
 }
@@ -274,7 +326,8 @@ pub(crate) fn draw_influence_by_value(area: &Area, data: &ReviewData) -> Result<
         let name = data.names[i].clone();
         let offset = place_label(anchor, name.chars().count(), &placed, (plot_box.0.start, plot_box.0.end));
         placed.push(LabelBox::at(anchor, offset, name.chars().count()));
-        let leader = PathElement::new(vec![(0, 0), (offset.0.clamp(-4, 4), offset.1 + 7)], INK.mix(0.5).stroke_width(1));
+        let leader =
+            PathElement::new(vec![(0, 0), (offset.0.clamp(-4, 4), offset.1 + 7)], INK.mix(0.5).stroke_width(1));
         chart
             .draw_series(std::iter::once(EmptyElement::at(point) + leader + Text::new(name, offset, font.clone())))
             .map_err(plot_error)?;

@@ -35,8 +35,8 @@ pub use charts_fit::{coefficient_intervals, fit_line};
 pub use charts_residual::MAX_GROUPS_SHOWN;
 pub use review::{ReviewOptions, DEFAULT_LABELLED};
 pub use sheet::{
-    diagnostic_sheet, influence_by_value, normal_quantiles, residual_spread, residuals_by_group, residuals_by_value, residuals_over_time,
-    SHEET_SIZE,
+    diagnostic_sheet, influence_by_value, normal_quantiles, residual_spread, residuals_by_group, residuals_by_value,
+    residuals_over_time, SHEET_SIZE,
 };
 pub use smoother::{group_medians, tier_count, tier_medians};
 pub use theme::format_tick;

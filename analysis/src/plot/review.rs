@@ -49,7 +49,13 @@ pub struct ReviewOptions {
 
 impl Default for ReviewOptions {
     fn default() -> Self {
-        ReviewOptions { id_column: None, time_column: None, group_column: None, labelled: DEFAULT_LABELLED, size: PlotSize::default() }
+        ReviewOptions {
+            id_column: None,
+            time_column: None,
+            group_column: None,
+            labelled: DEFAULT_LABELLED,
+            size: PlotSize::default(),
+        }
     }
 }
 
@@ -231,7 +237,9 @@ fn time_axis(fit: &Fit, frame: &Frame, options: &ReviewOptions, rows: &[usize]) 
                 Term::Date { column, .. } => Some(column.clone()),
                 _ => None,
             })
-            .or_else(|| frame.data().columns().iter().find(|c| c.dtype() == &DataType::Date).map(|c| c.name().to_string())),
+            .or_else(|| {
+                frame.data().columns().iter().find(|c| c.dtype() == &DataType::Date).map(|c| c.name().to_string())
+            }),
     };
     let Some(column) = column else { return Ok(None) };
     let is_date = matches!(frame.column_by_name(&column)?.dtype(), DataType::Date | DataType::String);

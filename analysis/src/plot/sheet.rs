@@ -44,8 +44,10 @@ fn single(data: &ReviewData, size: PlotSize, title: &str, description: String, d
 /// with the ±3 lines of the flag rule and the median of each value tier.
 pub fn residuals_by_value(fit: &Fit, size: PlotSize) -> Result<Svg> {
     let data = ReviewData::of_fit(fit);
-    let description =
-        format!("Studentized residuals of {} sales against model value, with lines at ±3 and the median of each value tier.", data.names.len());
+    let description = format!(
+        "Studentized residuals of {} sales against model value, with lines at ±3 and the median of each value tier.",
+        data.names.len()
+    );
     single(&data, size, "Each sale's miss in standard units, by model value", description, draw_studentized_by_value)
 }
 
@@ -53,7 +55,13 @@ pub fn residuals_by_value(fit: &Fit, size: PlotSize) -> Result<Svg> {
 /// pointwise band.
 pub fn normal_quantiles(fit: &Fit, size: PlotSize) -> Result<Svg> {
     let description = "Sorted studentized residuals against normal quantiles; the shaded band holds 95 % of each order statistic under normal errors, so points outside it show skew or heavy tails.".to_string();
-    single(&ReviewData::of_fit(fit), size, "Studentized residuals against the normal", description, draw_normal_quantiles)
+    single(
+        &ReviewData::of_fit(fit),
+        size,
+        "Studentized residuals against the normal",
+        description,
+        draw_normal_quantiles,
+    )
 }
 
 /// Residual spread (|studentized residual|) against model value with the
@@ -85,7 +93,8 @@ pub fn residuals_by_group(fit: &Fit, frame: &Frame, options: &ReviewOptions) -> 
             "the model has no category term; name the location column with `ReviewOptions::default().groups(\"district\")`".into(),
         ));
     };
-    let description = format!("Each sale's miss by {}, with a box over the middle half and a bar at the median.", groups.column);
+    let description =
+        format!("Each sale's miss by {}, with a box over the middle half and a bar at the median.", groups.column);
     single(&data, options.size, &format!("Miss by {}", groups.column), description, draw_miss_by_group)
 }
 
@@ -141,7 +150,10 @@ pub fn diagnostic_sheet(fit: &Fit, frame: &Frame, options: &ReviewOptions) -> Re
         }
         Ok(())
     })?;
-    let mut panels = vec!["each sale's studentized residual by model value with ±3 lines and tier medians".to_string(), "studentized residuals against the normal with a 95 % pointwise band".to_string()];
+    let mut panels = vec![
+        "each sale's studentized residual by model value with ±3 lines and tier medians".to_string(),
+        "studentized residuals against the normal with a 95 % pointwise band".to_string(),
+    ];
     if let Some(time) = &data.time {
         panels.push(format!("the miss by {} with quarterly medians", time.column));
     }

@@ -39,7 +39,8 @@ pub fn tier_count(n: usize) -> usize {
 /// three such pairs. Tier `j` of `g` holds sorted positions
 /// `⌊j n / g⌋ .. ⌊(j + 1) n / g⌋`.
 pub fn tier_medians(x: &[f64], y: &[f64]) -> Vec<(f64, f64)> {
-    let mut points: Vec<(f64, f64)> = x.iter().zip(y).filter(|(a, b)| a.is_finite() && b.is_finite()).map(|(a, b)| (*a, *b)).collect();
+    let mut points: Vec<(f64, f64)> =
+        x.iter().zip(y).filter(|(a, b)| a.is_finite() && b.is_finite()).map(|(a, b)| (*a, *b)).collect();
     let n = points.len();
     if n < 3 {
         return Vec::new();

@@ -11,7 +11,6 @@ pub use crate::schema::{COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, RA
 use std::collections::BTreeMap;
 use std::io::Write;
 
-
 /// Renderings of one result, by MIME type, in a stable order.
 #[derive(Debug, Clone, Default, PartialEq, Eq)]
 pub struct MimeBundle {

@@ -3,11 +3,11 @@
 //! and the ratio-study statistics beside their ranges with the crossings
 //! marked.
 
-use crate::documents::to_json;
 use super::bundle::{MimeBundle, Report, DRIFT_JSON_MIME};
-use super::prose::VALUATION_CAUTION;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_count, format_trimmed};
+use super::prose::VALUATION_CAUTION;
+use crate::documents::to_json;
 use crate::drift::{CoefficientDrift, DataStamp, DriftReport, FitDrift, ThresholdDrift};
 
 fn number(v: Option<f64>) -> String {
@@ -64,7 +64,9 @@ fn verdict(inside: Option<bool>) -> &'static str {
 }
 
 fn range_text(t: &ThresholdDrift) -> String {
-    t.range.map(|(lo, hi)| format!("{} – {}", format_trimmed(lo, 3), format_trimmed(hi, 3))).unwrap_or_else(|| "—".into())
+    t.range
+        .map(|(lo, hi)| format!("{} – {}", format_trimmed(lo, 3), format_trimmed(hi, 3)))
+        .unwrap_or_else(|| "—".into())
 }
 
 fn threshold_label(t: &ThresholdDrift) -> String {
@@ -88,7 +90,12 @@ pub fn drift_text(report: &DriftReport) -> String {
         out.push_str(&format!("\nFit {} — {}\n", i + 1, f.target));
         out.push_str(&format!("  data: {}\n", data_line(f)));
         for s in &f.statistics {
-            out.push_str(&format!("  {:<34} {:>12} → {:>12}\n", statistic_words(&s.statistic), number(s.old), number(s.new)));
+            out.push_str(&format!(
+                "  {:<34} {:>12} → {:>12}\n",
+                statistic_words(&s.statistic),
+                number(s.old),
+                number(s.new)
+            ));
         }
         let moved: Vec<&CoefficientDrift> = f.coefficients.iter().filter(|c| c.moved).collect();
         out.push_str(&format!("  coefficients outside their old interval: {}\n", moved.len()));
@@ -104,10 +111,20 @@ pub fn drift_text(report: &DriftReport) -> String {
         }
     }
     for (i, r) in report.ratio_studies.iter().enumerate() {
-        out.push_str(&format!("\nRatio study {} — sales used {} → {}\n", i + 1, number(r.count_old.map(|c| c as f64)), number(r.count_new.map(|c| c as f64))));
+        out.push_str(&format!(
+            "\nRatio study {} — sales used {} → {}\n",
+            i + 1,
+            number(r.count_old.map(|c| c as f64)),
+            number(r.count_new.map(|c| c as f64))
+        ));
         out.push_str(&format!("  {:<28} {:>10} → {:>10}  {:>12}  {}\n", "statistic", "old", "new", "range", "verdict"));
         for t in &r.statistics {
-            let verdicts = format!("{} → {}{}", verdict(t.old_inside), verdict(t.new_inside), if t.crossed { "  CROSSED" } else { "" });
+            let verdicts = format!(
+                "{} → {}{}",
+                verdict(t.old_inside),
+                verdict(t.new_inside),
+                if t.crossed { "  CROSSED" } else { "" }
+            );
             out.push_str(&format!(
                 "  {:<28} {:>10} → {:>10}  {:>12}  {verdicts}\n",
                 threshold_label(t),
@@ -121,7 +138,10 @@ pub fn drift_text(report: &DriftReport) -> String {
         }
     }
     if report.unpaired_fits > 0 {
-        out.push_str(&format!("\n{} fit(s) appear in only one of the runs and were not compared.\n", report.unpaired_fits));
+        out.push_str(&format!(
+            "\n{} fit(s) appear in only one of the runs and were not compared.\n",
+            report.unpaired_fits
+        ));
     }
     if report.unpaired_ratio_studies > 0 {
         out.push_str(&format!(
@@ -155,8 +175,11 @@ pub fn drift_html(report: &DriftReport) -> String {
             escape(&f.target),
             escape(&data_line(f))
         ));
-        let stats: Vec<Vec<String>> =
-            f.statistics.iter().map(|s| vec![escape(statistic_words(&s.statistic)), number(s.old), number(s.new)]).collect();
+        let stats: Vec<Vec<String>> = f
+            .statistics
+            .iter()
+            .map(|s| vec![escape(statistic_words(&s.statistic)), number(s.old), number(s.new)])
+            .collect();
         table(&mut out, &["statistic", "old", "new"], &[false, true, true], &stats);
         let mut terms: Vec<Vec<String>> = f
             .coefficients
@@ -164,7 +187,12 @@ pub fn drift_html(report: &DriftReport) -> String {
             .filter(|c| c.moved)
             .map(|c| {
                 let (term, old, new) = moved_line(c);
-                vec![escape(&term), escape(&old), escape(&new), "<b style=\"color:#c24e2f\">left its interval</b>".into()]
+                vec![
+                    escape(&term),
+                    escape(&old),
+                    escape(&new),
+                    "<b style=\"color:#c24e2f\">left its interval</b>".into(),
+                ]
             })
             .collect();
         for c in &f.coefficients {
@@ -175,7 +203,12 @@ pub fn drift_html(report: &DriftReport) -> String {
         if terms.is_empty() {
             out.push_str(&format!("<div style=\"{SUBTLE}\">Every coefficient stayed inside its old interval.</div>\n"));
         } else {
-            table(&mut out, &["term", "old estimate [interval]", "new estimate", ""], &[false, true, true, false], &terms);
+            table(
+                &mut out,
+                &["term", "old estimate [interval]", "new estimate", ""],
+                &[false, true, true, false],
+                &terms,
+            );
         }
     }
     for (i, r) in report.ratio_studies.iter().enumerate() {

@@ -101,7 +101,11 @@ pub fn explanations(fit: &Fit, level: f64) -> crate::Result<Vec<(String, String)
                 "The F test asks whether all the slope terms together explain nothing. F = {} (p {}) {}.",
                 format_significant(f, 4),
                 format_p_value(Some(p)),
-                if p < 0.05 { "says they clearly explain something" } else { "cannot rule out that they explain nothing" }
+                if p < 0.05 {
+                    "says they clearly explain something"
+                } else {
+                    "cannot rule out that they explain nothing"
+                }
             ),
         ));
     }
@@ -134,7 +138,11 @@ pub fn explanations(fit: &Fit, level: f64) -> crate::Result<Vec<(String, String)
             ));
             continue;
         }
-        let interval = format!("{level_pct} % interval {} to {}", format_significant(c.ci_low, 3), format_significant(c.ci_high, 3));
+        let interval = format!(
+            "{level_pct} % interval {} to {}",
+            format_significant(c.ci_low, 3),
+            format_significant(c.ci_high, 3)
+        );
         let significance = match c.p_value {
             Some(p) if p < 0.05 => format!("p {} — unlikely to be chance", format_p_value(Some(p))),
             Some(p) => format!("p {} — could well be chance", format_p_value(Some(p))),
@@ -188,7 +196,9 @@ impl Report for Explained<'_> {
         }
         text.push_str(&wrap(VALUATION_CAUTION, 96, "  ", "  "));
         let mut html = fit_html(self.fit, self.level).unwrap_or_default();
-        html.push_str(&format!("<div style=\"{CARD}\">\n<div style=\"{HEADING}\">In plain words</div>\n<dl style=\"margin:0\">\n"));
+        html.push_str(&format!(
+            "<div style=\"{CARD}\">\n<div style=\"{HEADING}\">In plain words</div>\n<dl style=\"margin:0\">\n"
+        ));
         for (what, sentence) in &sentences {
             html.push_str(&format!(
                 "<dt style=\"font-weight:600;margin-top:6px\">{}</dt><dd style=\"margin:0 0 0 14px\">{}</dd>\n",
@@ -200,4 +210,3 @@ impl Report for Explained<'_> {
         MimeBundle::text_and_html(text, html)
     }
 }
-

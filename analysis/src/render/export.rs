@@ -18,7 +18,9 @@ pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
         fit.design().dropped.describe(),
         fit.covariance_description()
     ));
-    out.push_str(&format!("| term | estimate | std error | t | p-value | {pct} % interval |\n|---|---:|---:|---:|---:|---:|\n"));
+    out.push_str(&format!(
+        "| term | estimate | std error | t | p-value | {pct} % interval |\n|---|---:|---:|---:|---:|---:|\n"
+    ));
     for c in fit.coefficients(level)? {
         out.push_str(&format!(
             "| {} | {} | {} | {} | {} | {} to {} |\n",
@@ -49,7 +51,15 @@ pub fn fit_csv(fit: &Fit, level: f64) -> crate::Result<String> {
     for c in fit.coefficients(level)? {
         let opt = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
         writer
-            .write_record([c.term.clone(), c.estimate.to_string(), c.std_error.to_string(), opt(c.t), opt(c.p_value), c.ci_low.to_string(), c.ci_high.to_string()])
+            .write_record([
+                c.term.clone(),
+                c.estimate.to_string(),
+                c.std_error.to_string(),
+                opt(c.t),
+                opt(c.p_value),
+                c.ci_low.to_string(),
+                c.ci_high.to_string(),
+            ])
             .map_err(write_error)?;
     }
     let bytes = writer.into_inner().map_err(|e| crate::Error::Specification(format!("could not write CSV: {e}")))?;

@@ -31,7 +31,10 @@ pub(crate) struct FigureGroup {
 impl FigureGroup {
     /// Each item as `label value`.
     fn phrases(&self) -> Vec<String> {
-        self.items.iter().map(|(label, value)| if label.is_empty() { value.clone() } else { format!("{label} {value}") }).collect()
+        self.items
+            .iter()
+            .map(|(label, value)| if label.is_empty() { value.clone() } else { format!("{label} {value}") })
+            .collect()
     }
 
     /// The items as one line: `R² 0.99548 · adjusted R² 0.99247 · …`.
@@ -61,7 +64,9 @@ impl FigureGroup {
 fn solver_words(method: SolverMethod) -> String {
     match method {
         SolverMethod::ExtendedQr => "pivoted QR in double-double arithmetic".to_string(),
-        SolverMethod::RefinedQr { refinement_steps } => format!("pivoted QR with {refinement_steps} refinement step(s)"),
+        SolverMethod::RefinedQr { refinement_steps } => {
+            format!("pivoted QR with {refinement_steps} refinement step(s)")
+        }
     }
 }
 
@@ -134,7 +139,11 @@ mod tests {
     fn long_groups_break_between_figures() {
         let group = FigureGroup {
             heading: "fit",
-            items: vec![("R²".into(), "0.92913".into()), ("adjusted R²".into(), "0.92887".into()), ("typical miss".into(), "±0.0863".into())],
+            items: vec![
+                ("R²".into(), "0.92913".into()),
+                ("adjusted R²".into(), "0.92887".into()),
+                ("typical miss".into(), "±0.0863".into()),
+            ],
         };
         assert_eq!(group.line(), "R² 0.92913 · adjusted R² 0.92887 · typical miss ±0.0863");
         assert_eq!(group.lines(36), vec!["R² 0.92913 · adjusted R² 0.92887", "typical miss ±0.0863"]);

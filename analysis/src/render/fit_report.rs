@@ -2,7 +2,6 @@
 //! inline interval bar per row, fit quality, and warnings in plain words.
 
 use super::bundle::{MimeBundle, Report, FIT_JSON_MIME};
-use crate::documents::{to_json, FitDocument};
 use super::fit_figures::figure_groups;
 use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_count, format_p_value, format_significant};
@@ -10,10 +9,10 @@ use super::prose::{percent, wrap, VALUATION_CAUTION};
 use super::text::fit_text;
 use crate::diagnose::collinearity::{CONDITION_INDEX_WARNING, INTERVAL_WIDENING_WARNING};
 use crate::diagnose::flags::{cooks_cutoff, COOKS_LARGE};
+use crate::documents::{to_json, FitDocument};
 use crate::fit::{CovarianceKind, Fit};
 use crate::inference::Coefficient;
 use crate::model::design::INTERCEPT_NAME;
-
 
 /// A fit shown at a chosen confidence level.
 #[derive(Debug, Clone, Copy)]
@@ -74,7 +73,9 @@ pub fn fit_warnings(fit: &Fit) -> Vec<String> {
             "{big} sale(s) have Cook's distance above {COOKS_LARGE}: each alone moves the fit noticeably. Check them for keying errors or non-market sales."
         ));
     } else if influential > 0 {
-        out.push(format!("{influential} sale(s) have Cook's distance above 4/n; worth a look, not necessarily a problem."));
+        out.push(format!(
+            "{influential} sale(s) have Cook's distance above 4/n; worth a look, not necessarily a problem."
+        ));
     }
     if *fit.covariance_kind() == CovarianceKind::Classical {
         let bp = fit.breusch_pagan_studentized();

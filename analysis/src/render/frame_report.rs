@@ -108,7 +108,13 @@ pub fn frame_text(frame: &Frame) -> String {
         used += widths[shown] + 2;
         shown += 1;
     }
-    let clip = |s: &str, w: usize| if s.chars().count() > w { s.chars().take(w - 1).chain(std::iter::once('…')).collect() } else { s.to_string() };
+    let clip = |s: &str, w: usize| {
+        if s.chars().count() > w {
+            s.chars().take(w - 1).chain(std::iter::once('…')).collect()
+        } else {
+            s.to_string()
+        }
+    };
     let line = |cells: &[String], row_label: &str| {
         let mut s = format!("{row_label:>6} ");
         for c in 0..shown {
@@ -127,7 +133,9 @@ pub fn frame_text(frame: &Frame) -> String {
     for (index, row) in indices.iter().zip(&rows) {
         match (index, row) {
             (Some(i), Some(cells)) => out.push_str(&line(cells, &(i + 1).to_string())),
-            _ => out.push_str(&format!("{:>6}  … {} more records …\n", "", format_count(frame.height() - 2 * EDGE_ROWS))),
+            _ => {
+                out.push_str(&format!("{:>6}  … {} more records …\n", "", format_count(frame.height() - 2 * EDGE_ROWS)))
+            }
         }
     }
     if shown < names.len() {
@@ -144,19 +152,30 @@ pub fn frame_html(frame: &Frame) -> String {
     card_start(&mut out, &format!("{} records · {} columns", format_count(frame.height()), frame.width()));
     out.push_str(&format!("<div style=\"{SUBTLE}\">{}", escape(&prov.path)));
     if !prov.sha256.is_empty() {
-        out.push_str(&format!(" · sha256 <code>{}</code>… · read {}", escape(prov.short_hash()), escape(&prov.loaded_at)));
+        out.push_str(&format!(
+            " · sha256 <code>{}</code>… · read {}",
+            escape(prov.short_hash()),
+            escape(&prov.loaded_at)
+        ));
     }
     out.push_str("</div>\n");
     let header: Vec<String> = std::iter::once("row".to_string()).chain(names.iter().map(|n| n.to_string())).collect();
     let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
     let numeric_flags: Vec<bool> = std::iter::once(true).chain(numeric.iter().copied()).collect();
-    let mut body: Vec<Vec<String>> = vec![std::iter::once(String::new()).chain(dtypes.iter().map(|d| format!("<span style=\"{SUBTLE}\">{}</span>", escape(d)))).collect()];
+    let mut body: Vec<Vec<String>> = vec![std::iter::once(String::new())
+        .chain(dtypes.iter().map(|d| format!("<span style=\"{SUBTLE}\">{}</span>", escape(d))))
+        .collect()];
     for (index, row) in shown_rows(frame.height()).iter().zip(&rows) {
         match (index, row) {
-            (Some(i), Some(cells)) => body.push(std::iter::once((i + 1).to_string()).chain(cells.iter().map(|c| escape(c))).collect()),
+            (Some(i), Some(cells)) => {
+                body.push(std::iter::once((i + 1).to_string()).chain(cells.iter().map(|c| escape(c))).collect())
+            }
             _ => {
                 let mut gap = vec![format!("<span style=\"{SUBTLE}\">⋮</span>")];
-                gap.push(format!("<span style=\"{SUBTLE}\">{} more records</span>", format_count(frame.height() - 2 * EDGE_ROWS)));
+                gap.push(format!(
+                    "<span style=\"{SUBTLE}\">{} more records</span>",
+                    format_count(frame.height() - 2 * EDGE_ROWS)
+                ));
                 gap.resize(header.len(), String::new());
                 body.push(gap);
             }
@@ -214,11 +233,17 @@ impl Report for ProfileReport {
         let header = ["column", "type", "missing", "distinct", "min / earliest", "median", "max / latest / top levels"];
         let rows = self.rows();
         let mut text = format!("Column profile of {}\n", self.source);
-        let widths: Vec<usize> = (0..7).map(|i| rows.iter().map(|r| r[i].chars().count()).chain([header[i].len()]).max().unwrap_or(4).min(30)).collect();
+        let widths: Vec<usize> = (0..7)
+            .map(|i| rows.iter().map(|r| r[i].chars().count()).chain([header[i].len()]).max().unwrap_or(4).min(30))
+            .collect();
         let fmt_row = |cells: &[String]| {
             let mut s = String::from(" ");
             for (i, c) in cells.iter().enumerate() {
-                let c: String = if c.chars().count() > widths[i] { c.chars().take(widths[i] - 1).chain(std::iter::once('…')).collect() } else { c.clone() };
+                let c: String = if c.chars().count() > widths[i] {
+                    c.chars().take(widths[i] - 1).chain(std::iter::once('…')).collect()
+                } else {
+                    c.clone()
+                };
                 if (2..6).contains(&i) {
                     s.push_str(&format!(" {c:>w$}", w = widths[i]));
                 } else {
@@ -254,7 +279,13 @@ impl Report for crate::data::Screen {
             self.column
         );
         for e in &self.excluded {
-            text.push_str(&format!("    row {:>6}  file line {:>6}  {} = {}\n", e.row, line(e.line), self.column, e.value));
+            text.push_str(&format!(
+                "    row {:>6}  file line {:>6}  {} = {}\n",
+                e.row,
+                line(e.line),
+                self.column,
+                e.value
+            ));
         }
         let mut html = String::new();
         card_start(&mut html, &format!("Screen — {}", self.rule));

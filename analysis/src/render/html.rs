@@ -26,12 +26,15 @@ font-size:13px;line-height:1.45;max-width:100%;overflow-x:auto";
 pub const HEADING: &str = "font-size:15px;font-weight:600;margin:0 0 6px 0;color:#222b3a";
 pub(crate) const SUBTLE: &str = "color:#5b6777;font-size:12px";
 pub(crate) const TABLE: &str = "border-collapse:collapse;margin:6px 0;font-variant-numeric:tabular-nums";
-pub(crate) const TH: &str = "text-align:left;padding:3px 10px;border-bottom:2px solid #c6ced9;color:#222b3a;font-weight:600;white-space:nowrap";
+pub(crate) const TH: &str =
+    "text-align:left;padding:3px 10px;border-bottom:2px solid #c6ced9;color:#222b3a;font-weight:600;white-space:nowrap";
 pub(crate) const TH_NUM: &str = "text-align:right;padding:3px 10px;border-bottom:2px solid #c6ced9;color:#222b3a;font-weight:600;white-space:nowrap";
 pub(crate) const TD: &str = "text-align:left;padding:2px 10px;border-bottom:1px solid #e4e8ee";
 pub(crate) const TD_NUM: &str = "text-align:right;padding:2px 10px;border-bottom:1px solid #e4e8ee;white-space:nowrap";
-pub(crate) const NOTE: &str = "background:#fdf1ec;border-left:3px solid #c24e2f;padding:5px 9px;margin:6px 0;color:#5a2a1c";
-pub(crate) const CAUTION: &str = "background:#eef3f7;border-left:3px solid #3d5a80;padding:5px 9px;margin:8px 0 0 0;color:#24364f;font-size:12px";
+pub(crate) const NOTE: &str =
+    "background:#fdf1ec;border-left:3px solid #c24e2f;padding:5px 9px;margin:6px 0;color:#5a2a1c";
+pub(crate) const CAUTION: &str =
+    "background:#eef3f7;border-left:3px solid #3d5a80;padding:5px 9px;margin:8px 0 0 0;color:#24364f;font-size:12px";
 
 /// Opens a card with a heading.
 pub(crate) fn card_start(out: &mut String, heading: &str) {

@@ -7,8 +7,8 @@ mod bundle;
 mod diagnostics_text;
 mod drift_report;
 mod explain;
-mod fit_figures;
 mod export;
+mod fit_figures;
 mod fit_report;
 mod frame_report;
 pub mod html;
@@ -18,15 +18,20 @@ mod ratio_report;
 mod result_reports;
 mod text;
 
-pub use bundle::{emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, RATIO_JSON_MIME, KERNEL_DISPLAY_ENV, KERNEL_DISPLAY_MARKER};
-pub use diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
+pub use bundle::{
+    emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, KERNEL_DISPLAY_ENV,
+    KERNEL_DISPLAY_MARKER, RATIO_JSON_MIME,
+};
+pub use diagnostics_text::{
+    collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text,
+};
 pub use drift_report::{drift_html, drift_text};
 pub use explain::{explanations, Explained};
 pub use export::{fit_csv, fit_markdown};
 pub use fit_report::{fit_html, fit_warnings, FitReport};
-pub use prose::VALUATION_CAUTION;
 pub use frame_report::{frame_html, frame_text, ProfileReport};
 pub use numbers::{format_column, format_p_value, format_significant, format_trimmed};
+pub use prose::VALUATION_CAUTION;
 pub use ratio_report::{ratio_html, ratio_text};
 pub use result_reports::AssumptionTests;
 pub use text::{fit_text, predictions_text};

@@ -4,7 +4,13 @@
 /// magnitudes in [1e-4, 1e9) and scientific notation otherwise.
 pub fn format_significant(value: f64, digits: usize) -> String {
     if !value.is_finite() {
-        return if value.is_nan() { "—".into() } else if value > 0.0 { "∞".into() } else { "−∞".into() };
+        return if value.is_nan() {
+            "—".into()
+        } else if value > 0.0 {
+            "∞".into()
+        } else {
+            "−∞".into()
+        };
     }
     if value == 0.0 {
         return "0".into();
@@ -42,7 +48,11 @@ pub fn format_column(values: &[f64], digits: usize) -> Vec<String> {
         .filter(|v| v.is_finite() && **v != 0.0)
         .map(|v| {
             let text = format_trimmed(*v, digits);
-            if text.contains('e') { 0 } else { text.split_once('.').map_or(0, |(_, d)| d.len()) }
+            if text.contains('e') {
+                0
+            } else {
+                text.split_once('.').map_or(0, |(_, d)| d.len())
+            }
         })
         .max()
         .unwrap_or(0)

@@ -3,7 +3,8 @@
 //! modules, so none of them imports another for these.
 
 /// The caution every valuation-facing report carries.
-pub const VALUATION_CAUTION: &str = "These figures are analytical estimates, not appraisals. Valuations for taxation or \
+pub const VALUATION_CAUTION: &str =
+    "These figures are analytical estimates, not appraisals. Valuations for taxation or \
 lending are governed by local assessment law and licensed appraisal practice.";
 
 /// A confidence level as a percentage without trailing zeros (`95`, `99.5`).

@@ -1,11 +1,11 @@
 //! Ratio studies as text and HTML, each statistic beside its range and the
 //! standard named, with the valuation caution.
 
-use crate::documents::{to_json, RatioStudyDocument};
 use super::bundle::{MimeBundle, Report};
-use super::prose::{percent, wrap, VALUATION_CAUTION};
 use super::html::{card_end, card_start, escape, table, CAUTION, SUBTLE};
 use super::numbers::format_significant;
+use super::prose::{percent, wrap, VALUATION_CAUTION};
+use crate::documents::{to_json, RatioStudyDocument};
 use crate::value::{Judgement, RatioStatistics, RatioStudy};
 
 fn verdict(j: &Judgement) -> &'static str {
@@ -17,7 +17,9 @@ fn verdict(j: &Judgement) -> &'static str {
 }
 
 fn range_text(j: &Judgement) -> String {
-    j.range.map(|(lo, hi)| format!("{} – {}", format_significant(lo, 3), format_significant(hi, 3))).unwrap_or_else(|| "—".into())
+    j.range
+        .map(|(lo, hi)| format!("{} – {}", format_significant(lo, 3), format_significant(hi, 3)))
+        .unwrap_or_else(|| "—".into())
 }
 
 fn interval_text(s: &RatioStatistics, statistic: &str) -> String {
@@ -34,11 +36,23 @@ fn rows(s: &RatioStatistics) -> Vec<[String; 5]> {
         .judgements
         .iter()
         .map(|j| {
-            [j.statistic.clone(), format_significant(j.value, 4), interval_text(s, &j.statistic), range_text(j), verdict(j).to_string()]
+            [
+                j.statistic.clone(),
+                format_significant(j.value, 4),
+                interval_text(s, &j.statistic),
+                range_text(j),
+                verdict(j).to_string(),
+            ]
         })
         .collect();
     out.push(["mean ratio".into(), format_significant(s.mean, 4), String::new(), "—".into(), String::new()]);
-    out.push(["weighted mean ratio".into(), format_significant(s.weighted_mean, 4), String::new(), "—".into(), String::new()]);
+    out.push([
+        "weighted mean ratio".into(),
+        format_significant(s.weighted_mean, 4),
+        String::new(),
+        "—".into(),
+        String::new(),
+    ]);
     out.push(["COV".into(), format_significant(s.cov, 4), String::new(), "—".into(), String::new()]);
     out
 }
@@ -69,12 +83,22 @@ pub fn ratio_text(study: &RatioStudy) -> String {
             }
         ));
     }
-    out.push_str(&format!("\n  {:<20} {:>10} {:>22} {:>14}  {}\n", "statistic", "value", format!("{pct} % interval"), "range", "verdict"));
+    out.push_str(&format!(
+        "\n  {:<20} {:>10} {:>22} {:>14}  {}\n",
+        "statistic",
+        "value",
+        format!("{pct} % interval"),
+        "range",
+        "verdict"
+    ));
     for r in rows(&study.overall) {
         out.push_str(&format!("  {:<20} {:>10} {:>22} {:>14}  {}\n", r[0], r[1], r[2], r[3], r[4]));
     }
     if !study.groups.is_empty() {
-        out.push_str(&format!("\n  {:<22} {:>6} {:>8} {:>8} {:>8} {:>8}\n", "group", "n", "median", "COD", "PRD", "PRB"));
+        out.push_str(&format!(
+            "\n  {:<22} {:>6} {:>8} {:>8} {:>8} {:>8}\n",
+            "group", "n", "median", "COD", "PRD", "PRB"
+        ));
         for g in &study.groups {
             match &g.statistics {
                 Some(s) => out.push_str(&format!(
@@ -132,10 +156,17 @@ pub fn ratio_html(study: &RatioStudy) -> String {
                     format_significant(s.prd, 4),
                     s.prb.map(|p| format_significant(p, 3)).unwrap_or_else(|| "—".into()),
                 ],
-                None => vec![escape(&g.group), "&lt;2".into(), String::new(), String::new(), String::new(), String::new()],
+                None => {
+                    vec![escape(&g.group), "&lt;2".into(), String::new(), String::new(), String::new(), String::new()]
+                }
             })
             .collect();
-        table(&mut out, &["group", "n", "median", "COD", "PRD", "PRB"], &[false, true, true, true, true, true], &groups);
+        table(
+            &mut out,
+            &["group", "n", "median", "COD", "PRD", "PRB"],
+            &[false, true, true, true, true, true],
+            &groups,
+        );
     }
     out.push_str(&format!("<div style=\"{SUBTLE}\">Ranges: {}</div>\n", escape(&study.standard)));
     out.push_str(&format!("<div style=\"{CAUTION}\">{}</div>\n", escape(VALUATION_CAUTION)));

@@ -2,22 +2,26 @@
 //! diagnostics and predictions. Text comes from the text renderers; HTML
 //! uses the same card and table style as fits and frames.
 
-use crate::documents::{to_json, ComparisonDocument};
 use super::bundle::{MimeBundle, Report, COMPARISON_JSON_MIME};
-use super::diagnostics_text::{collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text};
-use super::prose::{percent, VALUATION_CAUTION};
+use super::diagnostics_text::{
+    collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text,
+};
 use super::html::{card_end, card_start, escape, table, CAUTION};
 use super::numbers::{format_p_value, format_significant};
+use super::prose::{percent, VALUATION_CAUTION};
 use super::text::predictions_text;
 use crate::compare::{Comparison, CrossValidationResult, NestedTest};
 use crate::diagnose::collinearity::CONDITION_INDEX_WARNING;
 use crate::diagnose::{Collinearity, RowFlags, TestResult};
+use crate::documents::{to_json, ComparisonDocument};
 use crate::plot::Svg;
 use crate::predict::Predictions;
 
 impl Report for Svg {
     fn bundle(&self) -> MimeBundle {
-        MimeBundle::default().with("text/plain", format!("[chart: {}]", self.title)).with("image/svg+xml", self.markup.clone())
+        MimeBundle::default()
+            .with("text/plain", format!("[chart: {}]", self.title))
+            .with("image/svg+xml", self.markup.clone())
     }
 }
 
@@ -29,7 +33,11 @@ impl Report for NestedTest {
         card_start(&mut html, &format!("Nested test — {} added coefficient(s)", self.q));
         let rows = vec![
             vec!["coefficients".into(), self.k_restricted.to_string(), self.k_full.to_string()],
-            vec!["residual sum of squares".into(), format_significant(self.rss_restricted, 6), format_significant(self.rss_full, 6)],
+            vec![
+                "residual sum of squares".into(),
+                format_significant(self.rss_restricted, 6),
+                format_significant(self.rss_full, 6),
+            ],
         ];
         table(&mut html, &["", "smaller model", "larger model"], &[false, true, true], &rows);
         let tests = vec![
@@ -39,7 +47,12 @@ impl Report for NestedTest {
                 format!("({}, {})", self.q, self.residual_df_full),
                 format_p_value(Some(self.f_p_value)),
             ],
-            vec!["likelihood ratio".into(), format_significant(self.lr_statistic, 5), self.q.to_string(), format_p_value(Some(self.lr_p_value))],
+            vec![
+                "likelihood ratio".into(),
+                format_significant(self.lr_statistic, 5),
+                self.q.to_string(),
+                format_p_value(Some(self.lr_p_value)),
+            ],
         ];
         table(&mut html, &["test", "statistic", "df", "p-value"], &[false, true, true, true], &tests);
         card_end(&mut html);
@@ -63,7 +76,11 @@ impl Report for Comparison {
             .map(|r| {
                 std::iter::once(escape(&r.term))
                     .chain(r.cells.iter().map(|c| match c {
-                        Some((e, s)) => format!("{} <span style=\"color:#5b6777\">({})</span>", format_significant(*e, 4), format_significant(*s, 2)),
+                        Some((e, s)) => format!(
+                            "{} <span style=\"color:#5b6777\">({})</span>",
+                            format_significant(*e, 4),
+                            format_significant(*s, 2)
+                        ),
                         None => "·".into(),
                     }))
                     .collect()
@@ -142,11 +159,20 @@ impl Report for AssumptionTests {
                     format_significant(t.statistic, 5),
                     t.df.iter().map(|d| format_significant(*d, 4)).collect::<Vec<_>>().join(", "),
                     escape(&format_p_value(Some(t.p_value))),
-                    escape(&t.alternative) + &t.note.as_ref().map(|n| format!("<br><span style=\"color:#5b6777\">{}</span>", escape(n))).unwrap_or_default(),
+                    escape(&t.alternative)
+                        + &t.note
+                            .as_ref()
+                            .map(|n| format!("<br><span style=\"color:#5b6777\">{}</span>", escape(n)))
+                            .unwrap_or_default(),
                 ]
             })
             .collect();
-        table(&mut html, &["test", "statistic", "df", "p-value", "a small p-value suggests"], &[false, true, true, true, false], &rows);
+        table(
+            &mut html,
+            &["test", "statistic", "df", "p-value", "a small p-value suggests"],
+            &[false, true, true, true, false],
+            &rows,
+        );
         card_end(&mut html);
         MimeBundle::text_and_html(text, html)
     }
@@ -160,7 +186,14 @@ impl Report for Collinearity {
         let rows: Vec<Vec<String>> = self
             .terms
             .iter()
-            .map(|t| vec![escape(&t.term), t.df.to_string(), format_significant(t.gvif, 4), format_significant(t.interval_widening, 4)])
+            .map(|t| {
+                vec![
+                    escape(&t.term),
+                    t.df.to_string(),
+                    format_significant(t.gvif, 4),
+                    format_significant(t.interval_widening, 4),
+                ]
+            })
             .collect();
         table(&mut html, &["term", "df", "GVIF", "interval widening ×"], &[false, true, true, true], &rows);
         html.push_str(&format!(
@@ -226,7 +259,10 @@ impl Report for Predictions {
                 r.push(if p.outside_range.is_empty() {
                     String::new()
                 } else {
-                    format!("<span style=\"color:#c24e2f\">outside fitted range: {}</span>", escape(&p.outside_range.join(", ")))
+                    format!(
+                        "<span style=\"color:#c24e2f\">outside fitted range: {}</span>",
+                        escape(&p.outside_range.join(", "))
+                    )
                 });
                 r
             })

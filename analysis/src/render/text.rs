@@ -26,7 +26,11 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
         prov.short_hash(),
         prov.loaded_at
     ));
-    out.push_str(&format!("  rows      {} used, dropped for missing values: {}\n", format_count(stats.n_obs), dropped.describe()));
+    out.push_str(&format!(
+        "  rows      {} used, dropped for missing values: {}\n",
+        format_count(stats.n_obs),
+        dropped.describe()
+    ));
     out.push_str(&format!("  errors    {}\n\n", fit.covariance_description()));
 
     let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
@@ -70,7 +74,9 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
         }
     }
     if stats.condition_number > 1e8 {
-        out.push_str("  note: the condition number is large; small changes in the data can move the coefficients a lot.\n");
+        out.push_str(
+            "  note: the condition number is large; small changes in the data can move the coefficients a lot.\n",
+        );
     }
     Ok(out)
 }
@@ -79,7 +85,10 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
 pub fn predictions_text(predictions: &Predictions) -> String {
     let pct = percent(predictions.level);
     let log_scale = predictions.rows.iter().any(|p| p.median_original.is_some());
-    let mut out = format!("Predictions ({pct} % intervals{})\n", if log_scale { "; original-scale median and smearing mean" } else { "" });
+    let mut out = format!(
+        "Predictions ({pct} % intervals{})\n",
+        if log_scale { "; original-scale median and smearing mean" } else { "" }
+    );
     out.push_str(&format!(
         "  {:>6} {:>12} {:>10} {:>25} {:>25}",
         "row", "estimate", "se(mean)", "mean interval", "prediction interval"
@@ -127,4 +136,3 @@ pub fn predictions_text(predictions: &Predictions) -> String {
     }
     out
 }
-

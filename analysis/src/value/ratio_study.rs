@@ -164,7 +164,19 @@ fn statistics(pairs: &[(f64, f64)], options: &RatioOptions) -> Option<RatioStati
     if let Some(p) = prb {
         judgements.push(Judgement::new("PRB", p, Some(PRB_RANGE)));
     }
-    Some(RatioStatistics { count: n, median: med, median_interval, mean, weighted_mean, cod, prd, prb, prb_interval, cov, judgements })
+    Some(RatioStatistics {
+        count: n,
+        median: med,
+        median_interval,
+        mean,
+        weighted_mean,
+        cod,
+        prd,
+        prb,
+        prb_interval,
+        cov,
+        judgements,
+    })
 }
 
 /// Runs a ratio study of `values` against `prices` (aligned by row; rows
@@ -192,13 +204,20 @@ pub fn ratio_study(
         }
     }
     if rows.len() < 2 {
-        return Err(Error::Specification(format!("a ratio study needs at least two sales with a value and a price; found {}", rows.len())));
+        return Err(Error::Specification(format!(
+            "a ratio study needs at least two sales with a value and a price; found {}",
+            rows.len()
+        )));
     }
     let n_pairs = rows.len();
     let (mut trimmed, mut fences) = (Vec::new(), None);
     if let Some(k) = options.trim {
         if !(k > 0.0) {
-            return Err(Error::OutOfRange { what: "the trimming multiplier".into(), requirement: "positive".into(), value: k.to_string() });
+            return Err(Error::OutOfRange {
+                what: "the trimming multiplier".into(),
+                requirement: "positive".into(),
+                value: k.to_string(),
+            });
         }
         let mut ratios: Vec<f64> = rows.iter().map(|r| r.1 / r.2).collect();
         ratios.sort_by(f64::total_cmp);
@@ -215,8 +234,9 @@ pub fn ratio_study(
         });
     }
     let pairs: Vec<(f64, f64)> = rows.iter().map(|r| (r.1, r.2)).collect();
-    let overall = statistics(&pairs, options)
-        .ok_or_else(|| Error::Specification("fewer than two sales remain after trimming; loosen the trimming".into()))?;
+    let overall = statistics(&pairs, options).ok_or_else(|| {
+        Error::Specification("fewer than two sales remain after trimming; loosen the trimming".into())
+    })?;
     let mut by_group: BTreeMap<String, Vec<(f64, f64)>> = BTreeMap::new();
     if let Some(groups) = groups {
         for r in &rows {
@@ -224,6 +244,18 @@ pub fn ratio_study(
             by_group.entry(label).or_default().push((r.1, r.2));
         }
     }
-    let groups = by_group.into_iter().map(|(group, pairs)| GroupStudy { group, statistics: statistics(&pairs, options) }).collect();
-    Ok(RatioStudy { n_pairs, trimmed, fences, overall, groups, class: options.class, level: options.level, standard: STANDARD.into() })
+    let groups = by_group
+        .into_iter()
+        .map(|(group, pairs)| GroupStudy { group, statistics: statistics(&pairs, options) })
+        .collect();
+    Ok(RatioStudy {
+        n_pairs,
+        trimmed,
+        fences,
+        overall,
+        groups,
+        class: options.class,
+        level: options.level,
+        standard: STANDARD.into(),
+    })
 }

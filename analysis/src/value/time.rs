@@ -74,7 +74,13 @@ impl From<NaiveDate> for TimePoint {
 /// plain numeric term (then `to` is a number in its units). With slope `b` per
 /// unit and `Δ` the units from the sale to `to`, the adjusted price is
 /// `price · exp(b · Δ)` for a logged target and `price + b · Δ` otherwise.
-pub fn time_adjust(fit: &Fit, frame: &Frame, time_column: &str, price_column: &str, to: impl Into<TimePoint>) -> Result<Vec<Option<f64>>> {
+pub fn time_adjust(
+    fit: &Fit,
+    frame: &Frame,
+    time_column: &str,
+    price_column: &str,
+    to: impl Into<TimePoint>,
+) -> Result<Vec<Option<f64>>> {
     let prices = frame.numeric_column(price_column)?;
     move_along_trend(fit, frame, time_column, &to.into(), &prices)
 }
@@ -95,7 +101,13 @@ pub fn model_values_at(
 }
 
 /// Moves `amounts` (one per row of `frame`) from each row's time to `to`.
-fn move_along_trend(fit: &Fit, frame: &Frame, time_column: &str, to: &TimePoint, amounts: &[Option<f64>]) -> Result<Vec<Option<f64>>> {
+fn move_along_trend(
+    fit: &Fit,
+    frame: &Frame,
+    time_column: &str,
+    to: &TimePoint,
+    amounts: &[Option<f64>],
+) -> Result<Vec<Option<f64>>> {
     let date_term = fit.spec().terms().iter().find_map(|t| match t {
         Term::Date { column, part, .. } if column == time_column && part.is_numeric() => Some(part.clone()),
         _ => None,

@@ -64,8 +64,8 @@ fn certified_number(v: &Value) -> Option<(f64, f64)> {
 }
 
 fn score(estimate: f64, v: &Value, what: &str, dataset: &str) -> Result<f64, CommandError> {
-    let (certified, cap) =
-        certified_number(v).ok_or_else(|| CommandError::Reference(format!("{dataset}: certified value for {what} is malformed")))?;
+    let (certified, cap) = certified_number(v)
+        .ok_or_else(|| CommandError::Reference(format!("{dataset}: certified value for {what} is malformed")))?;
     Ok(log_relative_error(estimate, certified, cap))
 }
 
@@ -80,7 +80,8 @@ pub fn score_all(dir: &Path, precision: Precision) -> Result<Vec<DatasetScore>, 
     })?;
     let root: Value = serde_json::from_str(&text)
         .map_err(|e| CommandError::Reference(format!("`{}` is not valid JSON: {e}", certified_path.display())))?;
-    let entries = root.as_object().ok_or_else(|| CommandError::Reference("certified.json must hold an object".into()))?;
+    let entries =
+        root.as_object().ok_or_else(|| CommandError::Reference("certified.json must hold an object".into()))?;
     let mut scores = Vec::new();
     for (name, entry) in entries {
         scores.push(score_dataset(dir, name, entry, precision)?);
@@ -120,7 +121,8 @@ fn score_dataset(dir: &Path, name: &str, entry: &Value, precision: Precision) ->
     let coefficients = model.coefficients(0.95)?;
     let stats = model.statistics();
     let certified = entry.get("certified").ok_or_else(|| malformed("certified"))?;
-    let parameters = certified.get("parameters").and_then(Value::as_array).ok_or_else(|| malformed("certified.parameters"))?;
+    let parameters =
+        certified.get("parameters").and_then(Value::as_array).ok_or_else(|| malformed("certified.parameters"))?;
     if parameters.len() != coefficients.len() {
         return Err(CommandError::Reference(format!(
             "{name}: {} certified parameters but {} estimated (aliased: {:?})",
@@ -146,7 +148,12 @@ fn score_dataset(dir: &Path, name: &str, entry: &Value, precision: Precision) ->
         difficulty: entry.get("difficulty").and_then(Value::as_str).unwrap_or("?").to_string(),
         coefficients: coef_min,
         std_errors: se_min,
-        residual_sd: score(stats.residual_std_error, &certified["residual_standard_deviation"], "the residual SD", name)?,
+        residual_sd: score(
+            stats.residual_std_error,
+            &certified["residual_standard_deviation"],
+            "the residual SD",
+            name,
+        )?,
         r_squared: score(stats.r_squared, &certified["r_squared"], "R²", name)?,
         ss_residual: score(stats.ss_residual, &anova["residual"]["sum_of_squares"], "the residual SS", name)?,
         ss_regression: score(stats.ss_regression, &anova["regression"]["sum_of_squares"], "the regression SS", name)?,
@@ -167,7 +174,9 @@ pub fn run(args: &AccuracyArgs) -> Result<String, CommandError> {
 
 /// The LRE table as aligned text.
 pub fn table(scores: &[DatasetScore]) -> String {
-    let mut out = String::from("Log relative error against NIST StRD certified values (higher is better, 15 = every printed digit)\n\n");
+    let mut out = String::from(
+        "Log relative error against NIST StRD certified values (higher is better, 15 = every printed digit)\n\n",
+    );
     out.push_str(&format!(
         "{:<9} {:<8} {:>6} {:>6} {:>6} {:>6} {:>6} {:>6} {:>6}\n",
         "dataset", "level", "coef", "SE", "res SD", "R²", "SSres", "SSreg", "F"

@@ -63,7 +63,11 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
             let mut progress = |done: usize, total: usize| {
                 if interactive {
                     let filled = done * 20 / total;
-                    eprint!("\r  cross-validating {name} [{}{}] {done}/{total}", "#".repeat(filled), ".".repeat(20 - filled));
+                    eprint!(
+                        "\r  cross-validating {name} [{}{}] {done}/{total}",
+                        "#".repeat(filled),
+                        ".".repeat(20 - filled)
+                    );
                     let _ = std::io::stderr().flush();
                 }
             };
@@ -77,7 +81,11 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
     match args.format {
         Format::Json => {
             let document = ComparisonDocument {
-                models: names.iter().zip(&args.models).map(|(n, t)| ComparedModel { name: n.clone(), terms: Some(t.clone()) }).collect(),
+                models: names
+                    .iter()
+                    .zip(&args.models)
+                    .map(|(n, t)| ComparedModel { name: n.clone(), terms: Some(t.clone()) })
+                    .collect(),
                 rows_dropped: Some(dropped),
                 nested: nested
                     .into_iter()
@@ -89,7 +97,10 @@ pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
                         NestedEntry { restricted, full, test, not_comparable }
                     })
                     .collect(),
-                cross_validation: validation.into_iter().map(|(model, result)| ValidationEntry { model, result }).collect(),
+                cross_validation: validation
+                    .into_iter()
+                    .map(|(model, result)| ValidationEntry { model, result })
+                    .collect(),
                 data: Some(frame.provenance().clone()),
                 ..ComparisonDocument::of_table(&table)
             };

@@ -64,7 +64,9 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
         .collect::<Result<_, _>>()?;
     for column in references.keys() {
         if !args.category.iter().any(|c| c == column) {
-            return Err(CommandError::Usage(format!("--reference names `{column}`, which is not listed in --category")));
+            return Err(CommandError::Usage(format!(
+                "--reference names `{column}`, which is not listed in --category"
+            )));
         }
     }
     let category_term = |column: &str| {
@@ -135,7 +137,11 @@ pub fn covariance(cov: CovarianceArg, cluster: Option<&String>) -> CovarianceKin
 
 /// The fit options the flags describe.
 pub fn fit_options(args: &FitArgs) -> FitOptions {
-    FitOptions { covariance: covariance(args.cov, args.cluster.as_ref()), precision: precision(args.precision), rank_tolerance: None }
+    FitOptions {
+        covariance: covariance(args.cov, args.cluster.as_ref()),
+        precision: precision(args.precision),
+        rank_tolerance: None,
+    }
 }
 
 /// Maps the command-line precision flag to the library's.
@@ -207,7 +213,11 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
             let document = FitDocument {
                 summary: model.summary(args.level)?,
                 predictions,
-                diagnostics: diagnostics.map(|(tests, collinearity, flagged_rows)| FitDiagnostics { tests, collinearity, flagged_rows }),
+                diagnostics: diagnostics.map(|(tests, collinearity, flagged_rows)| FitDiagnostics {
+                    tests,
+                    collinearity,
+                    flagged_rows,
+                }),
                 influence: args.influence.then(|| model.influence()),
             };
             Ok(to_pretty_json(&document, "fit document")?)

@@ -20,8 +20,9 @@ fn kernels_dir(args: &InstallArgs) -> Result<PathBuf, CommandError> {
     if let Some(data) = std::env::var_os("JUPYTER_DATA_DIR") {
         return Ok(PathBuf::from(data).join("kernels"));
     }
-    let home = std::env::var_os("HOME")
-        .ok_or_else(|| CommandError::Usage("HOME is not set; pass --prefix DIR to choose where the kernelspec goes".into()))?;
+    let home = std::env::var_os("HOME").ok_or_else(|| {
+        CommandError::Usage("HOME is not set; pass --prefix DIR to choose where the kernelspec goes".into())
+    })?;
     let base = if cfg!(target_os = "macos") {
         PathBuf::from(home).join("Library").join("Jupyter")
     } else {

@@ -23,6 +23,8 @@ pub fn run(args: &RatioArgs) -> Result<String, CommandError> {
     Ok(match args.format {
         Format::Text => bundle.get("text/plain").unwrap_or_default().to_string(),
         Format::Json => to_pretty_json(&RatioStudyDocument::from(study), "ratio-study document")?,
-        Format::Html => plumbline::render::html::page("Ratio study", &[bundle.get("text/html").unwrap_or_default().to_string()]),
+        Format::Html => {
+            plumbline::render::html::page("Ratio study", &[bundle.get("text/html").unwrap_or_default().to_string()])
+        }
     })
 }

@@ -46,15 +46,21 @@ pub fn run(args: &RunArgs) -> Result<String, CommandError> {
     }
     let html = args.html.as_deref().map(absolute).transpose()?;
     let mut notebook = Notebook::read(&notebook_path).map_err(|e| CommandError::Run(e.to_string()))?;
-    let assignments = args.set.iter().map(|s| parse_assignment(s)).collect::<Result<Vec<_>, _>>().map_err(|e| CommandError::Run(e.to_string()))?;
+    let assignments = args
+        .set
+        .iter()
+        .map(|s| parse_assignment(s))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|e| CommandError::Run(e.to_string()))?;
     let applied = apply(&mut notebook, &assignments).map_err(|e| CommandError::Run(e.to_string()))?;
 
     let mut config = EngineConfig::from_environment();
     config.build_dir = absolute(&config.build_dir)?;
     config.analysis_path = absolute(&config.analysis_path)?;
     if let Some(folder) = notebook_path.parent() {
-        std::env::set_current_dir(folder)
-            .map_err(|e| CommandError::Run(format!("cannot enter the notebook's folder `{}`: {e}", folder.display())))?;
+        std::env::set_current_dir(folder).map_err(|e| {
+            CommandError::Run(format!("cannot enter the notebook's folder `{}`: {e}", folder.display()))
+        })?;
     }
     let mut progress: Box<dyn Progress> = if args.quiet { Box::new(NoProgress) } else { Box::new(StderrProgress) };
     let outcome = execute(&mut notebook, config, &applied, progress.as_mut());
@@ -78,9 +84,13 @@ pub fn run(args: &RunArgs) -> Result<String, CommandError> {
             duration: clock(outcome.elapsed),
             inputs: applied.iter().map(|a| format!("{} = {} (was {})", a.name, a.new, a.old)).collect(),
             cells: format!("{} of {}", outcome.executed, outcome.code_cells),
-            stopped: outcome.failure.as_ref().map(|f| format!("Cell {} failed: {}: {}", f.cell, f.error.ename, f.error.evalue)),
+            stopped: outcome
+                .failure
+                .as_ref()
+                .map(|f| format!("Cell {} failed: {}: {}", f.cell, f.error.ename, f.error.evalue)),
         };
-        write_file_atomic(path, report_html(&notebook, &facts).as_bytes()).map_err(|e| CommandError::Run(e.to_string()))?;
+        write_file_atomic(path, report_html(&notebook, &facts).as_bytes())
+            .map_err(|e| CommandError::Run(e.to_string()))?;
         summary.push_str(&format!("report: {}\n", path.display()));
     }
     match failure {

@@ -57,9 +57,8 @@ mod unix {
             return;
         }
         // SAFETY: each descriptor below is open and owned by exactly one value from here on.
-        let (read_end, spare_write_end, original) = unsafe {
-            (OwnedFd::from_raw_fd(ends[0]), OwnedFd::from_raw_fd(ends[1]), OwnedFd::from_raw_fd(original))
-        };
+        let (read_end, spare_write_end, original) =
+            unsafe { (OwnedFd::from_raw_fd(ends[0]), OwnedFd::from_raw_fd(ends[1]), OwnedFd::from_raw_fd(original)) };
         drop(spare_write_end); // descriptor 1 keeps the pipe open
         let spawned = std::thread::Builder::new().name("plumbline-stdout-relay".into()).spawn(move || {
             let mut input = BufReader::new(std::fs::File::from(read_end));

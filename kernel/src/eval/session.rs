@@ -110,7 +110,12 @@ impl CellSignals {
     /// Handles one output line of the cell process: our `?` marker sets the
     /// flag, anything else goes to `streams` (standard error is also kept for
     /// the error message). Returns false once nobody listens any more.
-    fn route(&self, name: &'static str, line: String, streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>) -> bool {
+    fn route(
+        &self,
+        name: &'static str,
+        line: String,
+        streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>,
+    ) -> bool {
         if name == "stdout" && line == super::CELL_ERROR_MARKER {
             self.stopped_at_question_mark.store(true, Ordering::SeqCst);
             return true;
@@ -229,7 +234,8 @@ fn failure(ename: &str, evalue: String, traceback: Vec<String>) -> ExecOutcome {
 /// Checks that cargo and rustc are on the PATH (the engine compiles cells with them).
 fn toolchain_problem() -> Option<String> {
     for tool in ["cargo", "rustc"] {
-        let ok = std::process::Command::new(tool).arg("--version").output().map(|o| o.status.success()).unwrap_or(false);
+        let ok =
+            std::process::Command::new(tool).arg("--version").output().map(|o| o.status.success()).unwrap_or(false);
         if !ok {
             return Some(format!(
                 "`{tool}` was not found or does not run. Plumbline cells are compiled Rust: install the Rust toolchain \
@@ -258,7 +264,11 @@ fn engine_thread(
                         let _ = reply.send(failure("EngineUnavailable", message.clone(), vec![message.clone()]));
                     }
                     Request::Complete { cursor, reply, .. } => {
-                        let _ = reply.send(CompleteOutcome { cursor_start: cursor, cursor_end: cursor, ..Default::default() });
+                        let _ = reply.send(CompleteOutcome {
+                            cursor_start: cursor,
+                            cursor_end: cursor,
+                            ..Default::default()
+                        });
                     }
                     Request::Inspect { reply, .. } => {
                         let _ = reply.send(None);
@@ -296,7 +306,8 @@ fn engine_thread(
                             message.clone(),
                             vec![
                                 format!("The cell stopped at a `?`: {message}"),
-                                "Statements after it did not run, and variables it would have defined were not kept.".into(),
+                                "Statements after it did not run, and variables it would have defined were not kept."
+                                    .into(),
                             ],
                         )
                     }
@@ -306,7 +317,14 @@ fn engine_thread(
                             Some(panic) => {
                                 let message = panic.lines().skip(1).collect::<Vec<_>>().join("\n");
                                 let message = if message.is_empty() { panic.clone() } else { message };
-                                failure("panic", message.clone(), vec![format!("The cell panicked: {message}"), "Variables from earlier cells are kept.".into()])
+                                failure(
+                                    "panic",
+                                    message.clone(),
+                                    vec![
+                                        format!("The cell panicked: {message}"),
+                                        "Variables from earlier cells are kept.".into(),
+                                    ],
+                                )
                             }
                             None => ExecOutcome { data, error: None },
                         }
@@ -343,7 +361,11 @@ fn engine_thread(
                     ),
                     Err(other) => {
                         let text = other.to_string();
-                        failure("Error", text.lines().next().unwrap_or("").to_string(), text.lines().map(str::to_string).collect())
+                        failure(
+                            "Error",
+                            text.lines().next().unwrap_or("").to_string(),
+                            text.lines().map(str::to_string).collect(),
+                        )
                     }
                 };
                 let _ = reply.send(outcome);
@@ -360,7 +382,8 @@ fn engine_thread(
                 let _ = reply.send(outcome);
             }
             Request::Inspect { code, cursor, reply } => {
-                let answer = ctx.hover_at(&code, cursor.min(code.len())).ok().filter(|(plain, _)| !plain.trim().is_empty());
+                let answer =
+                    ctx.hover_at(&code, cursor.min(code.len())).ok().filter(|(plain, _)| !plain.trim().is_empty());
                 let _ = reply.send(answer);
             }
         }
@@ -389,7 +412,8 @@ fn write_shared_library_crate(config: &EngineConfig) -> Result<PathBuf, String> 
         env!("CARGO_PKG_VERSION"),
         config.analysis_path.display().to_string().replace('\\', "/")
     );
-    let library = "//! The analysis crate, re-exported as one shared library for notebook cells.\npub use plumbline::*;\n";
+    let library =
+        "//! The analysis crate, re-exported as one shared library for notebook cells.\npub use plumbline::*;\n";
     // Rewrite only on change, so cargo does not rebuild the library at every start.
     for (path, text) in [(dir.join("Cargo.toml"), manifest), (source.join("lib.rs"), library.to_string())] {
         if std::fs::read_to_string(&path).ok().as_deref() != Some(text.as_str()) {

@@ -238,10 +238,16 @@ mod tests {
     #[test]
     fn strings_are_quoted_and_the_old_value_is_noted() {
         let mut nb = notebook(CELL);
-        let applied = apply(&mut nb, &[("sales_file".into(), "data/next \"q\".csv".into()), ("level".into(), "0.9".into())]).unwrap();
+        let applied =
+            apply(&mut nb, &[("sales_file".into(), "data/next \"q\".csv".into()), ("level".into(), "0.9".into())])
+                .unwrap();
         assert_eq!(applied.len(), 2);
         let source = nb.source(1);
-        assert!(source.contains(r#"let sales_file = "data/next \"q\".csv"; // set by plumbline run (was "data/sales.csv")"#), "{source}");
+        assert!(
+            source
+                .contains(r#"let sales_file = "data/next \"q\".csv"; // set by plumbline run (was "data/sales.csv")"#),
+            "{source}"
+        );
         assert!(source.contains("let mut level: f64 = 0.9; // set by plumbline run (was 0.95)"), "{source}");
         assert!(source.ends_with("let folds = 10;\n"));
     }
@@ -250,7 +256,10 @@ mod tests {
     fn mistakes_name_what_to_fix() {
         let mut nb = notebook(CELL);
         let err = apply(&mut nb, &[("sale_file".into(), "x".into())]).unwrap_err();
-        assert_eq!(err.to_string(), "the inputs cell (cell 2) declares no input `sale_file`; it declares: sales_file, level, folds");
+        assert_eq!(
+            err.to_string(),
+            "the inputs cell (cell 2) declares no input `sale_file`; it declares: sales_file, level, folds"
+        );
         let mut floats = notebook(CELL);
         apply(&mut floats, &[("level".into(), "1".into())]).unwrap();
         assert!(floats.source(1).contains("let mut level: f64 = 1.0;"));

@@ -88,7 +88,8 @@ fn markdown_html(source: &str) -> String {
 /// Whether a link address is safe in a report: relative, a fragment, or an
 /// `http`, `https` or `mailto` URL.
 fn safe_url(url: &str) -> bool {
-    let lowered: String = url.trim().chars().filter(|c| !c.is_control() && !c.is_whitespace()).collect::<String>().to_ascii_lowercase();
+    let lowered: String =
+        url.trim().chars().filter(|c| !c.is_control() && !c.is_whitespace()).collect::<String>().to_ascii_lowercase();
     match lowered.split_once(':') {
         // A colon after a `/`, `?` or `#` is not a scheme separator.
         Some((scheme, _)) if !scheme.contains(['/', '?', '#']) => matches!(scheme, "http" | "https" | "mailto"),
@@ -139,7 +140,13 @@ fn output_html(output: &Value) -> String {
         }
         Some("display_data") | Some("execute_result") => bundle_html(&output["data"]),
         Some("error") => {
-            let lines: Vec<String> = output["traceback"].as_array().into_iter().flatten().filter_map(Value::as_str).map(strip_ansi).collect();
+            let lines: Vec<String> = output["traceback"]
+                .as_array()
+                .into_iter()
+                .flatten()
+                .filter_map(Value::as_str)
+                .map(strip_ansi)
+                .collect();
             format!(
                 "<div class=\"error\"><b>{}</b>: {}<pre>{}</pre></div>",
                 escape(output["ename"].as_str().unwrap_or("error")),
@@ -161,7 +168,8 @@ pub fn report_html(notebook: &Notebook, facts: &RunFacts) -> String {
         env!("CARGO_PKG_VERSION")
     );
     out.push_str(&format!("<header class=\"run\">\n<h1>{}</h1>\n<dl>\n", escape(&title)));
-    let inputs = if facts.inputs.is_empty() { "as written in the notebook".to_string() } else { facts.inputs.join("; ") };
+    let inputs =
+        if facts.inputs.is_empty() { "as written in the notebook".to_string() } else { facts.inputs.join("; ") };
     for (label, value) in [
         ("notebook", facts.notebook.as_str()),
         ("run started", facts.started_at.as_str()),
@@ -180,13 +188,22 @@ pub fn report_html(notebook: &Notebook, facts: &RunFacts) -> String {
     for index in 0..notebook.len() {
         match notebook.kind(index) {
             CellKind::Markdown => {
-                out.push_str(&format!("<section class=\"prose\" id=\"cell-{}\">\n{}</section>\n", index + 1, markdown_html(&notebook.source(index))));
+                out.push_str(&format!(
+                    "<section class=\"prose\" id=\"cell-{}\">\n{}</section>\n",
+                    index + 1,
+                    markdown_html(&notebook.source(index))
+                ));
             }
             CellKind::Raw => {
-                out.push_str(&format!("<section class=\"prose\" id=\"cell-{}\"><pre>{}</pre></section>\n", index + 1, escape(&notebook.source(index))));
+                out.push_str(&format!(
+                    "<section class=\"prose\" id=\"cell-{}\"><pre>{}</pre></section>\n",
+                    index + 1,
+                    escape(&notebook.source(index))
+                ));
             }
             CellKind::Code => {
-                let count = notebook.execution_count(index).map(|c| format!("step {c}")).unwrap_or_else(|| "not run".into());
+                let count =
+                    notebook.execution_count(index).map(|c| format!("step {c}")).unwrap_or_else(|| "not run".into());
                 out.push_str(&format!(
                     "<section class=\"code\" id=\"cell-{}\">\n<div class=\"source\"><span class=\"count\">{count}</span><pre><code>{}</code></pre></div>\n",
                     index + 1,

@@ -101,13 +101,19 @@ fn stream_outputs(lines: Vec<StreamLine>) -> Vec<Value> {
 /// Runs every code cell of `notebook` in a fresh engine session and fills in
 /// the outputs. `applied` (the inputs set for this run) is recorded in the
 /// notebook's metadata with the run's time and outcome.
-pub fn execute(notebook: &mut Notebook, config: EngineConfig, applied: &[AppliedInput], progress: &mut dyn Progress) -> RunOutcome {
+pub fn execute(
+    notebook: &mut Notebook,
+    config: EngineConfig,
+    applied: &[AppliedInput],
+    progress: &mut dyn Progress,
+) -> RunOutcome {
     let started = Instant::now();
     let started_at = chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true);
     let (lines_tx, mut lines_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
     let session = Session::start(config, lines_tx);
     let code_cells: Vec<usize> = (0..notebook.len()).filter(|&i| notebook.kind(i) == CellKind::Code).collect();
-    let mut outcome = RunOutcome { started_at, executed: 0, code_cells: code_cells.len(), elapsed: Duration::ZERO, failure: None };
+    let mut outcome =
+        RunOutcome { started_at, executed: 0, code_cells: code_cells.len(), elapsed: Duration::ZERO, failure: None };
     let mut execution_count = 0u64;
     for (position, &cell) in code_cells.iter().enumerate() {
         if outcome.failure.is_some() {
@@ -168,8 +174,16 @@ mod tests {
     #[test]
     fn stream_lines_merge_and_display_lines_become_displays() {
         let line = |name: &'static str, text: &str| StreamLine { name, text: text.to_string() };
-        let display = format!("{}{{\"text/plain\":\"fit\",\"application/vnd.plumbline.fit+json\":\"{{\\\"a\\\":1}}\"}}\n", plumbline::render::KERNEL_DISPLAY_MARKER);
-        let outputs = stream_outputs(vec![line("stdout", "a\n"), line("stdout", "b\n"), line("stdout", &display), line("stderr", "c\n")]);
+        let display = format!(
+            "{}{{\"text/plain\":\"fit\",\"application/vnd.plumbline.fit+json\":\"{{\\\"a\\\":1}}\"}}\n",
+            plumbline::render::KERNEL_DISPLAY_MARKER
+        );
+        let outputs = stream_outputs(vec![
+            line("stdout", "a\n"),
+            line("stdout", "b\n"),
+            line("stdout", &display),
+            line("stderr", "c\n"),
+        ]);
         assert_eq!(outputs.len(), 3);
         assert_eq!(outputs[0]["text"], "a\nb\n");
         assert_eq!(outputs[1]["output_type"], "display_data");

@@ -1,9 +1,9 @@
 //! What the kernel does with each request.
 
 use super::Shared;
-use crate::eval::{bundle_json, display_bundle};
 use crate::eval::completeness::{check, Completeness};
 use crate::eval::StreamLine;
+use crate::eval::{bundle_json, display_bundle};
 use crate::wire::{Message, WireError, PROTOCOL_VERSION};
 use serde_json::{json, Map, Value};
 
@@ -83,7 +83,10 @@ fn char_offset(code: &str, bytes: usize) -> usize {
 pub(crate) fn aborted(shared: &Shared, request: &Message) -> Message {
     shared.status(Some(request), "busy");
     let count = shared.execution_count.lock().map(|c| *c).unwrap_or(0);
-    let reply = request.child("execute_reply", json!({ "status": "aborted", "execution_count": count, "user_expressions": {}, "payload": [] }));
+    let reply = request.child(
+        "execute_reply",
+        json!({ "status": "aborted", "execution_count": count, "user_expressions": {}, "payload": [] }),
+    );
     shared.status(Some(request), "idle");
     reply
 }
@@ -116,7 +119,8 @@ pub(crate) async fn shell(shared: &std::sync::Arc<Shared>, request: &Message) ->
             let engine = shared.engine.clone();
             let byte = byte_offset(&code, cursor);
             let code_for_engine = code.clone();
-            let outcome = tokio::task::spawn_blocking(move || engine.complete(&code_for_engine, byte)).await.unwrap_or_default();
+            let outcome =
+                tokio::task::spawn_blocking(move || engine.complete(&code_for_engine, byte)).await.unwrap_or_default();
             let (start, end) = if outcome.matches.is_empty() {
                 (cursor, cursor)
             } else {
@@ -145,26 +149,33 @@ pub(crate) async fn shell(shared: &std::sync::Arc<Shared>, request: &Message) ->
         }
         "history_request" => {
             let with_output = c.get("output").and_then(Value::as_bool).unwrap_or(false);
-            let history = shared.history.lock().map(|h| {
-                let n = c.get("n").and_then(Value::as_u64).unwrap_or(10) as usize;
-                let cells = match c.get("hist_access_type").and_then(Value::as_str).unwrap_or("tail") {
-                    "range" => h.range(
-                        c.get("start").and_then(Value::as_i64).unwrap_or(0),
-                        c.get("stop").and_then(Value::as_i64).unwrap_or(0),
-                    ),
-                    "search" => h.search(
-                        c.get("pattern").and_then(Value::as_str).unwrap_or("*"),
-                        n,
-                        c.get("unique").and_then(Value::as_bool).unwrap_or(false),
-                    ),
-                    _ => h.tail(n),
-                };
-                // With `output`, each entry carries (input, output) as the protocol asks.
-                cells
-                    .into_iter()
-                    .map(|(count, code)| if with_output { json!([0, count, [code, h.output(count)]]) } else { json!([0, count, code]) })
-                    .collect::<Vec<Value>>()
-            });
+            let history =
+                shared.history.lock().map(|h| {
+                    let n = c.get("n").and_then(Value::as_u64).unwrap_or(10) as usize;
+                    let cells = match c.get("hist_access_type").and_then(Value::as_str).unwrap_or("tail") {
+                        "range" => h.range(
+                            c.get("start").and_then(Value::as_i64).unwrap_or(0),
+                            c.get("stop").and_then(Value::as_i64).unwrap_or(0),
+                        ),
+                        "search" => h.search(
+                            c.get("pattern").and_then(Value::as_str).unwrap_or("*"),
+                            n,
+                            c.get("unique").and_then(Value::as_bool).unwrap_or(false),
+                        ),
+                        _ => h.tail(n),
+                    };
+                    // With `output`, each entry carries (input, output) as the protocol asks.
+                    cells
+                        .into_iter()
+                        .map(|(count, code)| {
+                            if with_output {
+                                json!([0, count, [code, h.output(count)]])
+                            } else {
+                                json!([0, count, code])
+                            }
+                        })
+                        .collect::<Vec<Value>>()
+                });
             let entries: Vec<Value> = history.unwrap_or_default();
             Some(request.child("history_reply", json!({ "status": "ok", "history": entries })))
         }
@@ -263,7 +274,11 @@ async fn execute(shared: &std::sync::Arc<Shared>, request: &Message) -> (Message
     }
     if !silent && !outcome.data.is_empty() {
         let data = bundle_json(outcome.data);
-        shared.publish(Some(request), "execute_result", json!({ "execution_count": count, "data": data, "metadata": {} }));
+        shared.publish(
+            Some(request),
+            "execute_result",
+            json!({ "execution_count": count, "data": data, "metadata": {} }),
+        );
     }
     let mut user_expressions = Map::new();
     if let Some(expressions) = c.get("user_expressions").and_then(Value::as_object) {
@@ -282,6 +297,7 @@ async fn execute(shared: &std::sync::Arc<Shared>, request: &Message) -> (Message
             user_expressions.insert(name.clone(), value);
         }
     }
-    let reply = json!({ "status": "ok", "execution_count": count, "user_expressions": user_expressions, "payload": [] });
+    let reply =
+        json!({ "status": "ok", "execution_count": count, "user_expressions": user_expressions, "payload": [] });
     (request.child("execute_reply", reply), false)
 }

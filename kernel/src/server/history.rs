@@ -35,7 +35,8 @@ impl History {
 
     /// Cells matching a glob `pattern` (`*` any text, `?` one character), the last `n`, optionally unique.
     pub fn search(&self, pattern: &str, n: usize, unique: bool) -> Vec<(u64, String)> {
-        let mut found: Vec<(u64, String)> = self.cells.iter().filter(|(_, code)| glob(pattern, code)).cloned().collect();
+        let mut found: Vec<(u64, String)> =
+            self.cells.iter().filter(|(_, code)| glob(pattern, code)).cloned().collect();
         if unique {
             let mut seen = std::collections::HashSet::new();
             found = found.into_iter().rev().filter(|(_, code)| seen.insert(code.clone())).collect();

@@ -20,7 +20,6 @@ use serde_json::{json, Value};
 use std::sync::{Arc, Mutex};
 use zeromq::{PubSocket, RepSocket, RouterSocket, Socket, SocketRecv, SocketSend, ZmqMessage};
 
-
 /// Why the kernel could not serve.
 #[derive(Debug, thiserror::Error)]
 pub enum ServeError {
@@ -177,7 +176,8 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
             }
         };
         let Some(request) = handlers::decode(&shared, to_frames(raw)) else { continue };
-        let sent = chrono::DateTime::parse_from_rfc3339(&request.header.date).ok().map(|d| d.with_timezone(&chrono::Utc));
+        let sent =
+            chrono::DateTime::parse_from_rfc3339(&request.header.date).ok().map(|d| d.with_timezone(&chrono::Utc));
         let queued_behind_failure = matches!((failed_at, sent), (Some(f), Some(s)) if s < f);
         let abort = queued_behind_failure && request.header.msg_type == "execute_request";
         let (replies, failed_with_stop) = if abort {

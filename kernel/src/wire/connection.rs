@@ -50,11 +50,15 @@ impl ConnectionFile {
     /// Reads and checks a connection file.
     pub fn read(path: &Path) -> Result<Self, ConnectionError> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| ConnectionError::Unreadable { path: shown.clone(), reason: e.to_string() })?;
-        let file: ConnectionFile =
-            serde_json::from_str(&text).map_err(|e| ConnectionError::Invalid { path: shown.clone(), reason: e.to_string() })?;
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| ConnectionError::Unreadable { path: shown.clone(), reason: e.to_string() })?;
+        let file: ConnectionFile = serde_json::from_str(&text)
+            .map_err(|e| ConnectionError::Invalid { path: shown.clone(), reason: e.to_string() })?;
         if file.transport != "tcp" {
-            return Err(ConnectionError::Unsupported { path: shown, reason: format!("transport `{}` is not supported; use tcp", file.transport) });
+            return Err(ConnectionError::Unsupported {
+                path: shown,
+                reason: format!("transport `{}` is not supported; use tcp", file.transport),
+            });
         }
         if !file.key.is_empty() && file.signature_scheme != "hmac-sha256" {
             return Err(ConnectionError::Unsupported {

@@ -65,18 +65,22 @@ impl Message {
             .position(|f| f.as_slice() == DELIMITER)
             .ok_or_else(|| WireError::Malformed("no <IDS|MSG> delimiter".into()))?;
         if frames.len() < split + 6 {
-            return Err(WireError::Malformed(format!("{} frames after the delimiter, need 5", frames.len() - split - 1)));
+            return Err(WireError::Malformed(format!(
+                "{} frames after the delimiter, need 5",
+                frames.len() - split - 1
+            )));
         }
         let identities = frames[..split].to_vec();
         let signature = &frames[split + 1];
         let parts = [&frames[split + 2][..], &frames[split + 3][..], &frames[split + 4][..], &frames[split + 5][..]];
-        let header: Header =
-            serde_json::from_slice(parts[0]).map_err(|e| WireError::Malformed(format!("header is not valid JSON: {e}")))?;
+        let header: Header = serde_json::from_slice(parts[0])
+            .map_err(|e| WireError::Malformed(format!("header is not valid JSON: {e}")))?;
         if !signer.verify(signature, &parts) {
             return Err(WireError::BadSignature(header.msg_type));
         }
         let parse = |bytes: &[u8], what: &str| {
-            serde_json::from_slice::<Value>(bytes).map_err(|e| WireError::Malformed(format!("{what} is not valid JSON: {e}")))
+            serde_json::from_slice::<Value>(bytes)
+                .map_err(|e| WireError::Malformed(format!("{what} is not valid JSON: {e}")))
         };
         Ok(Message {
             identities,
@@ -162,7 +166,14 @@ mod tests {
     fn malformed_frames_are_rejected() {
         let signer = Signer::new("");
         assert!(matches!(Message::decode(vec![b"x".to_vec()], &signer), Err(WireError::Malformed(_))));
-        let frames = vec![DELIMITER.to_vec(), b"".to_vec(), b"not json".to_vec(), b"{}".to_vec(), b"{}".to_vec(), b"{}".to_vec()];
+        let frames = vec![
+            DELIMITER.to_vec(),
+            b"".to_vec(),
+            b"not json".to_vec(),
+            b"{}".to_vec(),
+            b"{}".to_vec(),
+            b"{}".to_vec(),
+        ];
         assert!(matches!(Message::decode(frames, &signer), Err(WireError::Malformed(_))));
     }
 }

@@ -6,6 +6,6 @@ mod connection;
 mod message;
 mod signing;
 
-pub use connection::{ConnectionFile, ConnectionError};
+pub use connection::{ConnectionError, ConnectionFile};
 pub use message::{new_header, Header, Message, WireError, DELIMITER, PROTOCOL_VERSION};
 pub use signing::Signer;

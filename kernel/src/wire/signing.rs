@@ -75,8 +75,14 @@ mod tests {
             signer.sign(&[b"what do ya want ", b"for nothing?"]),
             "5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843"
         );
-        assert!(signer.verify(b"5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843", &[b"what do ya want for nothing?"]));
-        assert!(!signer.verify(b"5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3844", &[b"what do ya want for nothing?"]));
+        assert!(signer.verify(
+            b"5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843",
+            &[b"what do ya want for nothing?"]
+        ));
+        assert!(!signer.verify(
+            b"5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3844",
+            &[b"what do ya want for nothing?"]
+        ));
         assert!(!signer.verify(b"zz", &[b"x"]));
     }
 

@@ -106,18 +106,38 @@ fn draw_property(rng: &mut ChaCha20Rng, index: usize) -> Property {
     let area_noise = Normal::new(0.0, 0.28).expect("valid sd");
     let living_area = (1800.0 * f64::exp(area_noise.sample(rng))).clamp(620.0, 5200.0).round();
     let lot_noise = Normal::new(0.0, 0.35).expect("valid sd");
-    let lot_size = (7200.0 * (living_area / 1800.0).powf(0.5) * f64::exp(lot_noise.sample(rng))).clamp(1800.0, 43000.0).round();
+    let lot_size =
+        (7200.0 * (living_area / 1800.0).powf(0.5) * f64::exp(lot_noise.sample(rng))).clamp(1800.0, 43000.0).round();
     let year_built = rng.random_range(1908..=2024);
     let q: f64 = rng.random();
-    let quality = if q < 0.07 { 1 } else if q < 0.28 { 2 } else if q < 0.70 { 3 } else if q < 0.92 { 4 } else { 5 };
+    let quality = if q < 0.07 {
+        1
+    } else if q < 0.28 {
+        2
+    } else if q < 0.70 {
+        3
+    } else if q < 0.92 {
+        4
+    } else {
+        5
+    };
     let baths_raw = 1.0 + (living_area - 700.0) / 900.0 + Normal::new(0.0, 0.5).expect("valid sd").sample(rng);
     let bathrooms = ((baths_raw * 2.0).round() / 2.0).clamp(1.0, 5.0);
-    Property { parcel: format!("WM-{:06}", 100_000 + index * 7), district, living_area, lot_size, year_built, quality, bathrooms }
+    Property {
+        parcel: format!("WM-{:06}", 100_000 + index * 7),
+        district,
+        living_area,
+        lot_size,
+        year_built,
+        quality,
+        bathrooms,
+    }
 }
 
 fn log_price(p: &Property, months: f64, sale_year: i32, rng: &mut ChaCha20Rng, shift: f64) -> f64 {
     let age = (sale_year - p.year_built).max(0) as f64;
-    let mean = TRUE_INTERCEPT + TRUE_LOG_AREA * p.living_area.ln() + TRUE_LOG_LOT * p.lot_size.ln() - TRUE_AGE_DECLINE * age
+    let mean = TRUE_INTERCEPT + TRUE_LOG_AREA * p.living_area.ln() + TRUE_LOG_LOT * p.lot_size.ln()
+        - TRUE_AGE_DECLINE * age
         + TRUE_QUALITY * (p.quality - 3) as f64
         + TRUE_BATHROOMS * p.bathrooms
         + DISTRICTS[p.district].1
@@ -142,7 +162,8 @@ fn days_in_month(year: i32, month: i32) -> i32 {
     }
 }
 
-const SALES_HEADER: &str = "parcel_id,sale_date,sale_price,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_type\n";
+const SALES_HEADER: &str =
+    "parcel_id,sale_date,sale_price,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_type\n";
 
 fn sale_row(out: &mut String, p: &Property, month_index: i32, rng: &mut ChaCha20Rng, shift: f64) {
     let day = rng.random_range(1..=28);
@@ -215,7 +236,8 @@ fn main() -> std::process::ExitCode {
         sale_row(&mut next, &p, month_index, &mut rng, NEXT_QUARTER_SHIFT);
     }
 
-    let mut subjects = String::from("parcel_id,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_date\n");
+    let mut subjects =
+        String::from("parcel_id,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_date\n");
     for i in 0..40 {
         let p = draw_property(&mut rng, 5000 + i);
         let age = (2026 - p.year_built).max(0);
@@ -231,7 +253,9 @@ fn main() -> std::process::ExitCode {
         return std::process::ExitCode::FAILURE;
     }
     let truth = truth_json();
-    for (name, body) in [("sales.csv", &sales), ("sales-next-quarter.csv", &next), ("subjects.csv", &subjects), ("truth.json", &truth)] {
+    for (name, body) in
+        [("sales.csv", &sales), ("sales-next-quarter.csv", &next), ("subjects.csv", &subjects), ("truth.json", &truth)]
+    {
         let path = out_dir.join(name);
         if let Err(e) = std::fs::write(&path, body) {
             eprintln!("error: cannot write `{}`: {e}", path.display());
