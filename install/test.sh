@@ -17,6 +17,10 @@ step "installing the Python references (numpy, scipy, pytest, mpmath, pillow, ju
 check_reference_data
 require_chromium
 
+step "checking formatting and lints (cargo fmt --check, clippy -D warnings)"
+cargo fmt --all --check
+cargo clippy --workspace --all-targets --locked -- -D warnings
+
 step "building the workspace"
 cargo build --workspace --all-targets --locked
 

@@ -2,7 +2,7 @@
 //! one JSON line for `csv_reader_vs_polars.py`, which runs polars' own CSV
 //! reader on the same file in the same run and prints the ratios.
 //!
-//! Run: `cargo bench -p plumbline --bench csv_read -- FILE`. Prints figures;
+//! Run: `cargo bench -p plumbline-analysis --bench csv_read -- FILE`. Prints figures;
 //! asserts nothing.
 
 use plumbline::prelude::*;
@@ -18,7 +18,7 @@ fn status_bytes(field: &str) -> Option<u64> {
 
 fn main() {
     let Some(path) = std::env::args().skip(1).find(|a| !a.starts_with("--")) else {
-        eprintln!("usage: cargo bench -p plumbline --bench csv_read -- FILE.csv");
+        eprintln!("usage: cargo bench -p plumbline-analysis --bench csv_read -- FILE.csv");
         std::process::exit(2);
     };
     let baseline = status_bytes("VmRSS:").unwrap_or(0);

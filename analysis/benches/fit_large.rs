@@ -1,7 +1,7 @@
 //! Speed of the fitting core on a large design, as a ratio to a bare faer QR
 //! least-squares solve of the same matrix measured in the same run.
 //!
-//! Run: `cargo bench -p plumbline --bench fit_large` (add `-- ROWS COLS` to
+//! Run: `cargo bench -p plumbline-analysis --bench fit_large` (add `-- ROWS COLS` to
 //! change the default 1,000,000 × 50). Prints figures; asserts nothing.
 //!
 //! For a numpy comparison on the same data, the bench writes nothing by

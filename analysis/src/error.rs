@@ -332,6 +332,10 @@ pub enum Error {
         reason: String,
     },
 
+    /// Reference data for an accuracy check is missing or malformed.
+    #[error("reference data: {0}")]
+    ReferenceData(String),
+
     /// Polars reported an error while building or reading a frame.
     #[error("data frame error: {0}")]
     Frame(#[from] polars::error::PolarsError),

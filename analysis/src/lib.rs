@@ -22,6 +22,7 @@
 //!
 //! | module | responsibility |
 //! |---|---|
+//! | [`accuracy`] | scoring fits against NIST StRD certified values (log relative error) |
 //! | [`data`] | files → frames, provenance stamp, column profile |
 //! | [`model`] | model specification, term coding, design matrix |
 //! | [`fit`] | least-squares solvers and covariance estimators |
@@ -38,6 +39,7 @@
 
 #![warn(missing_docs)]
 
+pub mod accuracy;
 pub mod compare;
 pub mod data;
 pub mod diagnose;

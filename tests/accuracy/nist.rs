@@ -6,8 +6,9 @@
 //! Bar: minimum LRE ≥ 10 for coefficients, standard errors, residual SD and R²
 //! on all 11 datasets (issue acceptance); we print the full table.
 
+use plumbline::accuracy::{log_relative_error, score_all};
 use plumbline::prelude::Precision;
-use plumbline_kernel::commands::accuracy::{log_relative_error, score_all, table};
+use plumbline::render::accuracy_table as table;
 
 const BAR: f64 = 10.0;
 

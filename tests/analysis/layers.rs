@@ -26,7 +26,7 @@ const LAYERS: &[&[&str]] = &[
     // Reading a fit: tests, intervals, distributions, the JSON summary.
     &["inference"],
     // Uses of a fit, side by side.
-    &["predict", "diagnose", "compare", "value"],
+    &["predict", "diagnose", "compare", "value", "accuracy"],
     // Charts, and the documents we write (each read back through its type).
     &["plot", "documents"],
     // What moved between two runs, read from their documents.

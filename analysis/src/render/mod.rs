@@ -3,6 +3,7 @@
 //! (from [`crate::plot`]), and machine-readable JSON — gathered per result in
 //! a [`MimeBundle`] by the single display trait [`Report`].
 
+mod accuracy_table;
 mod bundle;
 mod diagnostics_text;
 mod drift_report;
@@ -18,6 +19,7 @@ mod ratio_report;
 mod result_reports;
 mod text;
 
+pub use accuracy_table::accuracy_table;
 pub use bundle::{
     emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, KERNEL_DISPLAY_ENV,
     KERNEL_DISPLAY_MARKER, RATIO_JSON_MIME,

@@ -29,7 +29,4 @@ pub enum CommandError {
     /// A run's results could not be read for `plumbline diff`.
     #[error(transparent)]
     Results(#[from] crate::notebook::results::ResultsError),
-    /// Reference data for a check is missing or malformed.
-    #[error("{0}")]
-    Reference(String),
 }

@@ -62,8 +62,7 @@ pub struct DeclaredInput {
 }
 
 /// An input changed for this run.
-#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
-#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize, schemars::JsonSchema)]
 pub struct AppliedInput {
     /// Variable name.
     pub name: String,

@@ -20,8 +20,7 @@ pub const RUN_RECORD_SCHEMA_VERSION: u32 = 1;
 pub const METADATA_KEY: &str = "plumbline";
 
 /// How a run ended.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
-#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, schemars::JsonSchema)]
 pub enum RunStatus {
     /// Every code cell ran without an error.
     #[serde(rename = "complete")]
@@ -32,8 +31,7 @@ pub enum RunStatus {
 }
 
 /// The record of one headless run.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, schemars::JsonSchema)]
 pub struct RunRecord {
     /// Always [`RUN_RECORD_SCHEMA`].
     pub schema: String,
