@@ -33,7 +33,7 @@
 //!
 //! Usage: `cargo run -p plumbline-demo-data -- [OUTPUT_DIR] [--seed N]` (seed 20261202).
 
-use rand::{Rng, SeedableRng};
+use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha20Rng;
 use rand_distr::{Distribution, Normal};
 use std::fmt::Write as _;
