@@ -3,7 +3,8 @@
 # kernel-protocol tests, then the Python cross-checks (numpy/scipy/mpmath) and
 # the protocol conformance suite (jupyter_kernel_test, jupyter_client, nbclient).
 # This is the command README.md names and .ci/run calls. Idempotent; needs only
-# a Rust toolchain and Python 3 (and installs Debian's chromium when root).
+# a Rust toolchain and Python 3 (and installs Debian's chromium and postgresql
+# when root); starts a throwaway PostgreSQL server for the database tests.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 source install/lib.sh
@@ -30,6 +31,8 @@ export PLUMBLINE_ENGINE_DIR="$PWD/target/engine-test"
 export PLUMBLINE_ENGINE_OPT=0
 step "warming the evaluation engine (compiles plumbline inside the engine once)"
 ./target/debug/plumbline install --prefix target/kernelspec
+
+start_test_postgres
 
 step "Rust tests"
 cargo test --workspace --locked

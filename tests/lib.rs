@@ -42,3 +42,84 @@ pub fn write_file(dir: &std::path::Path, name: &str, body: &str) -> PathBuf {
     std::fs::write(&path, body).expect("write scratch file");
     path
 }
+
+/// The demo sales (`notebooks-demo/data/sales.csv`, from our documented
+/// generator) loaded from CSV: the reference every other source must match.
+pub fn demo_sales_csv() -> PathBuf {
+    repo_root().join("notebooks-demo").join("data").join("sales.csv")
+}
+
+/// The model the source tests fit: log price on log living area, age,
+/// quality, district and months since 2023-01-01 — every kind of column a
+/// source must deliver (integers, text categories, dates).
+pub fn demo_spec() -> plumbline::prelude::ModelSpec {
+    use plumbline::prelude::{ModelSpec, Term};
+    ModelSpec::new("sale_price")
+        .log_target()
+        .term(Term::numeric("living_area").log())
+        .numeric("age")
+        .numeric("quality")
+        .term(Term::category("district"))
+        .term(Term::months_since("sale_date", "2023-01-01"))
+}
+
+/// Asserts two fits agree bit for bit: every estimate and standard error,
+/// and the residual sum of squares.
+pub fn assert_same_fit(reference: &plumbline::prelude::Fit, other: &plumbline::prelude::Fit, what: &str) {
+    let (a, b) = (reference.coefficients(0.95).expect("reference"), other.coefficients(0.95).expect(what));
+    assert_eq!(a.len(), b.len(), "{what}: coefficient count");
+    for (x, y) in a.iter().zip(&b) {
+        assert_eq!(x.term, y.term, "{what}: term order");
+        assert_eq!(x.estimate.to_bits(), y.estimate.to_bits(), "{what}: {} {} vs {}", x.term, x.estimate, y.estimate);
+        assert_eq!(x.std_error.to_bits(), y.std_error.to_bits(), "{what}: SE of {}", x.term);
+    }
+    assert_eq!(reference.statistics().ss_residual.to_bits(), other.statistics().ss_residual.to_bits(), "{what}: RSS");
+}
+
+/// One value of a frame as an SQL literal-free value for the source tests:
+/// `(integer, real, text)` — exactly one is `Some`, or none for a missing value.
+pub type SqlValue = (Option<i64>, Option<f64>, Option<String>);
+
+/// The rows of a frame as SQL-ready values (dates as ISO 8601 text), with the
+/// SQL type of each column (`INTEGER`, `REAL`, `TEXT`, or `DATE` for dates).
+pub fn frame_rows(frame: &plumbline::prelude::Frame) -> (Vec<(String, &'static str)>, Vec<Vec<SqlValue>>) {
+    use plumbline::polars::prelude::{AnyValue, DataType};
+    let data = frame.data();
+    let columns: Vec<(String, &'static str)> = data
+        .columns()
+        .iter()
+        .map(|c| {
+            let ty = match c.dtype() {
+                DataType::Int64 => "INTEGER",
+                DataType::Float64 => "REAL",
+                DataType::Date => "DATE",
+                _ => "TEXT",
+            };
+            (c.name().to_string(), ty)
+        })
+        .collect();
+    let rows = (0..frame.height())
+        .map(|r| {
+            data.columns()
+                .iter()
+                .map(|c| match c.get(r).expect("row in range") {
+                    AnyValue::Null => (None, None, None),
+                    AnyValue::Int64(v) => (Some(v), None, None),
+                    AnyValue::Float64(v) => (None, Some(v), None),
+                    AnyValue::Date(days) => (
+                        None,
+                        None,
+                        Some(
+                            plumbline::data::dates::from_epoch_days(days)
+                                .expect("a date")
+                                .format("%Y-%m-%d")
+                                .to_string(),
+                        ),
+                    ),
+                    other => (None, None, Some(other.str_value().to_string())),
+                })
+                .collect()
+        })
+        .collect();
+    (columns, rows)
+}

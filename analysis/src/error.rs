@@ -27,7 +27,7 @@ pub enum Error {
     },
 
     /// The file's extension names no format we read, and none was given.
-    #[error("cannot tell the format of `{path}` from its extension; use a `.csv`, `.tsv`, `.txt` or `.parquet` file, or load it with an explicit reader")]
+    #[error("cannot tell the format of `{path}` from its extension; use a `.csv`, `.tsv`, `.txt`, `.parquet`, `.arrow`, `.xlsx`, `.sqlite` or `.gpkg` file, or load it with an explicit reader")]
     UnknownFormat {
         /// The file, as given.
         path: PathBuf,
@@ -332,6 +332,141 @@ pub enum Error {
         reason: String,
     },
 
+    /// A PostgreSQL server could not be reached, refused the login, rejected
+    /// the query, or dropped the connection while the result was read. No
+    /// frame is returned in any of these cases.
+    #[error("PostgreSQL server {server}: could not {action}: {}{}", postgres_reason(.cause), postgres_hint(.cause))]
+    Postgres {
+        /// `host:port` and database, as connected to.
+        server: String,
+        /// What was being done (`connect`, `prepare the query`, `read the result`).
+        action: &'static str,
+        /// The driver's reason (the server's message, when it sent one).
+        #[source]
+        cause: postgres::Error,
+    },
+
+    /// A PostgreSQL connection string could not be understood.
+    #[error("cannot understand the PostgreSQL connection `{given}`: {reason}; write it as `postgresql://USER@HOST:PORT/DATABASE` (the password in PGPASSWORD, or in the URL)")]
+    PostgresAddress {
+        /// The connection string, password removed.
+        given: String,
+        /// What is wrong with it.
+        reason: String,
+    },
+
+    /// An SQLite file (or GeoPackage) could not be opened or queried.
+    #[error("SQLite file `{path}`: could not {action}: {cause}")]
+    Sqlite {
+        /// The file, as given.
+        path: PathBuf,
+        /// What was being done.
+        action: String,
+        /// The library's reason.
+        #[source]
+        cause: rusqlite::Error,
+    },
+
+    /// A table named for reading is not in the database file.
+    #[error("`{path}` has no table `{table}`; its tables are: {}", .available.join(", "))]
+    TableNotFound {
+        /// The file, as given.
+        path: PathBuf,
+        /// The table asked for.
+        table: String,
+        /// The tables it has (internal tables left out).
+        available: Vec<String>,
+    },
+
+    /// A database or workbook holds several tables or sheets and none was named.
+    #[error("`{path}` holds several {what}s ({}); name the one to read ({how})", .available.join(", "))]
+    SourceAmbiguous {
+        /// The file, as given.
+        path: PathBuf,
+        /// `table` or `sheet`.
+        what: &'static str,
+        /// The tables or sheets it has.
+        available: Vec<String>,
+        /// How to name one on the command line and in code.
+        how: &'static str,
+    },
+
+    /// A database or workbook holds no table or sheet with data.
+    #[error("`{path}` holds no {what} with data")]
+    EmptySource {
+        /// The file, as given.
+        path: PathBuf,
+        /// `table` or `sheet`.
+        what: &'static str,
+    },
+
+    /// A query parameter does not fit the type the query gives it.
+    #[error("query parameter {index} is `{value}`, but the query uses it as {expected}; {hint}")]
+    QueryParameter {
+        /// 1-based parameter number (`$1` is 1).
+        index: usize,
+        /// The value given.
+        value: String,
+        /// The type the query gives the parameter.
+        expected: String,
+        /// What to do.
+        hint: String,
+    },
+
+    /// A query returns a column of a type we do not read.
+    #[error("{source_label}: column `{column}` is of type {type_name}, which is not read; cast it in the query (e.g. `{column}::float8`, `{column}::date` or `{column}::text`)")]
+    UnsupportedColumnType {
+        /// Where the result came from.
+        source_label: String,
+        /// The column.
+        column: String,
+        /// Its type in the database.
+        type_name: String,
+    },
+
+    /// An Excel workbook could not be opened or read.
+    #[error("cannot read the workbook `{path}`: {reason}")]
+    WorkbookUnreadable {
+        /// The file, as given.
+        path: PathBuf,
+        /// The reader's reason.
+        reason: String,
+    },
+
+    /// A sheet named for reading is not in the workbook.
+    #[error("the workbook `{path}` has no sheet `{sheet}`; its sheets are: {}", .available.join(", "))]
+    SheetNotFound {
+        /// The file, as given.
+        path: PathBuf,
+        /// The sheet asked for.
+        sheet: String,
+        /// The sheets it has.
+        available: Vec<String>,
+    },
+
+    /// A cell of a workbook cannot be read as data.
+    #[error("the workbook `{path}`, sheet `{sheet}`, cell {cell}: {problem}")]
+    WorkbookCell {
+        /// The file, as given.
+        path: PathBuf,
+        /// The sheet.
+        sheet: String,
+        /// The cell in A1 notation.
+        cell: String,
+        /// What is wrong and what to do.
+        problem: String,
+    },
+
+    /// An Apache Arrow IPC file could not be decoded.
+    #[error("cannot read Arrow IPC file `{path}`: {cause}")]
+    ArrowUnreadable {
+        /// The file, as given.
+        path: PathBuf,
+        /// The decoder's reason.
+        #[source]
+        cause: polars::error::PolarsError,
+    },
+
     /// Reference data for an accuracy check is missing or malformed.
     #[error("reference data: {0}")]
     ReferenceData(String),
@@ -339,6 +474,46 @@ pub enum Error {
     /// Polars reported an error while building or reading a frame.
     #[error("data frame error: {0}")]
     Frame(#[from] polars::error::PolarsError),
+}
+
+/// The server's own message when it sent one (the driver's `Display` says
+/// only "db error"), else the driver's reason and its cause.
+fn postgres_reason(cause: &postgres::Error) -> String {
+    match cause.as_db_error() {
+        Some(db) => {
+            let mut text = db.message().to_string();
+            if let Some(detail) = db.detail() {
+                text.push_str(&format!(" ({detail})"));
+            }
+            if let Some(hint) = db.hint() {
+                text.push_str(&format!("; the server suggests: {hint}"));
+            }
+            text
+        }
+        None => match std::error::Error::source(cause) {
+            Some(inner) => format!("{cause} ({inner})"),
+            None => cause.to_string(),
+        },
+    }
+}
+
+/// What to do about a PostgreSQL failure, by its kind.
+fn postgres_hint(cause: &postgres::Error) -> &'static str {
+    use postgres::error::SqlState;
+    match cause.code() {
+        Some(code) if *code == SqlState::INVALID_PASSWORD || *code == SqlState::INVALID_AUTHORIZATION_SPECIFICATION => {
+            ". Check the user and password (in the URL, or in PGPASSWORD)"
+        }
+        Some(code) if *code == SqlState::ADMIN_SHUTDOWN || *code == SqlState::CRASH_SHUTDOWN => {
+            ". The server closed the connection while the result was being read; nothing was loaded. Rerun when the server is back"
+        }
+        Some(code) if *code == SqlState::INVALID_CATALOG_NAME => ". Check the database name at the end of the URL",
+        Some(_) => ". Check the query (run it in the database's own client to see it fail the same way)",
+        None if cause.is_closed() => {
+            ". The connection closed while the result was being read; nothing was loaded. Rerun when the server is back"
+        }
+        None => ". Check that the server is running and that host and port are right",
+    }
 }
 
 fn suggestion_text(suggestions: &[String]) -> String {

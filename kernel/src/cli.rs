@@ -24,7 +24,7 @@ pub enum Command {
     /// Compare candidate models on one data file: side by side, nested tests, cross-validation.
     Compare(Box<CompareArgs>),
     /// Ratio study of values against sale prices: level, uniformity, vertical equity.
-    Ratio(RatioArgs),
+    Ratio(Box<RatioArgs>),
     /// Execute a study notebook headlessly; save the executed notebook and an HTML report.
     Run(RunArgs),
     /// What moved between two runs: fit JSON files or executed notebooks.
@@ -76,7 +76,9 @@ pub enum PrecisionArg {
 /// `--log`, `--center`, `--standardize`, `--category`, `--interact`.
 #[derive(Debug, Args)]
 pub struct FitArgs {
-    /// Data file (.csv, .tsv, .txt or .parquet).
+    /// Where the sales are: a data file (.csv, .tsv, .txt, .parquet, .arrow,
+    /// .xlsx, .sqlite, .gpkg) or a PostgreSQL server
+    /// (`postgresql://USER@HOST:PORT/DATABASE`, with `--query`).
     pub data: PathBuf,
     /// Target, intercept and weights.
     #[command(flatten)]
@@ -136,6 +138,9 @@ pub struct FitArgs {
     /// How to read the data file.
     #[command(flatten)]
     pub input: InputFlags,
+    /// What to read from a database or workbook.
+    #[command(flatten)]
+    pub source: SourceFlags,
     /// Also print assumption tests, collinearity and the rows to check.
     #[arg(long)]
     pub diagnose: bool,
@@ -210,6 +215,26 @@ pub struct InputFlags {
     pub non_finite: String,
 }
 
+/// Flags choosing what to read from a database or a workbook.
+#[derive(Debug, Args)]
+pub struct SourceFlags {
+    /// The query to run: required for a PostgreSQL server, optional for an
+    /// SQLite file (instead of `--table`). Parameters are `$1`, `$2`, …
+    /// (PostgreSQL) or `?1`, `?2`, … (SQLite), given by `--param`.
+    #[arg(long, value_name = "SQL")]
+    pub query: Option<String>,
+    /// A value for the query's next parameter (repeatable, in order).
+    #[arg(long = "param", value_name = "VALUE")]
+    pub parameters: Vec<String>,
+    /// The table of an SQLite file or GeoPackage to read whole (needed when
+    /// it holds several).
+    #[arg(long, value_name = "NAME")]
+    pub table: Option<String>,
+    /// The sheet of an Excel workbook to read (needed when it holds several).
+    #[arg(long, value_name = "NAME")]
+    pub sheet: Option<String>,
+}
+
 /// Arguments of `plumbline compare`.
 ///
 /// Each `--model` is a term list in our compact syntax: comma-separated terms,
@@ -219,7 +244,9 @@ pub struct InputFlags {
 /// fitted on the rows that have every column any of them uses.
 #[derive(Debug, Args)]
 pub struct CompareArgs {
-    /// Data file (.csv, .tsv, .txt or .parquet).
+    /// Where the sales are: a data file (.csv, .tsv, .txt, .parquet, .arrow,
+    /// .xlsx, .sqlite, .gpkg) or a PostgreSQL server
+    /// (`postgresql://USER@HOST:PORT/DATABASE`, with `--query`).
     pub data: PathBuf,
     /// Target, intercept and weights, shared by every candidate.
     #[command(flatten)]
@@ -245,12 +272,17 @@ pub struct CompareArgs {
     /// How to read the data file.
     #[command(flatten)]
     pub input: InputFlags,
+    /// What to read from a database or workbook.
+    #[command(flatten)]
+    pub source: SourceFlags,
 }
 
 /// Arguments of `plumbline ratio`.
 #[derive(Debug, Args)]
 pub struct RatioArgs {
-    /// Data file with one row per sale.
+    /// Where the sales are (one row per sale): a data file (.csv, .tsv, .txt, .parquet, .arrow,
+    /// .xlsx, .sqlite, .gpkg) or a PostgreSQL server
+    /// (`postgresql://USER@HOST:PORT/DATABASE`, with `--query`).
     pub data: PathBuf,
     /// Column of values (assessed or model values).
     #[arg(long, value_name = "COL")]
@@ -280,6 +312,9 @@ pub struct RatioArgs {
     /// How to read the data file.
     #[command(flatten)]
     pub input: InputFlags,
+    /// What to read from a database or workbook.
+    #[command(flatten)]
+    pub source: SourceFlags,
 }
 
 /// Arguments of `plumbline kernel`.

@@ -7,38 +7,56 @@
 //!   null markers and per-column type overrides.
 //!   Streams the file into typed columns (numbers, integers, text, dates),
 //!   in UTF-8, Latin-1 or Windows-1252.
-//! * [`load_parquet`] — Apache Parquet through polars.
+//! * [`load_parquet`] — Apache Parquet through polars; [`load_arrow`] —
+//!   Arrow IPC (Feather) files through polars.
+//! * [`load_postgres`] — a query to a PostgreSQL server; [`load_sqlite`] — a
+//!   table or query of an SQLite file or GeoPackage; [`load_workbook`] — a
+//!   sheet of an Excel workbook. Each stamps its frame with what exactly was
+//!   read ([`SourceStamp`]).
 //! * [`NonFinite`] — what a frame does with NaN and infinite values where they
 //!   are used (refuse, by default, or treat as missing); [`dates`] — calendar
 //!   dates and the sale-date arithmetic of date terms.
 //! * [`profile`] — a per-column summary (type, missing, min/median/max, levels).
 //! * [`Screen`] — rows kept by a stated rule, with a record of the rows set aside.
 
+mod arrow_reader;
+mod cells;
 mod csv_reader;
 pub mod dates;
 mod frame;
 mod parquet_reader;
+mod postgres_reader;
 pub mod profile;
 mod provenance;
 mod screen;
+mod sqlite_reader;
 mod text_encoding;
 mod values;
+mod workbook_reader;
 
+pub use arrow_reader::load_arrow;
 pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
 pub use parquet_reader::load_parquet;
+pub use postgres_reader::load_postgres;
 pub use profile::{profile, ColumnProfile};
-pub use provenance::{sha256_hex, Provenance};
+pub use provenance::{sha256_hex, Provenance, SourceKind, SourceStamp};
 pub use screen::{ExcludedRow, Screen};
+pub use sqlite_reader::{load_sqlite, SqlRead};
 pub use text_encoding::TextEncoding;
 pub use values::{parse_formatted_number, NonFinite};
+pub use workbook_reader::load_workbook;
 
 use crate::error::{Error, Result};
 use std::path::Path;
 
 /// Loads a file, choosing the reader from its extension: `.parquet` /
 /// `.pq` through [`load_parquet`], `.csv` / `.txt` through [`load_csv`] with
-/// default options, and `.tsv` / `.tab` as tab-delimited text.
+/// default options, `.tsv` / `.tab` as tab-delimited text, `.arrow` /
+/// `.feather` / `.ipc` through [`load_arrow`], `.xlsx` (its only sheet)
+/// through [`load_workbook`], and `.sqlite` / `.sqlite3` / `.db` / `.gpkg`
+/// (its only table) through [`load_sqlite`]. A workbook of several sheets or
+/// a database of several tables asks for the one to read.
 pub fn load(path: impl AsRef<Path>) -> Result<Frame> {
     let path = path.as_ref();
     let extension = path.extension().and_then(|e| e.to_str()).map(str::to_ascii_lowercase);
@@ -46,6 +64,11 @@ pub fn load(path: impl AsRef<Path>) -> Result<Frame> {
         Some("parquet") | Some("pq") => load_parquet(path),
         Some("csv") | Some("txt") => load_csv(path, &CsvOptions::default()),
         Some("tsv") | Some("tab") => load_csv(path, &CsvOptions { delimiter: b'\t', ..CsvOptions::default() }),
+        Some("arrow") | Some("feather") | Some("ipc") => load_arrow(path),
+        Some("xlsx") | Some("xlsm") => load_workbook(path, None),
+        Some("sqlite") | Some("sqlite3") | Some("db") | Some("gpkg") => {
+            load_sqlite(path, &sqlite_reader::only_table(path)?)
+        }
         _ => Err(Error::UnknownFormat { path: path.to_path_buf() }),
     }
 }

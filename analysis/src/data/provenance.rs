@@ -20,22 +20,116 @@ pub struct Provenance {
     pub cols: usize,
     /// When the file was read, UTC, RFC 3339 to the second.
     pub loaded_at: String,
+    /// For a database, a workbook sheet or an Arrow file: what exactly was
+    /// read. Absent for CSV and Parquet files, where the path and the hash of
+    /// the file's bytes say it all.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub source: Option<SourceStamp>,
+}
+
+/// The kind of source a frame was read from, beyond a CSV or Parquet file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+#[serde(rename_all = "kebab-case")]
+pub enum SourceKind {
+    /// A query to a PostgreSQL server.
+    Postgresql,
+    /// A table or query of an SQLite file (a GeoPackage is one).
+    Sqlite,
+    /// A sheet of an Excel workbook (`.xlsx`).
+    Workbook,
+    /// An Apache Arrow IPC file (`.arrow`, `.feather`).
+    ArrowIpc,
+}
+
+/// What was read from a database, a workbook or an Arrow file: enough to read
+/// the same thing again and to tell whether it changed.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct SourceStamp {
+    /// The kind of source.
+    pub kind: SourceKind,
+    /// PostgreSQL: `host:port` (or the socket directory) of the server.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub server: Option<String>,
+    /// PostgreSQL: the database name.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub database: Option<String>,
+    /// PostgreSQL: the user connected as (never the password).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub user: Option<String>,
+    /// The query text, as sent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub query: Option<String>,
+    /// The query's parameters (`$1`, `$2`, … or `?1`, `?2`, …), as given.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub parameters: Vec<String>,
+    /// SQLite: the table read whole.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub table: Option<String>,
+    /// Workbook: the sheet read.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sheet: Option<String>,
+    /// What `sha256` is the hash of: `file bytes`, or `result values` (the
+    /// canonical encoding of `data::cells`, the same for the same rows
+    /// whatever server or file they came from).
+    pub hash_of: String,
+    /// Columns of the source that were not read (e.g. a GeoPackage's
+    /// geometry, held as binary), so that their absence is on record.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub not_read: Vec<String>,
+}
+
+/// `hash_of` for sources hashed by their bytes.
+pub const HASH_OF_FILE_BYTES: &str = "file bytes";
+/// `hash_of` for sources hashed by the values read.
+pub const HASH_OF_RESULT_VALUES: &str = "result values";
+
+impl SourceStamp {
+    /// A stamp of `kind` with every detail empty; fill in what applies.
+    pub fn new(kind: SourceKind, hash_of: &str) -> Self {
+        Self {
+            kind,
+            server: None,
+            database: None,
+            user: None,
+            query: None,
+            parameters: Vec::new(),
+            table: None,
+            sheet: None,
+            hash_of: hash_of.to_string(),
+            not_read: Vec::new(),
+        }
+    }
 }
 
 impl Provenance {
     /// Stamps bytes read from `path`.
     pub fn for_file(path: &std::path::Path, bytes: &[u8], rows: usize, cols: usize) -> Self {
-        Self { path: path.display().to_string(), sha256: sha256_hex(bytes), rows, cols, loaded_at: now_utc() }
+        Self {
+            path: path.display().to_string(),
+            sha256: sha256_hex(bytes),
+            rows,
+            cols,
+            loaded_at: now_utc(),
+            source: None,
+        }
     }
 
     /// Stamps a file whose bytes were hashed while they were streamed.
     pub(crate) fn for_file_hash(path: &std::path::Path, sha256: String, rows: usize, cols: usize) -> Self {
-        Self { path: path.display().to_string(), sha256, rows, cols, loaded_at: now_utc() }
+        Self { path: path.display().to_string(), sha256, rows, cols, loaded_at: now_utc(), source: None }
     }
 
     /// Stamps a frame that was built in code rather than read from a file.
     pub fn in_memory(label: &str, rows: usize, cols: usize) -> Self {
-        Self { path: label.to_string(), sha256: String::new(), rows, cols, loaded_at: now_utc() }
+        Self { path: label.to_string(), sha256: String::new(), rows, cols, loaded_at: now_utc(), source: None }
+    }
+
+    /// Stamps a frame read from a database, a workbook or an Arrow file.
+    /// `place` is the file path, or the server address for PostgreSQL.
+    pub fn for_source(place: String, sha256: String, rows: usize, cols: usize, source: SourceStamp) -> Self {
+        Self { path: place, sha256, rows, cols, loaded_at: now_utc(), source: Some(source) }
     }
 
     /// The first 12 hex digits of the hash, for compact display.

@@ -20,7 +20,7 @@ fn model_name(i: usize) -> String {
 
 /// Runs `plumbline compare`.
 pub fn run(args: &CompareArgs) -> Result<String, CommandError> {
-    let frame = load_with_flags(&args.data, &args.input)?;
+    let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
     let mut specs = Vec::with_capacity(args.models.len());
     for text in &args.models {
         let mut spec = args.model.base_spec();

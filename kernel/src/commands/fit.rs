@@ -1,7 +1,7 @@
 //! `plumbline fit`: one model, one data file, a report on stdout.
 
 use super::CommandError;
-use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg};
+use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg, SourceFlags};
 use plumbline::documents::{to_pretty_json, FitDiagnostics, FitDocument};
 use plumbline::prelude::*;
 use std::collections::BTreeMap;
@@ -153,24 +153,89 @@ pub fn precision(arg: PrecisionArg) -> Precision {
     }
 }
 
-/// Loads a data file, reading text files with the input flags.
-pub fn load_with_flags(path: &std::path::Path, args: &InputFlags) -> Result<Frame, CommandError> {
-    let extension = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
-    if extension == "parquet" || extension == "pq" {
-        Ok(load_parquet(path)?.with_non_finite(non_finite_rule(args)?))
+/// Whether `data` names a PostgreSQL server rather than a file.
+fn is_postgres(data: &str) -> bool {
+    data.starts_with("postgresql://") || data.starts_with("postgres://")
+}
+
+/// Loads the sales from a file or a server: text files with the input flags,
+/// databases and workbooks with the source flags (`None` for a second file,
+/// such as `--predict`'s, which is always read whole). A source flag that
+/// does not apply to the source is refused rather than ignored.
+pub fn load_with_flags(
+    data: &std::path::Path,
+    args: &InputFlags,
+    source: Option<&SourceFlags>,
+) -> Result<Frame, CommandError> {
+    let shown = data.to_string_lossy();
+    let extension = data.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
+    let kind = if is_postgres(&shown) {
+        "postgres"
     } else {
-        Ok(load_csv(path, &csv_options(args)?)?)
+        match extension.as_str() {
+            "sqlite" | "sqlite3" | "db" | "gpkg" => "sqlite",
+            "xlsx" | "xlsm" => "workbook",
+            "parquet" | "pq" => "parquet",
+            "arrow" | "feather" | "ipc" => "arrow",
+            _ => "text",
+        }
+    };
+    if let Some(flags) = source {
+        let refuse = |flag: &str, applies: &str| {
+            Err(CommandError::Usage(format!("{flag} applies to {applies}, not to `{shown}`")))
+        };
+        if flags.query.is_some() && !matches!(kind, "postgres" | "sqlite") {
+            return refuse("--query", "a PostgreSQL server or an SQLite file");
+        }
+        if !flags.parameters.is_empty() && flags.query.is_none() {
+            return Err(CommandError::Usage("--param gives a value to a --query parameter; add the --query".into()));
+        }
+        if flags.table.is_some() && kind != "sqlite" {
+            return refuse("--table", "an SQLite file or GeoPackage");
+        }
+        if flags.table.is_some() && flags.query.is_some() {
+            return Err(CommandError::Usage("give either --table or --query, not both".into()));
+        }
+        if flags.sheet.is_some() && kind != "workbook" {
+            return refuse("--sheet", "an Excel workbook (.xlsx)");
+        }
     }
+    let rule = non_finite_rule(args)?;
+    let frame = match kind {
+        "postgres" => {
+            let query = source.and_then(|f| f.query.as_deref()).ok_or_else(|| {
+                CommandError::Usage(format!(
+                    "`{}` is a PostgreSQL server; say what to read with --query \"SELECT …\"",
+                    shown.split('@').next_back().unwrap_or("")
+                ))
+            })?;
+            let parameters: Vec<&str> =
+                source.map(|f| f.parameters.iter().map(String::as_str).collect()).unwrap_or_default();
+            load_postgres(&shown, query, &parameters)?
+        }
+        "sqlite" => match source {
+            Some(SourceFlags { table: Some(table), .. }) => load_sqlite(data, &SqlRead::table(table))?,
+            Some(SourceFlags { query: Some(query), parameters, .. }) => {
+                load_sqlite(data, &SqlRead::Query { sql: query.clone(), parameters: parameters.clone() })?
+            }
+            _ => load(data)?,
+        },
+        "workbook" => load_workbook(data, source.and_then(|f| f.sheet.as_deref()))?,
+        "parquet" => load_parquet(data)?,
+        "arrow" => load_arrow(data)?,
+        _ => return Ok(load_csv(data, &csv_options(args)?)?),
+    };
+    Ok(frame.with_non_finite(rule))
 }
 
 /// Runs `plumbline fit`; returns the report to print. Nothing is printed
 /// unless every step succeeded, so a failure never leaves partial JSON.
 pub fn run(args: &FitArgs) -> Result<String, CommandError> {
-    let frame = load_with_flags(&args.data, &args.input)?;
+    let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
     let spec = model_spec(args)?;
     let model = fit_with(&frame, &spec, &fit_options(args))?;
     let predictions = match &args.predict {
-        Some(path) => Some(model.predict(&load_with_flags(path, &args.input)?, args.level)?),
+        Some(path) => Some(model.predict(&load_with_flags(path, &args.input, None)?, args.level)?),
         None => None,
     };
     let diagnostics = if args.diagnose {

@@ -9,7 +9,7 @@ use plumbline::value::{ratio_study, PropertyClass, RatioOptions};
 
 /// Runs `plumbline ratio`.
 pub fn run(args: &RatioArgs) -> Result<String, CommandError> {
-    let frame = load_with_flags(&args.data, &args.input)?;
+    let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
     let class: PropertyClass = args.class.parse().map_err(CommandError::Usage)?;
     let values = frame.numeric_column(&args.value)?;
     let prices = frame.numeric_column(&args.price)?;
