@@ -137,3 +137,45 @@ fn categories_and_interactions_are_named() {
         doc["coefficients"].as_array().expect("a").iter().map(|c| c["term"].as_str().expect("s")).collect();
     assert_eq!(terms, vec!["intercept", "x", "d=East", "d=South", "x*d=East", "x*d=South"]);
 }
+
+#[test]
+fn a_source_flag_that_does_not_apply_is_refused_not_ignored() {
+    let norris = reference_dir().join("nist-strd").join("Norris.csv");
+    let norris = norris.to_str().expect("utf8");
+    let sheet =
+        run(&["fit", norris, "--target", "y", "--terms", "x", "--sheet", "Q3"]).expect_err("a CSV has no sheets");
+    assert!(sheet.to_string().contains("--sheet applies to an Excel workbook"), "{sheet}");
+    let query =
+        run(&["fit", norris, "--target", "y", "--terms", "x", "--query", "SELECT 1"]).expect_err("no query on CSV");
+    assert!(query.to_string().contains("--query applies to a PostgreSQL server or an SQLite file"), "{query}");
+    let server = run(&["fit", "postgresql://analyst@127.0.0.1:1/assessor", "--target", "y", "--terms", "x"])
+        .expect_err("a server needs a query");
+    assert!(server.to_string().contains("say what to read with --query"), "{server}");
+}
+
+#[test]
+fn an_sqlite_table_fits_on_the_command_line_as_its_csv_does() {
+    // NIST StRD Norris written into an SQLite table; both fits must agree to the last bit.
+    let norris = reference_dir().join("nist-strd").join("Norris.csv");
+    let text = std::fs::read_to_string(&norris).expect("Norris.csv");
+    let dir = scratch_dir("cli-sqlite");
+    let database = dir.join("norris.sqlite");
+    let connection = rusqlite::Connection::open(&database).expect("create");
+    connection.execute_batch("CREATE TABLE norris (y REAL, x REAL)").expect("table");
+    for line in text.lines().skip(1) {
+        let (y, x) = line.split_once(',').expect("two fields");
+        connection
+            .execute("INSERT INTO norris VALUES (?1, ?2)", [y.parse::<f64>().expect("y"), x.parse::<f64>().expect("x")])
+            .expect("insert");
+    }
+    drop(connection);
+    let json = |data: &str, extra: &[&str]| -> serde_json::Value {
+        let mut args = vec!["fit", data, "--target", "y", "--terms", "x", "--format", "json"];
+        args.extend_from_slice(extra);
+        serde_json::from_str(&run(&args).expect("fit")).expect("JSON")
+    };
+    let from_csv = json(norris.to_str().expect("utf8"), &[]);
+    let from_table = json(database.to_str().expect("utf8"), &["--table", "norris"]);
+    assert_eq!(from_csv["coefficients"], from_table["coefficients"]);
+    assert_eq!(from_table["data"]["source"]["table"], "norris");
+}

@@ -188,12 +188,14 @@ impl Parameter {
                 super::dates::parse_iso_date(text.trim()).ok_or_else(|| refuse("a date", "give it as YYYY-MM-DD"))?,
             ),
             Type::TEXT | Type::VARCHAR | Type::BPCHAR | Type::NAME | Type::UNKNOWN => Self::Text(text.to_string()),
-            ref other => return Err(refuse(
-                other.name(),
-                &format!(
+            ref other => {
+                return Err(refuse(
+                    other.name(),
+                    &format!(
                     "cast the parameter in the query to a type we pass, e.g. `${index}::float8` or `${index}::text`"
                 ),
-            )),
+                ))
+            }
         })
     }
 }

@@ -132,6 +132,19 @@ impl Provenance {
         Self { path: place, sha256, rows, cols, loaded_at: now_utc(), source: Some(source) }
     }
 
+    /// Where the data came from in words: the file path, or for a database
+    /// or workbook what was read of it (`table "sales" of parcels.gpkg`,
+    /// `query on postgresql://ana@db:5432/assessor`, `sheet "Q3" of sales.xlsx`).
+    pub fn describe(&self) -> String {
+        let Some(source) = &self.source else { return self.path.clone() };
+        match (&source.table, &source.sheet, &source.query) {
+            (Some(table), _, _) => format!("table \"{table}\" of {}", self.path),
+            (_, Some(sheet), _) => format!("sheet \"{sheet}\" of {}", self.path),
+            (_, _, Some(_)) => format!("query on {}", self.path),
+            _ => self.path.clone(),
+        }
+    }
+
     /// The first 12 hex digits of the hash, for compact display.
     pub fn short_hash(&self) -> &str {
         &self.sha256[..self.sha256.len().min(12)]

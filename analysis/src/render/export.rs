@@ -12,7 +12,7 @@ pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
     let mut out = format!("### Least-squares fit of {}\n\n", fit.spec().target_label());
     out.push_str(&format!(
         "Data: `{}` (SHA-256 `{}`), {} records used, dropped for missing values: {}. Standard errors: {}.\n\n",
-        prov.path,
+        prov.describe(),
         prov.sha256,
         super::numbers::format_count(stats.n_obs),
         fit.design().dropped.describe(),

@@ -120,7 +120,7 @@ pub fn fit_html(fit: &Fit, level: f64) -> crate::Result<String> {
     card_start(&mut out, &format!("Least-squares fit of {}", spec.target_label()));
     out.push_str(&format!(
         "<div style=\"{SUBTLE}\">{} · sha256 <code>{}</code>… · {} records used · dropped for missing values: {}</div>\n",
-        escape(&prov.path),
+        escape(&prov.describe()),
         escape(prov.short_hash()),
         format_count(stats.n_obs),
         escape(&dropped.describe())

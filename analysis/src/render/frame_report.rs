@@ -92,7 +92,8 @@ fn kind_words(dtype: &polars::prelude::DataType) -> String {
 pub fn frame_text(frame: &Frame) -> String {
     let prov = frame.provenance();
     let FrameCells { names, dtypes, numeric, rows } = frame_cells(frame);
-    let mut out = format!("{} records · {} columns from {}\n", format_count(frame.height()), frame.width(), prov.path);
+    let mut out =
+        format!("{} records · {} columns from {}\n", format_count(frame.height()), frame.width(), prov.describe());
     if !prov.sha256.is_empty() {
         out.push_str(&format!("  sha256 {}…, read {}\n", prov.short_hash(), prov.loaded_at));
     }
@@ -150,7 +151,7 @@ pub fn frame_html(frame: &Frame) -> String {
     let FrameCells { names, dtypes, numeric, rows } = frame_cells(frame);
     let mut out = String::new();
     card_start(&mut out, &format!("{} records · {} columns", format_count(frame.height()), frame.width()));
-    out.push_str(&format!("<div style=\"{SUBTLE}\">{}", escape(&prov.path)));
+    out.push_str(&format!("<div style=\"{SUBTLE}\">{}", escape(&prov.describe())));
     if !prov.sha256.is_empty() {
         out.push_str(&format!(
             " · sha256 <code>{}</code>… · read {}",
@@ -204,7 +205,7 @@ pub struct ProfileReport {
 impl ProfileReport {
     /// Profiles `frame`.
     pub fn of(frame: &Frame) -> crate::Result<Self> {
-        Ok(Self { source: frame.provenance().path.clone(), columns: profile(frame)? })
+        Ok(Self { source: frame.provenance().describe(), columns: profile(frame)? })
     }
 
     fn rows(&self) -> Vec<[String; 7]> {

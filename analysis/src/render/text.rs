@@ -18,7 +18,7 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
     let pct = percent(level);
 
     out.push_str(&format!("Least-squares fit of {}\n", spec.target_label()));
-    out.push_str(&format!("  file      {}\n", prov.path));
+    out.push_str(&format!("  source    {}\n", prov.describe()));
     out.push_str(&format!(
         "  data      {} records · {} columns, sha256 {}…, read {}\n",
         format_count(prov.rows),
