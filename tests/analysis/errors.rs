@@ -33,8 +33,12 @@ fn unreadable_csv_names_the_line() {
 
 #[test]
 fn unknown_extension_is_explained() {
-    let m = message(load("sales.xlsx"));
-    assert!(m.contains(".csv") && m.contains(".parquet"), "{m}");
+    // An OpenDocument spreadsheet is not among the formats read; the message lists those that are.
+    let m = message(load("sales.ods"));
+    assert!(m.contains("cannot tell the format of `sales.ods`"), "{m}");
+    for format in [".csv", ".parquet", ".arrow", ".xlsx", ".sqlite", ".gpkg"] {
+        assert!(m.contains(format), "{format} missing from: {m}");
+    }
 }
 
 #[test]
