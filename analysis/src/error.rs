@@ -356,6 +356,7 @@ pub enum Error {
     },
 
     /// An SQLite file (or GeoPackage) could not be opened or queried.
+    #[cfg(feature = "sqlite")]
     #[error("SQLite file `{path}`: could not {action}: {cause}")]
     Sqlite {
         /// The file, as given.

@@ -69,9 +69,11 @@ pub use polars;
 /// Everything a notebook cell or a small program needs, in one `use`.
 pub mod prelude {
     pub use crate::data::{
-        load, load_arrow, load_csv, load_parquet, load_postgres, load_sqlite, load_workbook, profile, ColumnProfile,
-        ColumnType, CsvOptions, Frame, NonFinite, Provenance, Screen, SqlRead, TextEncoding,
+        load, load_arrow, load_csv, load_parquet, load_postgres, load_workbook, profile, ColumnProfile, ColumnType,
+        CsvOptions, Frame, NonFinite, Provenance, Screen, TextEncoding,
     };
+    #[cfg(feature = "sqlite")]
+    pub use crate::data::{load_sqlite, SqlRead};
     pub use crate::fit::{fit, fit_with, CovarianceKind, Fit, FitOptions, Precision};
     pub use crate::inference::{Coefficient, FitStatistics, FitSummary};
     pub use crate::model::{ModelSpec, TargetTransform, Term, Transform};

@@ -29,6 +29,7 @@ mod postgres_reader;
 pub mod profile;
 mod provenance;
 mod screen;
+#[cfg(feature = "sqlite")]
 mod sqlite_reader;
 mod text_encoding;
 mod values;
@@ -42,6 +43,7 @@ pub use postgres_reader::load_postgres;
 pub use profile::{profile, ColumnProfile};
 pub use provenance::{sha256_hex, Provenance, SourceKind, SourceStamp};
 pub use screen::{ExcludedRow, Screen};
+#[cfg(feature = "sqlite")]
 pub use sqlite_reader::{load_sqlite, SqlRead};
 pub use text_encoding::TextEncoding;
 pub use values::{parse_formatted_number, NonFinite};
@@ -66,6 +68,7 @@ pub fn load(path: impl AsRef<Path>) -> Result<Frame> {
         Some("tsv") | Some("tab") => load_csv(path, &CsvOptions { delimiter: b'\t', ..CsvOptions::default() }),
         Some("arrow") | Some("feather") | Some("ipc") => load_arrow(path),
         Some("xlsx") | Some("xlsm") => load_workbook(path, None),
+        #[cfg(feature = "sqlite")]
         Some("sqlite") | Some("sqlite3") | Some("db") | Some("gpkg") => {
             load_sqlite(path, &sqlite_reader::only_table(path)?)
         }

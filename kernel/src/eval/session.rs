@@ -408,7 +408,7 @@ fn write_shared_library_crate(config: &EngineConfig) -> Result<PathBuf, String> 
         "# Written by the Plumbline kernel: cells see the analysis crate through this shared library.\n\
          [package]\nname = \"{SHARED_LIBRARY_PACKAGE}\"\nversion = \"{}\"\nedition = \"2021\"\npublish = false\n\n\
          [lib]\npath = \"src/lib.rs\"\ncrate-type = [\"dylib\"]\n\n\
-         [dependencies]\nplumbline = {{ path = \"{}\", package = \"plumbline-analysis\" }}\n",
+         [dependencies]\nplumbline = {{ path = \"{}\", package = \"plumbline-analysis\", default-features = false }}\n",
         env!("CARGO_PKG_VERSION"),
         config.analysis_path.display().to_string().replace('\\', "/")
     );
