@@ -12,9 +12,9 @@
 //!
 //! | document | type | `schema` | version | MIME type |
 //! |---|---|---|---|---|
-//! | fit | [`FitDocument`] | `plumbline.fit` | [`FIT_SCHEMA_VERSION`] | [`FIT_JSON_MIME`] |
-//! | comparison | [`ComparisonDocument`] | `plumbline.comparison` | [`COMPARISON_SCHEMA_VERSION`] | [`COMPARISON_JSON_MIME`] |
-//! | ratio study | [`RatioStudyDocument`] | `plumbline.ratio-study` | [`RATIO_STUDY_SCHEMA_VERSION`] | [`RATIO_JSON_MIME`] |
+//! | fit | [`FitDocument`] | `plumbline.fit` | [`FIT_SCHEMA_VERSION`] | [`crate::schema::FIT_JSON_MIME`] |
+//! | comparison | [`ComparisonDocument`] | `plumbline.comparison` | [`COMPARISON_SCHEMA_VERSION`] | [`crate::schema::COMPARISON_JSON_MIME`] |
+//! | ratio study | [`RatioStudyDocument`] | `plumbline.ratio-study` | [`RATIO_STUDY_SCHEMA_VERSION`] | [`crate::schema::RATIO_JSON_MIME`] |
 //! | drift report | [`crate::drift::DriftReport`] | `plumbline.drift` | [`crate::drift::DRIFT_SCHEMA_VERSION`] | [`crate::schema::DRIFT_JSON_MIME`] |
 //!
 //! The run record of `plumbline run` lives in the kernel crate, beside the
@@ -26,7 +26,6 @@ use crate::diagnose::{Collinearity, Influence, RowFlags, TestResult};
 use crate::error::{Error, Result};
 use crate::inference::FitSummary;
 use crate::predict::Predictions;
-use crate::schema::{COMPARISON_JSON_MIME, FIT_JSON_MIME, RATIO_JSON_MIME};
 use crate::value::RatioStudy;
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
@@ -247,10 +246,6 @@ pub fn read_ratio_study(mut document: Value, origin: &str) -> Result<RatioStudyD
     check_version(&document, RATIO_STUDY_SCHEMA, RATIO_STUDY_SCHEMA_VERSION, &what)?;
     typed(document, what)
 }
-
-/// The MIME types whose documents [`read_fit`], [`read_comparison`] and
-/// [`read_ratio_study`] read, in that order.
-pub const READABLE_MIME_TYPES: [&str; 3] = [FIT_JSON_MIME, COMPARISON_JSON_MIME, RATIO_JSON_MIME];
 
 /// Checks the `schema` name and returns the version, refusing a newer one.
 fn check_version(document: &Value, schema: &str, newest: u32, what: &str) -> Result<u32> {
