@@ -63,6 +63,33 @@ pub fn demo_spec() -> plumbline::prelude::ModelSpec {
         .term(Term::months_since("sale_date", "2023-01-01"))
 }
 
+/// The demo study's screened sales (valuation-study.ipynb, section 3):
+/// arm's-length sales with a living area of at most 8,000 sq ft.
+pub fn demo_study_sales() -> plumbline::prelude::Frame {
+    let sales = plumbline::prelude::load(demo_sales_csv()).expect("demo sales");
+    let arms_length =
+        sales.keep_where_text("sale_type", "arm's-length", |t| t == Some("arms-length")).expect("screen").kept;
+    arms_length
+        .keep_where_number("living_area", "at most 8,000 sq ft", |a| a.is_none_or(|a| a <= 8000.0))
+        .expect("screen")
+        .kept
+}
+
+/// The demo study's model C: log price on the hedonic terms, district
+/// (reference Wickerholm) and a monthly trend — location by district only.
+pub fn demo_model_c() -> plumbline::prelude::ModelSpec {
+    use plumbline::prelude::{ModelSpec, Term};
+    ModelSpec::new("sale_price")
+        .log_target()
+        .term(Term::numeric("living_area").log())
+        .term(Term::numeric("lot_size").log())
+        .numeric("age")
+        .numeric("quality")
+        .numeric("bathrooms")
+        .term(Term::category("district").reference("Wickerholm"))
+        .term(Term::months_since("sale_date", "2023-01-01"))
+}
+
 /// Asserts two fits agree bit for bit: every estimate and standard error,
 /// and the residual sum of squares.
 pub fn assert_same_fit(reference: &plumbline::prelude::Fit, other: &plumbline::prelude::Fit, what: &str) {

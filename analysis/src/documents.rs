@@ -16,17 +16,32 @@
 //! | comparison | [`ComparisonDocument`] | `plumbline.comparison` | [`COMPARISON_SCHEMA_VERSION`] | [`crate::schema::COMPARISON_JSON_MIME`] |
 //! | ratio study | [`RatioStudyDocument`] | `plumbline.ratio-study` | [`RATIO_STUDY_SCHEMA_VERSION`] | [`crate::schema::RATIO_JSON_MIME`] |
 //! | drift report | [`crate::drift::DriftReport`] | `plumbline.drift` | [`crate::drift::DRIFT_SCHEMA_VERSION`] | [`crate::schema::DRIFT_JSON_MIME`] |
+//! | spatial check | [`Versioned`]`<`[`SpatialCheck`]`>` | `plumbline.spatial-check` | 1 | [`crate::schema::SPATIAL_CHECK_JSON_MIME`] |
+//! | price tiers | [`Versioned`]`<`[`TierStudy`]`>` | `plumbline.price-tiers` | 1 | [`crate::schema::PRICE_TIERS_JSON_MIME`] |
+//! | value accuracy | [`Versioned`]`<`[`ValueAccuracy`]`>` | `plumbline.value-accuracy` | 1 | [`crate::schema::VALUE_ACCURACY_JSON_MIME`] |
+//! | holdout accuracy | [`Versioned`]`<`[`HoldoutAccuracy`]`>` | `plumbline.holdout-accuracy` | 1 | [`crate::schema::HOLDOUT_ACCURACY_JSON_MIME`] |
+//! | value roll | [`Versioned`]`<`[`ValueRoll`]`>` | `plumbline.value-roll` | 1 | [`crate::schema::VALUE_ROLL_JSON_MIME`] |
+//! | sales-chasing check | [`Versioned`]`<`[`SalesChasingCheck`]`>` | `plumbline.sales-chasing` | 1 | [`crate::schema::SALES_CHASING_JSON_MIME`] |
+//!
+//! The later documents share one wrapper, [`Versioned`], whose name and
+//! version come from the body type's [`DocumentKind`]; [`read_document`] reads
+//! any of them back.
 //!
 //! The run record of `plumbline run` lives in the kernel crate, beside the
 //! notebook it describes.
 
 use crate::compare::{Comparison, CrossValidationResult, NestedTest};
 use crate::data::Provenance;
-use crate::diagnose::{Collinearity, Influence, RowFlags, TestResult};
+use crate::diagnose::{Collinearity, Influence, RowFlags, SpatialCheck, TestResult};
 use crate::error::{Error, Result};
 use crate::inference::FitSummary;
 use crate::predict::Predictions;
-use crate::value::RatioStudy;
+use crate::schema::{
+    HOLDOUT_ACCURACY_JSON_MIME, PRICE_TIERS_JSON_MIME, SALES_CHASING_JSON_MIME, SPATIAL_CHECK_JSON_MIME,
+    VALUE_ACCURACY_JSON_MIME, VALUE_ROLL_JSON_MIME,
+};
+use crate::value::{HoldoutAccuracy, RatioStudy, SalesChasingCheck, TierStudy, ValueAccuracy, ValueRoll};
+use serde::de::DeserializeOwned;
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
 
@@ -44,8 +59,10 @@ pub const COMPARISON_SCHEMA_VERSION: u32 = 3;
 /// `schema` of a ratio-study document.
 pub const RATIO_STUDY_SCHEMA: &str = "plumbline.ratio-study";
 /// Version of [`RatioStudyDocument`]. 1 is the first versioned form; earlier
-/// documents had no `schema` field and read as version 1.
-pub const RATIO_STUDY_SCHEMA_VERSION: u32 = 1;
+/// documents had no `schema` field and read as version 1. 2 adds the
+/// optional `tiers` and `accuracy` sections (`plumbline ratio --tiers N
+/// --accuracy`); a version 1 document reads as one without them.
+pub const RATIO_STUDY_SCHEMA_VERSION: u32 = 2;
 
 /// The fit document: the summary every fit has, plus the sections the
 /// command line adds on request (`--predict`, `--diagnose`, `--influence`).
@@ -65,11 +82,15 @@ pub struct FitDocument {
     /// Per-row leverage, studentized residuals and Cook's distance, when asked for.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub influence: Option<Influence>,
+    /// Moran's I of the residuals over the sales' places, when asked for
+    /// (`--spatial-check`; fit document version 3).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub spatial: Option<SpatialCheck>,
 }
 
 impl From<FitSummary> for FitDocument {
     fn from(summary: FitSummary) -> Self {
-        Self { summary, predictions: None, diagnostics: None, influence: None }
+        Self { summary, predictions: None, diagnostics: None, influence: None, spatial: None }
     }
 }
 
@@ -178,13 +199,89 @@ pub struct RatioStudyDocument {
     /// Level, uniformity and vertical equity, overall and per group.
     #[serde(flatten)]
     pub study: RatioStudy,
+    /// The statistics by price tier, when asked for.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tiers: Option<TierStudy>,
+    /// Value accuracy figures, when asked for.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub accuracy: Option<ValueAccuracy>,
 }
 
 impl From<RatioStudy> for RatioStudyDocument {
     fn from(study: RatioStudy) -> Self {
-        Self { schema: RATIO_STUDY_SCHEMA.into(), schema_version: RATIO_STUDY_SCHEMA_VERSION, study }
+        Self {
+            schema: RATIO_STUDY_SCHEMA.into(),
+            schema_version: RATIO_STUDY_SCHEMA_VERSION,
+            study,
+            tiers: None,
+            accuracy: None,
+        }
     }
 }
+
+/// A result type written as a document of its own (see [`Versioned`]).
+pub trait DocumentKind: Serialize + DeserializeOwned + Clone {
+    /// The document's `schema` name.
+    const SCHEMA: &'static str;
+    /// The newest version this build writes and reads.
+    const VERSION: u32;
+    /// Its MIME type in notebook bundles.
+    const MIME: &'static str;
+    /// What it is, in words, for error messages.
+    const WHAT: &'static str;
+}
+
+/// A document made of a result's own fields plus `schema` and
+/// `schema_version`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct Versioned<T> {
+    /// The body type's [`DocumentKind::SCHEMA`].
+    pub schema: String,
+    /// The body type's [`DocumentKind::VERSION`].
+    pub schema_version: u32,
+    /// The result.
+    #[serde(flatten)]
+    pub body: T,
+}
+
+impl<T: DocumentKind> Versioned<T> {
+    /// Wraps `body` at the current version.
+    pub fn new(body: T) -> Self {
+        Self { schema: T::SCHEMA.into(), schema_version: T::VERSION, body }
+    }
+}
+
+/// Writes `body` as its compact JSON document.
+pub fn document_json<T: DocumentKind>(body: &T) -> Result<String> {
+    to_json(&Versioned::new(body.clone()), T::WHAT)
+}
+
+/// Reads a [`Versioned`] document of kind `T`, refusing another kind and a
+/// newer version. `origin` names where it came from in the error.
+pub fn read_document<T: DocumentKind>(document: Value, origin: &str) -> Result<Versioned<T>> {
+    let what = format!("the {} document in {origin}", T::WHAT);
+    check_version(&document, T::SCHEMA, T::VERSION, &what)?;
+    typed(document, what)
+}
+
+macro_rules! document_kind {
+    ($type:ty, $schema:literal, $version:literal, $mime:expr, $what:literal) => {
+        impl DocumentKind for $type {
+            const SCHEMA: &'static str = $schema;
+            const VERSION: u32 = $version;
+            const MIME: &'static str = $mime;
+            const WHAT: &'static str = $what;
+        }
+    };
+}
+
+document_kind!(SpatialCheck, "plumbline.spatial-check", 1, SPATIAL_CHECK_JSON_MIME, "spatial-check");
+document_kind!(TierStudy, "plumbline.price-tiers", 1, PRICE_TIERS_JSON_MIME, "price-tiers");
+document_kind!(ValueAccuracy, "plumbline.value-accuracy", 1, VALUE_ACCURACY_JSON_MIME, "value-accuracy");
+document_kind!(HoldoutAccuracy, "plumbline.holdout-accuracy", 1, HOLDOUT_ACCURACY_JSON_MIME, "holdout-accuracy");
+document_kind!(ValueRoll, "plumbline.value-roll", 1, VALUE_ROLL_JSON_MIME, "value-roll");
+document_kind!(SalesChasingCheck, "plumbline.sales-chasing", 1, SALES_CHASING_JSON_MIME, "sales-chasing");
 
 /// Serializes a document as compact JSON.
 pub fn to_json<T: Serialize>(document: &T, what: &'static str) -> Result<String> {

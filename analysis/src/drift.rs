@@ -14,24 +14,28 @@
 //!   confidence interval, and the terms that appeared or disappeared;
 //! * n, R², adjusted R², residual standard error and AIC, old → new;
 //! * each ratio-study statistic old → new beside its range, and the ones that
-//!   crossed the range (inside → outside or back), overall and per group.
+//!   crossed the range (inside → outside or back), overall and per group;
+//! * when both runs carry a value roll ([`ValueRoll`], every parcel's value),
+//!   the sales-chasing check of [`crate::value::sales_chasing_check`]: sold
+//!   against unsold parcels' value changes.
 //!
 //! The ranges are those recorded in the ratio-study documents themselves (see
 //! [`crate::value::standards`]; recalled from memory, verify before use).
 
-use crate::documents::{read_fit, read_ratio_study, FitDocument, RatioStudyDocument};
+use crate::documents::{read_document, read_fit, read_ratio_study, FitDocument, RatioStudyDocument};
 use crate::error::{Error, Result};
 use crate::fit::Fit;
 use crate::inference::FitSummary;
-use crate::schema::{FIT_JSON_MIME, RATIO_JSON_MIME};
-use crate::value::{RatioStatistics, RatioStudy};
+use crate::schema::{FIT_JSON_MIME, RATIO_JSON_MIME, VALUE_ROLL_JSON_MIME};
+use crate::value::{sales_chasing_check, RatioOptions, RatioStatistics, RatioStudy, SalesChasingCheck, ValueRoll};
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
 
 /// `schema` of the drift report.
 pub const DRIFT_SCHEMA: &str = "plumbline.drift";
-/// Version of [`DriftReport`]. 1 is the first versioned form.
-pub const DRIFT_SCHEMA_VERSION: u32 = 1;
+/// Version of [`DriftReport`]. 1 is the first versioned form; 2 adds
+/// `sales_chasing` and `sales_chasing_not_run`.
+pub const DRIFT_SCHEMA_VERSION: u32 = 2;
 
 /// The machine-readable results one run produced, in the order it produced them.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
@@ -42,6 +46,8 @@ pub struct RunResults {
     pub fits: Vec<FitDocument>,
     /// Ratio-study documents.
     pub ratio_studies: Vec<RatioStudyDocument>,
+    /// Value rolls (every parcel's value).
+    pub value_rolls: Vec<ValueRoll>,
 }
 
 impl RunResults {
@@ -57,7 +63,7 @@ impl RunResults {
     /// type — malformed, a field missing, a newer schema version — is an
     /// error naming this run's source.
     pub fn add_document(&mut self, mime: &str, document: &Value) -> Result<bool> {
-        if mime != FIT_JSON_MIME && mime != RATIO_JSON_MIME {
+        if mime != FIT_JSON_MIME && mime != RATIO_JSON_MIME && mime != VALUE_ROLL_JSON_MIME {
             return Ok(false);
         }
         let parsed = match document {
@@ -69,6 +75,8 @@ impl RunResults {
         };
         if mime == FIT_JSON_MIME {
             self.fits.push(read_fit(parsed, &self.source)?);
+        } else if mime == VALUE_ROLL_JSON_MIME {
+            self.value_rolls.push(read_document::<ValueRoll>(parsed, &self.source)?.body);
         } else {
             self.ratio_studies.push(read_ratio_study(parsed, &self.source)?);
         }
@@ -89,7 +97,7 @@ impl RunResults {
 
     /// True when the run holds no result [`drift`] can compare.
     pub fn is_empty(&self) -> bool {
-        self.fits.is_empty() && self.ratio_studies.is_empty()
+        self.fits.is_empty() && self.ratio_studies.is_empty() && self.value_rolls.is_empty()
     }
 }
 
@@ -196,6 +204,14 @@ pub struct DriftReport {
     pub ratio_studies: Vec<RatioDrift>,
     /// Ratio studies present in only one run.
     pub unpaired_ratio_studies: usize,
+    /// Sold against unsold parcels' value changes, when both runs carry a
+    /// value roll (the last of each is compared).
+    #[serde(default)]
+    pub sales_chasing: Option<SalesChasingCheck>,
+    /// Why the sales-chasing check could not run although both runs carry a
+    /// roll (e.g. no parcel sold between them).
+    #[serde(default)]
+    pub sales_chasing_not_run: Option<String>,
 }
 
 impl DriftReport {
@@ -212,6 +228,10 @@ impl DriftReport {
 
 /// Compares two runs; results are paired by position.
 pub fn drift(old: &RunResults, new: &RunResults) -> DriftReport {
+    let chasing = match (old.value_rolls.last(), new.value_rolls.last()) {
+        (Some(earlier), Some(later)) => Some(sales_chasing_check(earlier, later, &RatioOptions::default())),
+        _ => None,
+    };
     DriftReport {
         schema: DRIFT_SCHEMA.into(),
         schema_version: DRIFT_SCHEMA_VERSION,
@@ -226,6 +246,8 @@ pub fn drift(old: &RunResults, new: &RunResults) -> DriftReport {
             .map(|(a, b)| compare_ratio_studies(a, b))
             .collect(),
         unpaired_ratio_studies: old.ratio_studies.len().abs_diff(new.ratio_studies.len()),
+        sales_chasing: chasing.as_ref().and_then(|c| c.as_ref().ok()).cloned(),
+        sales_chasing_not_run: chasing.and_then(|c| c.err()).map(|e| e.to_string()),
     }
 }
 

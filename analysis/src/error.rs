@@ -311,6 +311,19 @@ pub enum Error {
         given: String,
     },
 
+    /// A value a calculation needs on every row it uses is missing or not finite.
+    #[error("data row {row}{} has no usable `{column}`, which {purpose} needs; fill it in, or leave the row out of the frame first", line_text(*.line))]
+    MissingValue {
+        /// The column concerned.
+        column: String,
+        /// The 1-based data row.
+        row: usize,
+        /// The 1-based line of the file, where the source has lines.
+        line: Option<u64>,
+        /// What needs the value.
+        purpose: String,
+    },
+
     /// A result could not be written as its machine-readable JSON document.
     #[error("could not write the {what} as JSON: {cause}")]
     Serialization {

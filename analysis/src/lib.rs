@@ -28,9 +28,10 @@
 //! | [`fit`] | least-squares solvers and covariance estimators |
 //! | [`inference`] | coefficient tests, fit statistics, JSON summary |
 //! | [`predict`] | predictions with confidence and prediction intervals |
-//! | [`diagnose`] | influence, collinearity, assumption tests, rows to check |
+//! | [`diagnose`] | influence, collinearity, assumption tests, the spatial check of residuals, rows to check |
+//! | [`spatial`] | spatial weights between parcels and Moran's I |
 //! | [`compare`] | nested tests, side-by-side tables, cross-validation, holdout splits |
-//! | [`value`] | ratio studies, sale-date adjustment, model values |
+//! | [`value`] | ratio studies, price tiers, value accuracy, sales-chasing check, sale-date adjustment, model values and the value roll |
 //! | [`documents`] | the JSON documents we write, as types, and how each is read back |
 //! | [`drift`] | what moved between two runs of a study |
 //! | [`render`] | every human-readable report |
@@ -55,6 +56,7 @@ pub mod plot;
 pub mod predict;
 pub mod render;
 pub mod schema;
+pub mod spatial;
 pub mod stats;
 pub mod value;
 
@@ -76,7 +78,7 @@ pub mod prelude {
     pub use crate::data::{load_sqlite, SqlRead};
     pub use crate::fit::{fit, fit_with, CovarianceKind, Fit, FitOptions, Precision};
     pub use crate::inference::{Coefficient, FitStatistics, FitSummary};
-    pub use crate::model::{ModelSpec, TargetTransform, Term, Transform};
+    pub use crate::model::{ModelSpec, NamedPoint, TargetTransform, Term, Transform};
     pub use crate::predict::{Prediction, Predictions};
     pub use crate::render::{show, Report};
     pub use crate::{Error, Result};

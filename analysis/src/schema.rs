@@ -10,6 +10,18 @@ pub const COMPARISON_JSON_MIME: &str = "application/vnd.plumbline.comparison+jso
 pub const RATIO_JSON_MIME: &str = "application/vnd.plumbline.ratio-study+json";
 /// MIME type of the machine-readable drift report (schema `plumbline.drift`).
 pub const DRIFT_JSON_MIME: &str = "application/vnd.plumbline.drift+json";
+/// MIME type of the spatial check of a fit's residuals.
+pub const SPATIAL_CHECK_JSON_MIME: &str = "application/vnd.plumbline.spatial-check+json";
+/// MIME type of ratio statistics by price tier.
+pub const PRICE_TIERS_JSON_MIME: &str = "application/vnd.plumbline.price-tiers+json";
+/// MIME type of value accuracy figures.
+pub const VALUE_ACCURACY_JSON_MIME: &str = "application/vnd.plumbline.value-accuracy+json";
+/// MIME type of value accuracy in sample and on held-out sales.
+pub const HOLDOUT_ACCURACY_JSON_MIME: &str = "application/vnd.plumbline.holdout-accuracy+json";
+/// MIME type of a value roll (every parcel's value from one run).
+pub const VALUE_ROLL_JSON_MIME: &str = "application/vnd.plumbline.value-roll+json";
+/// MIME type of the sales-chasing check between two runs.
+pub const SALES_CHASING_JSON_MIME: &str = "application/vnd.plumbline.sales-chasing+json";
 
 /// Reads a number that JSON may hold as `null`: `serde_json` writes a
 /// non-finite `f64` (a perfect fit's infinite log-likelihood, an undefined

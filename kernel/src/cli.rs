@@ -116,6 +116,11 @@ pub struct FitArgs {
     /// (categories; `=LEVEL` names the reference) (repeatable).
     #[arg(long = "date-term", value_name = "TERM")]
     pub date_terms: Vec<String>,
+    /// A location term, the distance of the coordinates in columns X, Y from
+    /// a named place at (PX, PY): `dist:X:Y:PX:PY:NAME` (e.g.
+    /// `dist:x:y:4.5:3.0:Lantern Green`), or its log, `logdist:…` (repeatable).
+    #[arg(long = "location-term", value_name = "TERM")]
+    pub location_terms: Vec<String>,
     /// Covariance estimator for standard errors.
     #[arg(long, value_enum, default_value_t = CovarianceArg::Classical)]
     pub cov: CovarianceArg,
@@ -151,6 +156,30 @@ pub struct FitArgs {
     /// Column identifying rows (e.g. a parcel id) in flagged-row lists.
     #[arg(long, value_name = "COL")]
     pub id: Option<String>,
+    /// Whether the model's misses cluster in space.
+    #[command(flatten)]
+    pub spatial: SpatialFlags,
+}
+
+/// Flags of the spatial check of a fit's residuals (Moran's I).
+#[derive(Debug, Args)]
+pub struct SpatialFlags {
+    /// Moran's I of the residuals over the sales' places, given as the two
+    /// coordinate columns `X,Y` (projected units, e.g. km east and north).
+    #[arg(long = "spatial-check", value_name = "X,Y")]
+    pub spatial_check: Option<String>,
+    /// Neighbours in the spatial check: the K nearest sales (default 8).
+    #[arg(long, value_name = "K", conflicts_with = "band")]
+    pub neighbours: Option<usize>,
+    /// Neighbours in the spatial check: every sale within this distance.
+    #[arg(long, value_name = "DISTANCE")]
+    pub band: Option<f64>,
+    /// Weigh each neighbour 1 instead of 1/count in the spatial check.
+    #[arg(long)]
+    pub binary_weights: bool,
+    /// Location column (e.g. district) to summarise residuals by in the spatial check.
+    #[arg(long, value_name = "COL")]
+    pub location_groups: Option<String>,
 }
 
 /// Flags every model shares: the target, its transform, intercept and weights.
@@ -306,6 +335,16 @@ pub struct RatioArgs {
     /// Confidence level of the intervals.
     #[arg(long, default_value_t = 0.95)]
     pub level: f64,
+    /// Also the ratio statistics in this many price tiers of equal count (2–20).
+    #[arg(long, value_name = "N")]
+    pub tiers: Option<usize>,
+    /// What the tiers rank sales by.
+    #[arg(long, value_enum, default_value_t = TierByArg::Blend)]
+    pub tier_by: TierByArg,
+    /// Also the value accuracy figures: share within ±10 % and ±20 % of
+    /// price, forecast standard deviation, error bands.
+    #[arg(long)]
+    pub accuracy: bool,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Text)]
     pub format: Format,
@@ -315,6 +354,17 @@ pub struct RatioArgs {
     /// What to read from a database or workbook.
     #[command(flatten)]
     pub source: SourceFlags,
+}
+
+/// What price tiers rank sales by.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum TierByArg {
+    /// The sale price.
+    Price,
+    /// The value.
+    Value,
+    /// ½ price + ½ value ÷ median ratio (the PRB's basis).
+    Blend,
 }
 
 /// Arguments of `plumbline kernel`.

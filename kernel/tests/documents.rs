@@ -12,10 +12,13 @@
 //! the fit document's type.
 
 use clap::Parser;
+use plumbline::diagnose::SpatialCheck;
+use plumbline::documents::Versioned;
 use plumbline::documents::{
     read_comparison, read_fit, read_ratio_study, ComparisonDocument, FitDocument, RatioStudyDocument,
 };
 use plumbline::drift::DriftReport;
+use plumbline::value::{HoldoutAccuracy, SalesChasingCheck, TierStudy, ValueAccuracy, ValueRoll};
 use plumbline_kernel::cli::{Cli, Command};
 use plumbline_kernel::commands::{compare, fit, ratio, CommandError};
 use plumbline_kernel::notebook::record::RunRecord;
@@ -29,6 +32,12 @@ fn generated_schemas() -> Vec<(&'static str, schemars::Schema)> {
         ("ratio-study.schema.json", schemars::schema_for!(RatioStudyDocument)),
         ("drift.schema.json", schemars::schema_for!(DriftReport)),
         ("run-record.schema.json", schemars::schema_for!(RunRecord)),
+        ("spatial-check.schema.json", schemars::schema_for!(Versioned<SpatialCheck>)),
+        ("price-tiers.schema.json", schemars::schema_for!(Versioned<TierStudy>)),
+        ("value-accuracy.schema.json", schemars::schema_for!(Versioned<ValueAccuracy>)),
+        ("holdout-accuracy.schema.json", schemars::schema_for!(Versioned<HoldoutAccuracy>)),
+        ("value-roll.schema.json", schemars::schema_for!(Versioned<ValueRoll>)),
+        ("sales-chasing.schema.json", schemars::schema_for!(Versioned<SalesChasingCheck>)),
     ]
 }
 
@@ -149,4 +158,68 @@ fn the_ratio_study_document_reads_back_through_its_type() {
     let document = read_ratio_study(raw.clone(), "the test").expect("reads as a RatioStudyDocument");
     assert_eq!(serde_json::to_value(&document).expect("serializes"), raw);
     assert_eq!(document.study.groups.len(), 2);
+}
+
+/// The new valuation documents read back through their types: a spatial
+/// check from the CLI on generated parcels (compared field by field), and a
+/// price-tier and accuracy section of a ratio document.
+#[test]
+fn the_valuation_check_documents_read_back_through_their_types() {
+    use plumbline::documents::{read_document, DocumentKind};
+    let dir = plumbline_tests::scratch_dir("valuation-documents");
+    let mut body = String::from("y,a,x,yc\n");
+    for i in 0..60 {
+        let (x, yc) = ((i % 8) as f64 + 0.01 * i as f64, (i / 8) as f64);
+        let a = ((i * 7919) % 17) as f64;
+        body.push_str(&format!("{},{a},{x},{yc}\n", 1.0 + 0.5 * a + (x * 0.7).sin()));
+    }
+    let path = plumbline_tests::write_file(&dir, "parcels.csv", &body);
+    let text = run(&[
+        "fit",
+        &path.display().to_string(),
+        "--target",
+        "y",
+        "--terms",
+        "a",
+        "--spatial-check",
+        "x,yc",
+        "--format",
+        "json",
+    ])
+    .expect("fit with a spatial check");
+    let document = read_fit(serde_json::from_str(&text).expect("JSON"), "test").expect("fit document");
+    let check = document.spatial.expect("the spatial section");
+    let again = read_document::<SpatialCheck>(
+        serde_json::from_str(&plumbline::documents::document_json(&check).expect("write")).expect("JSON"),
+        "test",
+    )
+    .expect("read back");
+    assert_eq!(again.schema, SpatialCheck::SCHEMA);
+    assert_eq!(again.body, check);
+    let refused = read_document::<ValueRoll>(serde_json::to_value(&again).expect("value"), "test").expect_err("kind");
+    assert!(refused.to_string().contains("plumbline.spatial-check"), "{refused}");
+
+    let mut body = String::from("value,price\n");
+    for i in 0..40 {
+        let price = 100000.0 + 1000.0 * i as f64;
+        body.push_str(&format!("{},{price}\n", price * (1.0 + 0.01 * ((i % 7) as f64 - 3.0))));
+    }
+    let path = plumbline_tests::write_file(&dir, "ratios.csv", &body);
+    let text = run(&[
+        "ratio",
+        &path.display().to_string(),
+        "--value",
+        "value",
+        "--price",
+        "price",
+        "--tiers",
+        "4",
+        "--accuracy",
+        "--format",
+        "json",
+    ])
+    .expect("ratio with tiers and accuracy");
+    let document = read_ratio_study(serde_json::from_str(&text).expect("JSON"), "test").expect("ratio document");
+    assert_eq!(document.tiers.expect("tiers").tiers.len(), 4);
+    assert_eq!(document.accuracy.expect("accuracy").within_10, 1.0);
 }

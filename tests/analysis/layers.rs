@@ -17,6 +17,8 @@ const LAYERS: &[&[&str]] = &[
     &["error"],
     // Foundations: extended arithmetic, document names, distributions and quantiles, digit grouping.
     &["numeric", "schema", "stats", "grouping"],
+    // Where parcels lie: spatial weights and Moran's I.
+    &["spatial"],
     // Files to frames.
     &["data"],
     // What to fit: specifications and design matrices.

@@ -77,27 +77,9 @@ fn residual_charts() {
     check("sheet", || plot::diagnostic_sheet(&model, &frame, &by_year).expect("draw"), 0.05, 0.6);
 }
 
-/// The demo study's chosen model (valuation-study.ipynb): arm's-length sales
-/// of at most 8,000 sq ft, log price on the hedonic terms, district and a
-/// monthly trend, HC3 errors.
+/// The demo study's model C with HC3 errors (valuation-study.ipynb).
 fn demo_study() -> (Frame, Fit) {
-    let sales = load_csv(plumbline_tests::repo_root().join("notebooks-demo/data/sales.csv"), &CsvOptions::default())
-        .expect("demo sales");
-    let arms_length =
-        sales.keep_where_text("sale_type", "arm's-length", |t| t == Some("arms-length")).expect("screen").kept;
-    let study = arms_length
-        .keep_where_number("living_area", "at most 8,000 sq ft", |a| a.is_none_or(|a| a <= 8000.0))
-        .expect("screen")
-        .kept;
-    let spec = ModelSpec::new("sale_price")
-        .log_target()
-        .term(Term::numeric("living_area").log())
-        .term(Term::numeric("lot_size").log())
-        .numeric("age")
-        .numeric("quality")
-        .numeric("bathrooms")
-        .term(Term::category("district").reference("Wickerholm"))
-        .term(Term::months_since("sale_date", "2023-01-01"));
+    let (study, spec) = (plumbline_tests::demo_study_sales(), plumbline_tests::demo_model_c());
     let model = fit_with(&study, &spec, &FitOptions::with_covariance(CovarianceKind::Hc3)).expect("fit");
     (study, model)
 }

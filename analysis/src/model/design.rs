@@ -1,7 +1,7 @@
 //! From a frame and a specification to the numbers a solver needs.
 
 use super::encode::{learn, GeneratedColumn, RowValues, TermEncoding};
-use super::spec::{DatePart, ModelSpec, TargetTransform, Term};
+use super::spec::{DatePart, ModelSpec, NamedPoint, TargetTransform, Term};
 use crate::data::{dates, Frame};
 use crate::error::{Error, Result};
 use chrono::NaiveDate;
@@ -110,19 +110,33 @@ struct CompleteRows {
     dropped: DroppedRows,
 }
 
-/// Where one set of values the design reads comes from: a frame column, or
-/// a part of a date column (a date term). Keyed in the maps below by the name
-/// the encoder reads it under ([`DatePart::derived_name`] for date parts).
+/// Where one set of values the design reads comes from: a frame column, a
+/// part of a date column (a date term), or the distance of two coordinate
+/// columns from a place. Keyed in the maps below by the name the encoder
+/// reads it under ([`Term::derived_name`] for derived values).
 #[derive(Debug, Clone, PartialEq)]
 enum ValueSource {
     Column(String),
     DatePart { column: String, part: DatePart },
+    Distance { x: String, y: String, point: NamedPoint },
 }
 
 impl ValueSource {
-    fn column(&self) -> &str {
+    /// The frame column a missing value is counted under. A distance is
+    /// missing exactly where one of its coordinates is, and its coordinates
+    /// are read (and counted) as columns of their own, so it has none.
+    fn column(&self) -> Option<&str> {
         match self {
-            ValueSource::Column(c) | ValueSource::DatePart { column: c, .. } => c,
+            ValueSource::Column(c) | ValueSource::DatePart { column: c, .. } => Some(c),
+            ValueSource::Distance { .. } => None,
+        }
+    }
+
+    /// Every frame column the source reads.
+    fn frame_columns(&self) -> Vec<&str> {
+        match self {
+            ValueSource::Column(c) | ValueSource::DatePart { column: c, .. } => vec![c],
+            ValueSource::Distance { x, y, .. } => vec![x, y],
         }
     }
 }
@@ -149,6 +163,12 @@ impl ValueReads {
                 let source = ValueSource::DatePart { column: column.clone(), part: part.clone() };
                 let map = if part.is_numeric() { &mut self.numbers } else { &mut self.labels };
                 map.insert(part.derived_name(column), source);
+            }
+            Term::Distance { x, y, point, .. } => {
+                self.add_number(x);
+                self.add_number(y);
+                let source = ValueSource::Distance { x: x.clone(), y: y.clone(), point: point.clone() };
+                self.numbers.insert(term.derived_name().unwrap_or_default(), source);
             }
             Term::Interaction(a, b) => {
                 self.add_term(a);
@@ -183,6 +203,12 @@ fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<Option<f64>>
             let days = frame.date_column(column)?;
             Ok((days.into_iter().map(|d| d.map(|d| between(reference, d))).collect(), 0))
         }
+        ValueSource::Distance { x, y, point } => {
+            // Non-finite coordinates are counted under their own columns.
+            let (xs, ys) = (frame.numeric_values(x)?.values, frame.numeric_values(y)?.values);
+            let distance = |(x, y): (Option<f64>, Option<f64>)| Some(point.distance(x?, y?));
+            Ok((xs.into_iter().zip(ys).map(distance).collect(), 0))
+        }
     }
 }
 
@@ -201,6 +227,7 @@ fn read_labels(frame: &Frame, source: &ValueSource) -> Result<Vec<Option<String>
             };
             Ok(frame.date_column(column)?.into_iter().map(|d| d.map(label)).collect())
         }
+        ValueSource::Distance { .. } => unreachable!("distances are read as numbers"),
     }
 }
 
@@ -208,7 +235,9 @@ fn read_labels(frame: &Frame, source: &ValueSource) -> Result<Vec<Option<String>
 /// present; missing values are counted by frame column, in `order`.
 fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<CompleteRows> {
     for source in reads.numbers.values().chain(reads.labels.values()) {
-        frame.require_column(source.column())?;
+        for column in source.frame_columns() {
+            frame.require_column(column)?;
+        }
     }
     let mut non_finite_by_column: BTreeMap<&str, usize> = BTreeMap::new();
     let mut raw_numbers = BTreeMap::new();
@@ -216,11 +245,11 @@ fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<
     // row the message names the column the user thinks of first.
     let position = |column: &str| order.iter().position(|c| c == column).unwrap_or(usize::MAX);
     let mut number_reads: Vec<(&String, &ValueSource)> = reads.numbers.iter().collect();
-    number_reads.sort_by_key(|(_, source)| position(source.column()));
+    number_reads.sort_by_key(|(_, source)| source.column().map_or(usize::MAX, position));
     for (key, source) in number_reads {
         let (values, non_finite) = read_numbers(frame, source)?;
-        if non_finite > 0 {
-            *non_finite_by_column.entry(source.column()).or_default() = non_finite;
+        if let (true, Some(column)) = (non_finite > 0, source.column()) {
+            *non_finite_by_column.entry(column).or_default() = non_finite;
         }
         raw_numbers.insert(key.clone(), (source.column(), values));
     }
@@ -234,17 +263,20 @@ fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<
     let mut missing_now: BTreeSet<&str> = BTreeSet::new();
     for row in 0..height {
         missing_now.clear();
+        let mut present = true;
         for (column, values) in raw_numbers.values() {
             if values[row].is_none() {
-                missing_now.insert(column);
+                present = false;
+                missing_now.extend(*column);
             }
         }
         for (column, values) in raw_labels.values() {
             if values[row].is_none() {
-                missing_now.insert(column);
+                present = false;
+                missing_now.extend(*column);
             }
         }
-        if missing_now.is_empty() {
+        if present {
             rows.push(row);
         }
         for column in &missing_now {

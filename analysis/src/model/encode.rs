@@ -191,7 +191,7 @@ pub fn learn(term: &Term, values: &RowValues, full_coding: bool) -> Result<TermE
             let coded_levels = all_levels.iter().filter(|l| Some(*l) != reference.as_ref()).cloned().collect();
             Ok(TermEncoding::Category { column: column.clone(), coded_levels, reference, all_levels })
         }
-        Term::Date { .. } => learn(&term.resolved(), values, full_coding),
+        Term::Date { .. } | Term::Distance { .. } => learn(&term.resolved(), values, full_coding),
         Term::Interaction(a, b) => {
             Ok(TermEncoding::Interaction(Box::new(learn(a, values, false)?), Box::new(learn(b, values, false)?)))
         }

@@ -13,5 +13,5 @@ mod spec;
 mod term_list;
 
 pub use design::{build_design, AppliedDesign, Design, DesignColumn, DesignRecipe, DroppedRows, TermSpan};
-pub use spec::{DatePart, ModelSpec, TargetTransform, Term, Transform};
+pub use spec::{DatePart, ModelSpec, NamedPoint, TargetTransform, Term, Transform};
 pub use term_list::parse_term_list;

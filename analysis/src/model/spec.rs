@@ -99,6 +99,35 @@ impl DatePart {
     }
 }
 
+/// A named place on the plane of a frame's coordinate columns, such as a
+/// park, a waterfront or a town centre: the anchor of a distance term.
+///
+/// Coordinates are in the units of the frame's coordinate columns (projected
+/// metres or kilometres; a distance computed from longitude and latitude in
+/// degrees would mean nothing, so project them first).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct NamedPoint {
+    /// What the place is called; it names the design column.
+    pub name: String,
+    /// Its first coordinate.
+    pub x: f64,
+    /// Its second coordinate.
+    pub y: f64,
+}
+
+impl NamedPoint {
+    /// A place called `name` at `(x, y)`.
+    pub fn new(name: impl Into<String>, x: f64, y: f64) -> Self {
+        Self { name: name.into(), x, y }
+    }
+
+    /// Euclidean distance `√((x − x₀)² + (y − y₀)²)` from the place, by
+    /// `f64::hypot` (no overflow or underflow in the squares).
+    pub fn distance(&self, x: f64, y: f64) -> f64 {
+        (x - self.x).hypot(y - self.y)
+    }
+}
+
 /// One term of a model.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub enum Term {
@@ -126,6 +155,21 @@ pub enum Term {
         /// For a categorical part, the level left out (`None`: the most
         /// frequent one); unused for numeric parts.
         reference: Option<String>,
+    },
+    /// The straight-line distance of each row's coordinates from a named
+    /// place, a number computed from two coordinate columns (the location
+    /// term of a hedonic model: how value changes with distance from an
+    /// amenity). The recipe keeps the place, so new rows are measured from
+    /// the same point.
+    Distance {
+        /// The first coordinate column.
+        x: String,
+        /// The second coordinate column.
+        y: String,
+        /// The place distances are measured from.
+        point: NamedPoint,
+        /// Transform of the distance before fitting (log, polynomial, …).
+        transform: Transform,
     },
     /// The product of two terms: every column of the left times every column
     /// of the right.
@@ -170,9 +214,16 @@ impl Term {
         Term::Date { column: column.into(), part: DatePart::MonthOfYear, reference: None }
     }
 
-    /// Replaces a numeric term's transform (no effect on other terms).
+    /// The distance of the coordinates in columns `x`, `y` from `point`, a
+    /// numeric term (see [`Term::Distance`]); transforms such as
+    /// [`Term::log`] apply to it as to any number.
+    pub fn distance_from(x: impl Into<String>, y: impl Into<String>, point: NamedPoint) -> Self {
+        Term::Distance { x: x.into(), y: y.into(), point, transform: Transform::Identity }
+    }
+
+    /// Replaces a numeric or distance term's transform (no effect on other terms).
     pub fn transformed(mut self, transform: Transform) -> Self {
-        if let Term::Numeric { transform: t, .. } = &mut self {
+        if let Term::Numeric { transform: t, .. } | Term::Distance { transform: t, .. } = &mut self {
             *t = transform;
         }
         self
@@ -217,8 +268,9 @@ impl Term {
         self
     }
 
-    /// The plain term a date term stands for, reading the values it derives
-    /// under [`DatePart::derived_name`]; other terms are returned as they are.
+    /// The plain term a derived term (date part, distance) stands for, reading
+    /// the values it derives under [`Term::derived_name`]; other terms are
+    /// returned as they are.
     pub(crate) fn resolved(&self) -> Term {
         match self {
             Term::Date { column, part, reference } => {
@@ -229,7 +281,21 @@ impl Term {
                     Term::Category { column: derived, reference: reference.clone() }
                 }
             }
+            Term::Distance { transform, .. } => {
+                Term::Numeric { column: self.derived_name().unwrap_or_default(), transform: *transform }
+            }
             other => other.clone(),
+        }
+    }
+
+    /// The name of the values a derived term (date part, distance) reads:
+    /// `sale_date (months since 2023-01-01)`, `distance from Lantern Green`;
+    /// `None` for terms that read a frame column directly.
+    pub fn derived_name(&self) -> Option<String> {
+        match self {
+            Term::Date { column, part, .. } => Some(part.derived_name(column)),
+            Term::Distance { point, .. } => Some(format!("distance from {}", point.name)),
+            Term::Numeric { .. } | Term::Category { .. } | Term::Interaction(..) => None,
         }
     }
 
@@ -240,22 +306,31 @@ impl Term {
 
     /// The term as a reader would say it: `area`, `log(area)`, `age^2`,
     /// `age (powers 1–3)`, `age (orthogonal, degree 3)`, `age (centred)`,
-    /// `district`, `area*district`.
+    /// `district`, `area*district`, `log(distance from Lantern Green)`.
     pub fn label(&self) -> String {
         match self {
-            Term::Numeric { column, transform } => match transform {
-                Transform::Identity => column.clone(),
-                Transform::Log => format!("log({column})"),
-                Transform::Power(p) => format!("{column}^{p}"),
-                Transform::Center => format!("{column} (centred)"),
-                Transform::Standardize => format!("{column} (standardized)"),
-                Transform::Polynomial(1) => column.clone(),
-                Transform::Polynomial(d) => format!("{column} (powers 1–{d})"),
-                Transform::OrthogonalPolynomial(d) => format!("{column} (orthogonal, degree {d})"),
-            },
+            Term::Distance { transform, .. } => self.resolved().label_with(transform),
+            Term::Numeric { transform, .. } => self.label_with(transform),
             Term::Category { column, .. } => column.clone(),
             Term::Date { column, part, .. } => part.derived_name(column),
             Term::Interaction(a, b) => format!("{}*{}", a.label(), b.label()),
+        }
+    }
+
+    /// The label of a numeric term's column under `transform`.
+    fn label_with(&self, transform: &Transform) -> String {
+        let column = match self {
+            Term::Numeric { column, .. } => column.clone(),
+            other => other.derived_name().unwrap_or_default(),
+        };
+        match transform {
+            Transform::Identity | Transform::Polynomial(1) => column,
+            Transform::Log => format!("log({column})"),
+            Transform::Power(p) => format!("{column}^{p}"),
+            Transform::Center => format!("{column} (centred)"),
+            Transform::Standardize => format!("{column} (standardized)"),
+            Transform::Polynomial(d) => format!("{column} (powers 1–{d})"),
+            Transform::OrthogonalPolynomial(d) => format!("{column} (orthogonal, degree {d})"),
         }
     }
 
@@ -265,6 +340,7 @@ impl Term {
             Term::Numeric { column, .. } | Term::Category { column, .. } | Term::Date { column, .. } => {
                 vec![column.as_str()]
             }
+            Term::Distance { x, y, .. } => vec![x.as_str(), y.as_str()],
             Term::Interaction(a, b) => {
                 let mut c = a.columns();
                 c.extend(b.columns());

@@ -16,6 +16,8 @@
 //! | `months:sale_date:2023-01-01` | months since a date (whole months plus the day's fraction) |
 //! | `days:sale_date:2023-01-01` | days since a date |
 //! | `year:sale_date`, `quarter:sale_date`, `month:sale_date` | sale year, quarter (`2025 Q3`), month of the year (`03 Mar`) as categories; `=LEVEL` names the reference |
+//! | `dist:x:y:4.2:3.1:Lantern Green` | distance of the coordinates in columns `x`, `y` from the place named last, at (4.2, 3.1) |
+//! | `logdist:x:y:4.2:3.1:Lantern Green` | its natural log |
 //! | `log:area*cat:district` | interaction |
 //!
 //! ```
@@ -24,7 +26,7 @@
 //! assert_eq!(terms.len(), 4);
 //! ```
 
-use super::spec::{Term, Transform};
+use super::spec::{NamedPoint, Term, Transform};
 use crate::error::{Error, Result};
 
 /// Parses a comma-separated term list.
@@ -37,6 +39,23 @@ fn parse_term(token: &str) -> Result<Term> {
         return Ok(parse_term(left.trim())?.times(parse_term(right.trim())?));
     }
     let bad = |why: &str| Error::Specification(format!("term `{token}`: {why}"));
+    if let Some(rest) = token.strip_prefix("dist:").or_else(|| token.strip_prefix("logdist:")) {
+        let fields: Vec<&str> = rest.splitn(5, ':').map(str::trim).collect();
+        let [x, y, px, py, name] = fields.as_slice() else {
+            return Err(bad("a distance term reads `dist:X:Y:PX:PY:NAME`, e.g. `dist:x:y:4.2:3.1:Lantern Green`"));
+        };
+        let coordinate = |s: &str| {
+            s.parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+                .ok_or_else(|| bad("the place's coordinates must be numbers"))
+        };
+        if [x, y, name].iter().any(|s| s.is_empty()) {
+            return Err(bad("a distance term needs both coordinate columns and the place's name"));
+        }
+        let term = Term::distance_from(*x, *y, NamedPoint::new(*name, coordinate(px)?, coordinate(py)?));
+        return Ok(if token.starts_with("log") { term.log() } else { term });
+    }
     let parts: Vec<&str> = token.splitn(3, ':').collect();
     let number = |s: &str| s.trim().parse::<f64>().map_err(|_| bad("expected a number after the column"));
     let degree =
@@ -65,7 +84,7 @@ fn parse_term(token: &str) -> Result<Term> {
         ["month", rest] => with_reference(rest, Term::month_of_year)?,
         [prefix, ..] => {
             return Err(bad(&format!(
-                "unknown prefix `{prefix}:`; use log:, pow:C:P, center:, std:, poly:C:D, orth:C:D, cat:, months:C:DATE, days:C:DATE, year:, quarter: or month:"
+                "unknown prefix `{prefix}:`; use log:, pow:C:P, center:, std:, poly:C:D, orth:C:D, cat:, months:C:DATE, days:C:DATE, year:, quarter:, month:, dist:X:Y:PX:PY:NAME or logdist:"
             )))
         }
         [] => return Err(bad("empty term")),
@@ -126,6 +145,19 @@ mod tests {
         assert_eq!(terms[2], Term::sale_year("d"));
         assert_eq!(terms[3], Term::sale_quarter("d").reference("2024 Q1"));
         assert_eq!(terms[4].label(), "d (month of year)");
+    }
+
+    #[test]
+    fn parses_distance_terms() {
+        let terms = parse_term_list("dist:x:y:4.2:-3.1:Lantern Green, logdist:e:n:0:0:Old Mill").unwrap();
+        assert_eq!(terms[0], Term::distance_from("x", "y", NamedPoint::new("Lantern Green", 4.2, -3.1)));
+        assert_eq!(terms[0].label(), "distance from Lantern Green");
+        assert_eq!(terms[1].label(), "log(distance from Old Mill)");
+        assert_eq!(terms[1].columns(), ["e", "n"]);
+        let e = parse_term_list("dist:x:y:4.2:Lantern Green").unwrap_err().to_string();
+        assert!(e.contains("dist:X:Y:PX:PY:NAME"), "{e}");
+        let e = parse_term_list("dist:x:y:east:3:Green").unwrap_err().to_string();
+        assert!(e.contains("coordinates must be numbers"), "{e}");
     }
 
     #[test]

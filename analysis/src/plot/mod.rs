@@ -16,6 +16,8 @@
 //! | [`coefficient_intervals`] | estimates with intervals, sorted, zero line |
 //! | [`histogram`] | histogram with a kernel density curve |
 //! | [`correlation_heatmap`] | correlation matrix of numeric columns |
+//! | [`residual_map`] | every fitted sale at its place, coloured by its miss, location groups labelled |
+//! | [`ratio_by_price`] | ratios against the price proxy, median, PRB line and tier medians |
 //! | [`diagnostic_sheet`] | the review sheet: five of the panels above, laid out for a valuation review |
 //!
 //! Charts that need the data beside the fit (time, location, names) take the
@@ -24,6 +26,7 @@
 mod canvas;
 mod charts_distribution;
 mod charts_fit;
+mod charts_place;
 mod charts_residual;
 mod review;
 mod sheet;
@@ -32,6 +35,7 @@ mod theme;
 
 pub use charts_distribution::{correlation_heatmap, histogram};
 pub use charts_fit::{coefficient_intervals, fit_line};
+pub use charts_place::{ratio_by_price, residual_map};
 pub use charts_residual::MAX_GROUPS_SHOWN;
 pub use review::{ReviewOptions, DEFAULT_LABELLED};
 pub use sheet::{

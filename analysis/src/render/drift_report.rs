@@ -149,6 +149,13 @@ pub fn drift_text(report: &DriftReport) -> String {
             report.unpaired_ratio_studies
         ));
     }
+    if let Some(check) = &report.sales_chasing {
+        out.push('\n');
+        out.push_str(check.bundle().get("text/plain").unwrap_or_default());
+    }
+    if let Some(reason) = &report.sales_chasing_not_run {
+        out.push_str(&format!("\nSales-chasing check not run: {reason}\n"));
+    }
     out
 }
 
@@ -236,7 +243,13 @@ pub fn drift_html(report: &DriftReport) -> String {
         }
     }
     out.push_str(&format!("<div style=\"{CAUTION}\">{}</div>\n", escape(VALUATION_CAUTION)));
+    if let Some(reason) = &report.sales_chasing_not_run {
+        out.push_str(&format!("<div style=\"{SUBTLE}\">Sales-chasing check not run: {}</div>\n", escape(reason)));
+    }
     card_end(&mut out);
+    if let Some(check) = &report.sales_chasing {
+        out.push_str(check.bundle().get("text/html").unwrap_or_default());
+    }
     out
 }
 

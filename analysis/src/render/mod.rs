@@ -18,6 +18,7 @@ mod prose;
 mod ratio_report;
 mod result_reports;
 mod text;
+mod valuation_checks;
 
 pub use accuracy_table::accuracy_table;
 pub use bundle::{

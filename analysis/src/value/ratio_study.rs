@@ -108,8 +108,8 @@ fn median(sorted: &[f64]) -> f64 {
     crate::stats::median_of_sorted(sorted).unwrap_or(f64::NAN)
 }
 
-/// Statistics of `(value, price)` pairs.
-fn statistics(pairs: &[(f64, f64)], options: &RatioOptions) -> Option<RatioStatistics> {
+/// Statistics of `(value, price)` pairs (`None` for fewer than two).
+pub(crate) fn statistics(pairs: &[(f64, f64)], options: &RatioOptions) -> Option<RatioStatistics> {
     let n = pairs.len();
     if n < 2 {
         return None;
@@ -179,18 +179,29 @@ fn statistics(pairs: &[(f64, f64)], options: &RatioOptions) -> Option<RatioStati
     })
 }
 
-/// Runs a ratio study of `values` against `prices` (aligned by row; rows
-/// missing either are skipped), optionally grouped by `groups`.
-pub fn ratio_study(
+/// The `(value, price)` pairs a ratio study uses, after trimming.
+pub(crate) struct RatioPairs {
+    /// Sales with both a value and a price, before trimming.
+    pub n_pairs: usize,
+    /// `(0-based row, value, price)` of the sales kept.
+    pub rows: Vec<(usize, f64, f64)>,
+    /// 1-based rows trimmed, with their ratios.
+    pub trimmed: Vec<(usize, f64)>,
+    /// The trimming fences.
+    pub fences: Option<(f64, f64)>,
+}
+
+/// Pairs values with prices by row (rows missing either are skipped),
+/// refuses a non-positive price or a negative or non-finite value, and trims
+/// ratios outside the IQR fences when `options.trim` asks.
+pub(crate) fn ratio_pairs(
     values: &[Option<f64>],
     prices: &[Option<f64>],
-    groups: Option<&[Option<String>]>,
     options: &RatioOptions,
-) -> Result<RatioStudy> {
-    if values.len() != prices.len() || groups.is_some_and(|g| g.len() != values.len()) {
-        return Err(Error::Specification("values, prices and groups must have one entry per row".into()));
+) -> Result<RatioPairs> {
+    if values.len() != prices.len() {
+        return Err(Error::Specification("values and prices must have one entry per row".into()));
     }
-    crate::stats::check_level(options.level)?;
     let mut rows: Vec<(usize, f64, f64)> = Vec::new();
     for (i, (v, p)) in values.iter().zip(prices).enumerate() {
         if let (Some(v), Some(p)) = (v, p) {
@@ -233,6 +244,22 @@ pub fn ratio_study(
             keep
         });
     }
+    Ok(RatioPairs { n_pairs, rows, trimmed, fences })
+}
+
+/// Runs a ratio study of `values` against `prices` (aligned by row; rows
+/// missing either are skipped), optionally grouped by `groups`.
+pub fn ratio_study(
+    values: &[Option<f64>],
+    prices: &[Option<f64>],
+    groups: Option<&[Option<String>]>,
+    options: &RatioOptions,
+) -> Result<RatioStudy> {
+    if values.len() != prices.len() || groups.is_some_and(|g| g.len() != values.len()) {
+        return Err(Error::Specification("values, prices and groups must have one entry per row".into()));
+    }
+    crate::stats::check_level(options.level)?;
+    let RatioPairs { n_pairs, rows, trimmed, fences } = ratio_pairs(values, prices, options)?;
     let pairs: Vec<(f64, f64)> = rows.iter().map(|r| (r.1, r.2)).collect();
     let overall = statistics(&pairs, options).ok_or_else(|| {
         Error::Specification("fewer than two sales remain after trimming; loosen the trimming".into())

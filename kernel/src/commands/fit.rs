@@ -1,7 +1,8 @@
 //! `plumbline fit`: one model, one data file, a report on stdout.
 
 use super::CommandError;
-use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg, SourceFlags};
+use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg, SourceFlags, SpatialFlags};
+use plumbline::diagnose::SpatialOptions;
 use plumbline::documents::{to_pretty_json, FitDiagnostics, FitDocument};
 use plumbline::prelude::*;
 use std::collections::BTreeMap;
@@ -109,6 +110,16 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
     for text in &args.interact {
         let (a, b) = split_pair(text, '*', "interact", "A*B such as `living_area*district`")?;
         spec = spec.term(side(a).times(side(b)));
+    }
+    for text in &args.location_terms {
+        for term in plumbline::model::parse_term_list(text)? {
+            if !matches!(term, Term::Distance { .. }) {
+                return Err(CommandError::Usage(format!(
+                    "--location-term expects a distance term such as `dist:x:y:4.5:3.0:Lantern Green`, got `{text}`"
+                )));
+            }
+            spec = spec.term(term);
+        }
     }
     for text in &args.date_terms {
         for term in plumbline::model::parse_term_list(text)? {
@@ -228,6 +239,34 @@ pub fn load_with_flags(
     Ok(frame.with_non_finite(rule))
 }
 
+/// The spatial check the flags ask for, if any.
+fn spatial_options(flags: &SpatialFlags) -> Result<Option<SpatialOptions>, CommandError> {
+    let Some(columns) = &flags.spatial_check else {
+        if flags.neighbours.is_some() || flags.band.is_some() || flags.binary_weights || flags.location_groups.is_some()
+        {
+            return Err(CommandError::Usage(
+                "--neighbours, --band, --binary-weights and --location-groups shape the spatial check; add --spatial-check X,Y".into(),
+            ));
+        }
+        return Ok(None);
+    };
+    let (x, y) = split_pair(columns, ',', "spatial-check", "X,Y such as `x,y`")?;
+    let mut options = SpatialOptions::new(x, y);
+    if let Some(k) = flags.neighbours {
+        options = options.nearest(k);
+    }
+    if let Some(distance) = flags.band {
+        options = options.within(distance);
+    }
+    if flags.binary_weights {
+        options = options.binary();
+    }
+    if let Some(column) = &flags.location_groups {
+        options = options.grouped_by(column.as_str());
+    }
+    Ok(Some(options))
+}
+
 /// Runs `plumbline fit`; returns the report to print. Nothing is printed
 /// unless every step succeeded, so a failure never leaves partial JSON.
 pub fn run(args: &FitArgs) -> Result<String, CommandError> {
@@ -243,9 +282,18 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
     } else {
         None
     };
+    let spatial = match spatial_options(&args.spatial)? {
+        Some(options) => Some(model.spatial_check(&frame, &options)?),
+        None => None,
+    };
     match args.format {
         Format::Text => {
             let mut text = plumbline::render::fit_text(&model, args.level)?;
+            if let Some(check) = &spatial {
+                use plumbline::render::Report;
+                text.push('\n');
+                text.push_str(check.bundle().get("text/plain").unwrap_or_default());
+            }
             if let Some((tests, collinearity, flags)) = &diagnostics {
                 text.push('\n');
                 text.push_str(&plumbline::render::tests_text(tests));
@@ -272,6 +320,9 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
             if let Some(p) = &predictions {
                 cards.push(html_of(p.bundle()));
             }
+            if let Some(check) = &spatial {
+                cards.push(html_of(check.bundle()));
+            }
             Ok(plumbline::render::html::page(&format!("Fit of {}", model.spec().target_label()), &cards))
         }
         Format::Json => {
@@ -284,6 +335,7 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
                     flagged_rows,
                 }),
                 influence: args.influence.then(|| model.influence()),
+                spatial,
             };
             Ok(to_pretty_json(&document, "fit document")?)
         }

@@ -2,10 +2,10 @@
 
 use super::fit::load_with_flags;
 use super::CommandError;
-use crate::cli::{Format, RatioArgs};
+use crate::cli::{Format, RatioArgs, TierByArg};
 use plumbline::documents::{to_pretty_json, RatioStudyDocument};
 use plumbline::render::Report;
-use plumbline::value::{ratio_study, PropertyClass, RatioOptions};
+use plumbline::value::{ratio_study, ratio_tiers, value_accuracy, PropertyClass, RatioOptions, TierBasis};
 
 /// Runs `plumbline ratio`.
 pub fn run(args: &RatioArgs) -> Result<String, CommandError> {
@@ -19,12 +19,24 @@ pub fn run(args: &RatioArgs) -> Result<String, CommandError> {
     };
     let options = RatioOptions { trim: (!args.no_trim).then_some(args.trim), level: args.level, class };
     let study = ratio_study(&values, &prices, groups.as_deref(), &options)?;
-    let bundle = study.bundle();
+    let basis = match args.tier_by {
+        TierByArg::Price => TierBasis::SalePrice,
+        TierByArg::Value => TierBasis::Value,
+        TierByArg::Blend => TierBasis::Blend,
+    };
+    let tiers = args.tiers.map(|t| ratio_tiers(&values, &prices, t, basis, &options)).transpose()?;
+    let accuracy = args.accuracy.then(|| value_accuracy(&values, &prices)).transpose()?;
+    let mut bundles = vec![study.bundle()];
+    bundles.extend(tiers.as_ref().map(Report::bundle));
+    bundles.extend(accuracy.as_ref().map(Report::bundle));
+    let part =
+        |mime: &str| -> Vec<String> { bundles.iter().map(|b| b.get(mime).unwrap_or_default().to_string()).collect() };
     Ok(match args.format {
-        Format::Text => bundle.get("text/plain").unwrap_or_default().to_string(),
-        Format::Json => to_pretty_json(&RatioStudyDocument::from(study), "ratio-study document")?,
-        Format::Html => {
-            plumbline::render::html::page("Ratio study", &[bundle.get("text/html").unwrap_or_default().to_string()])
+        Format::Text => part("text/plain").join("\n"),
+        Format::Json => {
+            let document = RatioStudyDocument { tiers, accuracy, ..RatioStudyDocument::from(study) };
+            to_pretty_json(&document, "ratio-study document")?
         }
+        Format::Html => plumbline::render::html::page("Ratio study", &part("text/html")),
     })
 }

@@ -3,7 +3,9 @@
 //! and ratio-study bundle in the outputs of an executed `.ipynb`, in order.
 
 use super::document::Notebook;
+use plumbline::documents::DocumentKind;
 use plumbline::drift::RunResults;
+use plumbline::value::ValueRoll;
 use serde_json::Value;
 use std::path::Path;
 
@@ -28,8 +30,11 @@ pub fn read_run(path: &Path) -> Result<RunResults, ResultsError> {
     let text = std::fs::read_to_string(path).map_err(|e| unreadable(e.to_string()))?;
     let root: Value = serde_json::from_str(&text).map_err(|e| unreadable(e.to_string()))?;
     let mut run = RunResults::new(shown.clone());
-    if root.get("schema").and_then(Value::as_str) == Some("plumbline.fit") {
+    let schema = root.get("schema").and_then(Value::as_str);
+    if schema == Some("plumbline.fit") {
         run.add_document(plumbline::render::FIT_JSON_MIME, &root)?;
+    } else if schema == Some(<ValueRoll as DocumentKind>::SCHEMA) {
+        run.add_document(<ValueRoll as DocumentKind>::MIME, &root)?;
     } else if root.get("cells").is_some() {
         let notebook = Notebook::from_json(root).map_err(unreadable)?;
         for cell in 0..notebook.len() {

@@ -7,12 +7,32 @@
 //! ```text
 //! ln(price) = 7.15 + 0.62·ln(living_area) + 0.11·ln(lot_size) − 0.0042·age
 //!           + 0.085·(quality − 3) + 0.045·bathrooms + district effect
-//!           + 0.0040·months + ε,
+//!           + 0.0040·months − 0.040·distance + ε,
 //! ε ~ Normal(0, σᵢ),  σᵢ = 0.085 · (living_area / 1800)^0.35   (heteroskedastic)
 //! ```
 //!
 //! District effects (reference Wickerholm = 0): Tidewright Quay +0.18, Brambleknot −0.09,
 //! Corvel Heights +0.27, Mossgrieve −0.15, Pellowick +0.05.
+//!
+//! **The town plan.** Wrenmoor lies on a 9 km × 6 km plane (coordinates `x`,
+//! `y` in km, east and north of the town's south-west corner). Each district
+//! is a 3 km square; a parcel's place is drawn uniformly inside its district:
+//!
+//! ```text
+//!  y 6 ┌──────────────┬────────────────┬────────────────┐
+//!      │  Pellowick   │ Tidewright Quay│ Corvel Heights │
+//!    3 ├──────────────┼───────●────────┼────────────────┤   ● Lantern Green (4.5, 3.0)
+//!      │ Brambleknot  │   Wickerholm   │   Mossgrieve   │
+//!    0 └──────────────┴────────────────┴────────────────┘
+//!      0              3                6                9  x
+//! ```
+//!
+//! `distance` is the straight-line distance in km from Lantern Green, the
+//! town's park: prices fall 4 % per km from it (`−0.040` in logs), *inside*
+//! every district as well as between them. District indicators capture only
+//! each district's average distance, so a district-only model leaves a smooth
+//! spatial pattern in its residuals; a distance term removes it. The truth
+//! file records the surface.
 //!
 //! `months` counts from 1 January 2023 the way Plumbline's months-since date
 //! term does: whole calendar months plus the day's fraction of its month,
@@ -25,8 +45,14 @@
 //!   and twelve missing lot sizes.
 //! * `subjects.csv` — 40 unsold properties to value (no price); their
 //!   `sale_date` is the valuation date, 2026-01-01, which the trend term reads.
+//! * `parcels.csv` — the town's roll as of 2026-01-01: every parcel above (the
+//!   3,000 sold, the 300 that sell in the next quarter, the 40 subjects) with
+//!   its correct characteristics, `age` at 2026 and a `sale_date` column
+//!   holding the valuation date; the study values every parcel on it, so a
+//!   rerun can compare sold and unsold parcels' value changes.
 //! * `truth.json` — the true coefficients above, named as the design columns
-//!   of a Plumbline fit (for the check that the study recovers them).
+//!   of a Plumbline fit (for the check that the study recovers them), and
+//!   the location surface.
 //! * `sales-next-quarter.csv` — the same market one quarter on: 3,000 earlier
 //!   sales plus 300 new ones from January–March 2026, in which prices rose a
 //!   further 3 % (`ln` shift 0.0296) on top of the monthly trend.
@@ -57,6 +83,14 @@ const TRUE_AGE_DECLINE: f64 = 0.0042;
 const TRUE_QUALITY: f64 = 0.085;
 const TRUE_BATHROOMS: f64 = 0.045;
 const TRUE_MONTHLY_TREND: f64 = 0.0040;
+/// Change of ln(price) per km of distance from Lantern Green.
+const TRUE_DISTANCE_PER_KM: f64 = -0.040;
+/// Lantern Green, the town's park, in km from the south-west corner.
+const LANTERN_GREEN: (f64, f64) = (4.5, 3.0);
+/// South-west corner (km) of each district's 3 km square, in `DISTRICTS` order.
+const DISTRICT_CORNERS: [(f64, f64); 6] = [(3.0, 0.0), (3.0, 3.0), (0.0, 0.0), (6.0, 3.0), (6.0, 0.0), (0.0, 3.0)];
+/// Side of a district's square, km.
+const DISTRICT_SIDE: f64 = 3.0;
 
 /// The true model as a JSON document whose coefficient names are the design
 /// columns a Plumbline fit of the same specification produces (quality enters
@@ -74,10 +108,13 @@ fn truth_json() -> String {
         terms.push((format!("district={name}"), *effect));
     }
     terms.push(("sale_date (months since 2023-01-01)".to_string(), TRUE_MONTHLY_TREND));
+    terms.push(("distance from Lantern Green".to_string(), TRUE_DISTANCE_PER_KM));
     let body: Vec<String> = terms.iter().map(|(name, value)| format!("    \"{name}\": {value}")).collect();
     format!(
-        "{{\n  \"target\": \"log(sale_price)\",\n  \"reference_district\": \"{}\",\n  \"next_quarter_log_shift\": {NEXT_QUARTER_SHIFT},\n  \"coefficients\": {{\n{}\n  }}\n}}\n",
+        "{{\n  \"target\": \"log(sale_price)\",\n  \"reference_district\": \"{}\",\n  \"next_quarter_log_shift\": {NEXT_QUARTER_SHIFT},\n  \"location_surface\": {{\n    \"form\": \"linear in the straight-line distance from a point\",\n    \"point\": {{ \"name\": \"Lantern Green\", \"x\": {}, \"y\": {} }},\n    \"coordinate_units\": \"km\",\n    \"log_price_per_km\": {TRUE_DISTANCE_PER_KM}\n  }},\n  \"coefficients\": {{\n{}\n  }}\n}}\n",
         DISTRICTS[0].0,
+        LANTERN_GREEN.0,
+        LANTERN_GREEN.1,
         body.join(",\n")
     )
 }
@@ -85,6 +122,9 @@ fn truth_json() -> String {
 struct Property {
     parcel: String,
     district: usize,
+    /// Place in km east and north of the town's south-west corner.
+    x: f64,
+    y: f64,
     living_area: f64,
     lot_size: f64,
     year_built: i32,
@@ -92,7 +132,10 @@ struct Property {
     bathrooms: f64,
 }
 
-fn draw_property(rng: &mut ChaCha20Rng, index: usize) -> Property {
+/// Draws a property's characteristics from `rng` and its place from
+/// `places` (a stream of its own, so adding the town plan left every other
+/// draw of the generator as it was).
+fn draw_property(rng: &mut ChaCha20Rng, places: &mut ChaCha20Rng, index: usize) -> Property {
     let u: f64 = rng.random();
     let mut acc = 0.0;
     let mut district = 0;
@@ -123,9 +166,15 @@ fn draw_property(rng: &mut ChaCha20Rng, index: usize) -> Property {
     };
     let baths_raw = 1.0 + (living_area - 700.0) / 900.0 + Normal::new(0.0, 0.5).expect("valid sd").sample(rng);
     let bathrooms = ((baths_raw * 2.0).round() / 2.0).clamp(1.0, 5.0);
+    let (corner_x, corner_y) = DISTRICT_CORNERS[district];
+    // Metre precision, as a roll would hold them.
+    let x = ((corner_x + DISTRICT_SIDE * places.random::<f64>()) * 1000.0).round() / 1000.0;
+    let y = ((corner_y + DISTRICT_SIDE * places.random::<f64>()) * 1000.0).round() / 1000.0;
     Property {
         parcel: format!("WM-{:06}", 100_000 + index * 7),
         district,
+        x,
+        y,
         living_area,
         lot_size,
         year_built,
@@ -142,6 +191,7 @@ fn log_price(p: &Property, months: f64, sale_year: i32, rng: &mut ChaCha20Rng, s
         + TRUE_BATHROOMS * p.bathrooms
         + DISTRICTS[p.district].1
         + TRUE_MONTHLY_TREND * months
+        + TRUE_DISTANCE_PER_KM * (p.x - LANTERN_GREEN.0).hypot(p.y - LANTERN_GREEN.1)
         + shift;
     let sigma = 0.085 * (p.living_area / 1800.0).powf(0.35);
     mean + Normal::new(0.0, sigma).expect("valid sd").sample(rng)
@@ -163,7 +213,7 @@ fn days_in_month(year: i32, month: i32) -> i32 {
 }
 
 const SALES_HEADER: &str =
-    "parcel_id,sale_date,sale_price,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_type\n";
+    "parcel_id,sale_date,sale_price,living_area,lot_size,year_built,age,quality,bathrooms,district,x,y,sale_type\n";
 
 fn sale_row(out: &mut String, p: &Property, month_index: i32, rng: &mut ChaCha20Rng, shift: f64) {
     let day = rng.random_range(1..=28);
@@ -173,10 +223,26 @@ fn sale_row(out: &mut String, p: &Property, month_index: i32, rng: &mut ChaCha20
     let age = (year - p.year_built).max(0);
     let _ = writeln!(
         out,
-        "{},{year:04}-{month:02}-{day:02},{price:.0},{},{},{},{age},{},{},{},arms-length",
-        p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0
+        "{},{year:04}-{month:02}-{day:02},{price:.0},{},{},{},{age},{},{},{},{},{},arms-length",
+        p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0, p.x, p.y
     );
 }
+
+/// A parcel's line on the roll: its characteristics as of 2026-01-01.
+fn roll_row(out: &mut String, p: &Property) {
+    let age = (2026 - p.year_built).max(0);
+    let _ = writeln!(
+        out,
+        "{},{},{},{},{age},{},{},{},{},{},2026-01-01",
+        p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0, p.x, p.y
+    );
+}
+
+/// Header of `subjects.csv` and `parcels.csv`.
+const ROLL_HEADER: &str = "parcel_id,living_area,lot_size,year_built,age,quality,bathrooms,district,x,y,sale_date\n";
+
+/// Mixed into the seed of the stream that places parcels on the plan.
+const PLACE_STREAM: u64 = 0x0070_1a7e;
 
 fn main() -> std::process::ExitCode {
     let mut args = std::env::args().skip(1);
@@ -196,11 +262,14 @@ fn main() -> std::process::ExitCode {
         }
     }
     let mut rng = ChaCha20Rng::seed_from_u64(seed);
+    let mut places = ChaCha20Rng::seed_from_u64(seed ^ PLACE_STREAM);
+    let mut roll = String::from(ROLL_HEADER);
 
     let mut sales = String::from(SALES_HEADER);
     let mut rows: Vec<String> = Vec::new();
     for i in 0..3000 {
-        let p = draw_property(&mut rng, i);
+        let p = draw_property(&mut rng, &mut places, i);
+        roll_row(&mut roll, &p);
         let month_index = rng.random_range(0..36);
         let mut row = String::new();
         sale_row(&mut row, &p, month_index, &mut rng, 0.0);
@@ -219,7 +288,7 @@ fn main() -> std::process::ExitCode {
         let mut fields: Vec<String> = rows[i].trim_end().split(',').map(str::to_string).collect();
         let price: f64 = fields[2].parse().unwrap_or(300000.0);
         fields[2] = format!("{:.0}", (price * 0.35 / 100.0).round() * 100.0);
-        fields[10] = "non-arms-length".into();
+        fields[12] = "non-arms-length".into();
         rows[i] = fields.join(",") + "\n";
     }
     for &i in &[57usize, 340, 612, 1011, 1299, 1533, 1870, 2045, 2290, 2611, 2830, 2977] {
@@ -231,21 +300,17 @@ fn main() -> std::process::ExitCode {
 
     let mut next = sales.clone();
     for i in 0..300 {
-        let p = draw_property(&mut rng, 3000 + i);
+        let p = draw_property(&mut rng, &mut places, 3000 + i);
+        roll_row(&mut roll, &p);
         let month_index = rng.random_range(36..39);
         sale_row(&mut next, &p, month_index, &mut rng, NEXT_QUARTER_SHIFT);
     }
 
-    let mut subjects =
-        String::from("parcel_id,living_area,lot_size,year_built,age,quality,bathrooms,district,sale_date\n");
+    let mut subjects = String::from(ROLL_HEADER);
     for i in 0..40 {
-        let p = draw_property(&mut rng, 5000 + i);
-        let age = (2026 - p.year_built).max(0);
-        let _ = writeln!(
-            subjects,
-            "{},{},{},{},{age},{},{},{},2026-01-01",
-            p.parcel, p.living_area, p.lot_size, p.year_built, p.quality, p.bathrooms, DISTRICTS[p.district].0
-        );
+        let p = draw_property(&mut rng, &mut places, 5000 + i);
+        roll_row(&mut subjects, &p);
+        roll_row(&mut roll, &p);
     }
 
     if let Err(e) = std::fs::create_dir_all(&out_dir) {
@@ -253,9 +318,13 @@ fn main() -> std::process::ExitCode {
         return std::process::ExitCode::FAILURE;
     }
     let truth = truth_json();
-    for (name, body) in
-        [("sales.csv", &sales), ("sales-next-quarter.csv", &next), ("subjects.csv", &subjects), ("truth.json", &truth)]
-    {
+    for (name, body) in [
+        ("sales.csv", &sales),
+        ("sales-next-quarter.csv", &next),
+        ("subjects.csv", &subjects),
+        ("parcels.csv", &roll),
+        ("truth.json", &truth),
+    ] {
         let path = out_dir.join(name);
         if let Err(e) = std::fs::write(&path, body) {
             eprintln!("error: cannot write `{}`: {e}", path.display());

@@ -1,0 +1,204 @@
+//! Charts of place and price for a model review:
+//!
+//! | function | chart |
+//! |---|---|
+//! | [`residual_map`] | every fitted sale at its coordinates, coloured by its miss on a diverging scale, location groups labelled at their middle |
+//! | [`ratio_by_price`] | each sale's ratio against its price proxy on a doubling scale, the median level, the PRB line and the tier medians |
+//!
+//! **The miss scale** (ours): sales the model valued *low* (price above
+//! value, residual > 0) shade towards terracotta, sales valued *high* towards
+//! slate blue, and sales it priced about right are a pale sand that recedes
+//! into the paper. The scale is clipped at ±2.5 residual standard deviations
+//! so that a few wild sales do not wash out the pattern.
+
+use super::canvas::{axes_with, render, AxisTicks};
+use super::plot_error;
+use super::theme::{format_tick, ACCENT, FONT, INK, POINT, SOFT};
+use super::{PlotSize, Svg};
+use crate::data::Frame;
+use crate::diagnose::SpatialOptions;
+use crate::error::Result;
+use crate::fit::Fit;
+use crate::stats::median_of_sorted;
+use crate::value::{ratio_study, ratio_tiers, RatioOptions, TierBasis};
+use plotters::prelude::*;
+use std::collections::BTreeMap;
+
+/// The colour of a miss `t` in residual standard deviations (clipped at ±2.5).
+fn miss_colour(t: f64) -> RGBColor {
+    const SAND: (f64, f64, f64) = (0xef as f64, 0xe6 as f64, 0xd8 as f64);
+    let end = if t >= 0.0 { ACCENT } else { POINT };
+    let s = (t.abs() / 2.5).min(1.0);
+    let mix = |a: f64, b: u8| (a + (b as f64 - a) * s).round() as u8;
+    RGBColor(mix(SAND.0, end.0), mix(SAND.1, end.1), mix(SAND.2, end.2))
+}
+
+/// Every sale the fit used at its `(x, y)` coordinates, coloured by its
+/// residual on the miss scale (module documentation); the groups of
+/// `options.group_column`, if any, labelled at their median coordinates.
+/// The axes share one scale, so distances on the map are true.
+pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: PlotSize) -> Result<Svg> {
+    let places = fit.places(frame, options)?;
+    let residuals = &fit.solution().residuals;
+    let n = residuals.len() as f64;
+    let sd = (residuals.iter().map(|r| r * r).sum::<f64>() / n).sqrt().max(f64::MIN_POSITIVE);
+    let (x_range, y_range) = equal_scale(&places.xs, &places.ys, size);
+    let markup =
+        render(size, |area| {
+            let ticks = AxisTicks { y_grid: false, ..AxisTicks::default() };
+            let mut chart = axes_with(
+                area,
+                "Where the model misses: each sale at its place",
+                (x_range.clone(), y_range.clone()),
+                (&options.x_column, &options.y_column),
+                &ticks,
+            )?;
+            let radius = if places.xs.len() > 5000 { 1 } else { 2 };
+            // Draw the quiet middle first so strong misses sit on top.
+            let mut order: Vec<usize> = (0..places.xs.len()).collect();
+            order.sort_by(|&a, &b| residuals[a].abs().total_cmp(&residuals[b].abs()));
+            chart
+                .draw_series(order.iter().map(|&i| {
+                    Circle::new((places.xs[i], places.ys[i]), radius, miss_colour(residuals[i] / sd).filled())
+                }))
+                .map_err(plot_error)?;
+            if let Some(groups) = &places.groups {
+                let mut members: BTreeMap<&str, (Vec<f64>, Vec<f64>)> = BTreeMap::new();
+                for (i, g) in groups.iter().enumerate() {
+                    let entry = members.entry(g.as_str()).or_default();
+                    entry.0.push(places.xs[i]);
+                    entry.1.push(places.ys[i]);
+                }
+                let label_style = (FONT, 13).into_font().color(&INK);
+                for (group, (mut xs, mut ys)) in members {
+                    xs.sort_by(f64::total_cmp);
+                    ys.sort_by(f64::total_cmp);
+                    let (Some(x), Some(y)) = (median_of_sorted(&xs), median_of_sorted(&ys)) else { continue };
+                    chart
+                        .draw_series(std::iter::once(Text::new(group.to_string(), (x, y), label_style.clone())))
+                        .map_err(plot_error)?;
+                }
+            }
+            // The key: five swatches from valued high to valued low.
+            let key_style = (FONT, 11).into_font().color(&INK);
+            let (x0, y0) = (area.dim_in_pixel().0 as i32 - 250, 16);
+            for (k, t) in [-2.5, -1.25, 0.0, 1.25, 2.5].iter().enumerate() {
+                let left = x0 + 26 + k as i32 * 22;
+                area.draw(&Rectangle::new([(left, y0), (left + 20, y0 + 10)], miss_colour(*t).filled()))
+                    .map_err(plot_error)?;
+            }
+            area.draw(&Text::new("valued high", (x0 - 48, y0), key_style.clone())).map_err(plot_error)?;
+            area.draw(&Text::new("valued low", (x0 + 26 + 5 * 22 + 4, y0), key_style)).map_err(plot_error)?;
+            Ok(())
+        })?;
+    let description = format!(
+        "{} sales plotted at ({}, {}), coloured by residual: terracotta where the price exceeded the model's value, \
+         slate blue where it fell short, sand where the model was close; clipped at ±2.5 residual standard deviations.",
+        places.xs.len(),
+        options.x_column,
+        options.y_column
+    );
+    Svg::finish(markup, "Where the model misses", &description)
+}
+
+/// Ranges for `xs`, `ys` padded so one unit is the same length on both axes
+/// of a plot area of `size` (less the axis margins).
+fn equal_scale(xs: &[f64], ys: &[f64], size: PlotSize) -> (std::ops::Range<f64>, std::ops::Range<f64>) {
+    let span = |v: &[f64]| {
+        let lo = v.iter().copied().fold(f64::INFINITY, f64::min);
+        let hi = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        if lo.is_finite() {
+            (lo, hi.max(lo + 1e-9))
+        } else {
+            (0.0, 1.0)
+        }
+    };
+    let ((x0, x1), (y0, y1)) = (span(xs), span(ys));
+    let (w, h) = (size.width.saturating_sub(100).max(50) as f64, size.height.saturating_sub(90).max(50) as f64);
+    let per_pixel = ((x1 - x0) / w).max((y1 - y0) / h) * 1.06;
+    let (cx, cy) = ((x0 + x1) / 2.0, (y0 + y1) / 2.0);
+    ((cx - per_pixel * w / 2.0)..(cx + per_pixel * w / 2.0), (cy - per_pixel * h / 2.0)..(cy + per_pixel * h / 2.0))
+}
+
+/// Each sale's ratio `A/S` against `V = ½S + ½A/median` on a doubling
+/// scale, with the median ratio, the PRB line `r = median · (1 + a + PRB·log₂V)`
+/// (the least-squares line of the PRB, drawn back on the ratio scale) and
+/// the median ratio of each of `tiers` price tiers by `V`. Trimming follows
+/// `options`; trimmed sales are left off.
+pub fn ratio_by_price(
+    values: &[Option<f64>],
+    prices: &[Option<f64>],
+    tiers: usize,
+    options: &RatioOptions,
+    size: PlotSize,
+) -> Result<Svg> {
+    let study = ratio_study(values, prices, None, options)?;
+    let tier_study = ratio_tiers(values, prices, tiers, TierBasis::Blend, options)?;
+    let median = study.overall.median;
+    let trimmed: std::collections::BTreeSet<usize> = study.trimmed.iter().map(|(row, _)| row - 1).collect();
+    let points: Vec<(f64, f64)> = values
+        .iter()
+        .zip(prices)
+        .enumerate()
+        .filter(|(i, _)| !trimmed.contains(i))
+        .filter_map(|(_, (a, s))| {
+            let (a, s) = ((*a)?, (*s)?);
+            Some(((0.5 * s + 0.5 * a / median).log2(), a / s))
+        })
+        .filter(|(x, y)| x.is_finite() && y.is_finite())
+        .collect();
+    let (mx, my) = (
+        points.iter().map(|p| p.0).sum::<f64>() / points.len() as f64,
+        points.iter().map(|p| (p.1 - median) / median).sum::<f64>() / points.len() as f64,
+    );
+    let x_range = super::canvas::padded_range(points.iter().map(|p| p.0));
+    let y_range = super::canvas::padded_range(points.iter().map(|p| p.1));
+    let markup = render(size, |area| {
+        let doubling = |v: &f64| format_tick(v.exp2());
+        let ticks = AxisTicks { x_label: &doubling, ..AxisTicks::default() };
+        let mut chart = axes_with(
+            area,
+            "Ratio against price: does the level drift with price?",
+            (x_range.clone(), y_range.clone()),
+            ("½ price + ½ value ÷ median ratio (doubling scale)", "value ÷ price"),
+            &ticks,
+        )?;
+        let radius = if points.len() > 3000 { 1 } else { 2 };
+        chart
+            .draw_series(points.iter().map(|&(x, y)| Circle::new((x, y), radius, POINT.mix(0.35).filled())))
+            .map_err(plot_error)?;
+        chart
+            .draw_series(LineSeries::new(vec![(x_range.start, median), (x_range.end, median)], SOFT.stroke_width(2)))
+            .map_err(plot_error)?;
+        if let Some(prb) = study.overall.prb {
+            let a = my - prb * mx;
+            let line = |x: f64| median * (1.0 + a + prb * x);
+            chart
+                .draw_series(LineSeries::new(
+                    vec![(x_range.start, line(x_range.start)), (x_range.end, line(x_range.end))],
+                    ACCENT.stroke_width(2),
+                ))
+                .map_err(plot_error)?;
+        }
+        let tier_points: Vec<(f64, f64)> = tier_study
+            .tiers
+            .iter()
+            .filter_map(|t| Some((((t.lower + t.upper) / 2.0).log2(), t.statistics.as_ref()?.median)))
+            .collect();
+        chart
+            .draw_series(
+                tier_points
+                    .iter()
+                    .map(|&(x, y)| EmptyElement::at((x, y)) + Rectangle::new([(-4, -4), (4, 4)], INK.filled())),
+            )
+            .map_err(plot_error)?;
+        Ok(())
+    })?;
+    let prb = study.overall.prb.map_or_else(|| "not defined".to_string(), |p| format!("{p:.4}"));
+    let description = format!(
+        "Ratios of {} sales against their price proxy on a doubling scale; grey line at the median ratio {median:.4}, \
+         terracotta line the PRB fit (PRB {prb}), dark squares the median ratio of each of {tiers} price tiers.",
+        points.len()
+    );
+    Svg::finish(markup, "Ratio against price", &description)
+}

@@ -1,0 +1,23 @@
+//! Where parcels lie: spatial weights between them and Moran's I, the test of
+//! whether nearby values (residuals, ratios) resemble one another more than
+//! chance allows.
+//!
+//! * [`SpatialWeights`] — who neighbours whom: the `k` nearest parcels or
+//!   every parcel within a distance band, binary or row-standardised.
+//! * [`moran_test`] — Moran's I of any variable, with its moments under the
+//!   normality or the randomisation assumption (Cliff & Ord 1981).
+//! * [`moran_test_of_residuals`] — Moran's I of least-squares residuals, with
+//!   the exact moments under normal errors that account for the fitted
+//!   columns (Cliff & Ord 1981, §8.3).
+//!
+//! Reference: A. D. Cliff and J. K. Ord, *Spatial Processes: Models and
+//! Applications*, Pion, London, 1981, ch. 1–2 (the statistic and its moments
+//! for a variable) and §8.3 (regression residuals). The residual moments are
+//! restated in L. Anselin, *Spatial Econometrics: Methods and Models*, Kluwer,
+//! 1988, §8.1.
+
+mod moran;
+mod weights;
+
+pub use moran::{moran_test, moran_test_of_residuals, MoranAssumption, MoranTest};
+pub use weights::{Neighbourhood, SpatialWeights, WeightStyle};
