@@ -31,10 +31,16 @@ def two_runs(tmp_path, chase):
     n = 900
     earlier = np.exp(rng.normal(12.6, 0.35, n))
     sold = rng.choice(n, 120, replace=False)
-    price = earlier[sold] * np.exp(rng.normal(0.02, 0.12, len(sold)))
-    later = earlier * np.exp(0.02 + rng.normal(0, 0.03, n))  # the market rose 2 % for everyone
+    # The market rose 6 % since the earlier values were set.
+    price = earlier[sold] * np.exp(rng.normal(0.06, 0.12, len(sold)))
     if chase:
-        later[sold] = price  # sold parcels' values copied from their prices
+        # Only the sold parcels were revalued, each to its own price; the
+        # unsold parcels kept last year's values.
+        later = earlier * np.exp(rng.normal(0, 0.005, n))
+        later[sold] = price
+    else:
+        # Every parcel revalued with the market, sold or not.
+        later = earlier * np.exp(0.06 + rng.normal(0, 0.03, n))
     sales = {int(i): {"date": "2026-02-15", "price": float(p)} for i, p in zip(sold, price)}
     a = roll(tmp_path / "q1.json", "2026-01-01", earlier, {})
     b = roll(tmp_path / "q2.json", "2026-04-01", later, sales)

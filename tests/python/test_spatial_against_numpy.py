@@ -46,7 +46,8 @@ def reference_residual_moran(X, y, W):
     statistic = n / s0 * (e @ W @ e) / (e @ e)
     MW = M @ W
     expected = n / s0 * np.trace(MW) / (n - k)
-    variance = (n / s0) ** 2 * (np.trace(MW @ MW.T) + np.trace(MW @ MW) + np.trace(MW) ** 2) \
+    # tr(MWMW') is the trace of M W M W' (not of MW (MW)' = M W W' M).
+    variance = (n / s0) ** 2 * (np.trace(MW @ M @ W.T) + np.trace(MW @ MW) + np.trace(MW) ** 2) \
         / ((n - k) * (n - k + 2)) - expected ** 2
     z = (statistic - expected) / np.sqrt(variance)
     return statistic, expected, variance, z, 2 * stats.norm.sf(abs(z))
