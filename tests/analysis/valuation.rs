@@ -133,3 +133,48 @@ fn drift_names_moved_coefficients_and_crossed_ranges() {
     let text = plumbline::render::drift_text(&report);
     assert!(text.contains("CROSSED") && text.contains("months"), "{text}");
 }
+
+/// The value roll pairs runs by parcel id, so a repeated id is refused with
+/// both rows named, and each parcel carries its latest sale.
+#[test]
+fn the_value_roll_refuses_repeated_ids_and_keeps_the_latest_sale() {
+    use plumbline::value::value_roll;
+    let frame = sales();
+    let model = fit(&frame, &ModelSpec::new("price").log_target().numeric("area")).expect("fit");
+    let dir = scratch_dir("roll");
+    let parcels = load(write_file(&dir, "parcels.csv", "id,area\nA,1200\nB,1500\nA,1800\n")).expect("parcels");
+    let e = value_roll(&model, &parcels, "id", "2026-01-01", Retransform::Median).expect_err("repeated id");
+    assert!(e.to_string().contains("`A` appears on rows 1 and 3"), "{e}");
+
+    let parcels = load(write_file(&dir, "parcels2.csv", "id,area\nA,1200\nB,\n")).expect("parcels");
+    let sales =
+        load(write_file(&dir, "sold.csv", "id,sold,price\nA,2024-05-01,250000\nA,2025-02-01,270000\nZ,2025-03-01,1\n"))
+            .expect("sales");
+    let roll = value_roll(&model, &parcels, "id", "2026-01-01", Retransform::Median)
+        .expect("roll")
+        .with_sales(&sales, "id", "sold", "price")
+        .expect("sales");
+    assert_eq!(roll.valued(), 1, "B has no area, so no value");
+    let sale = roll.parcels[0].sale.as_ref().expect("A sold");
+    assert_eq!((sale.date.as_str(), sale.price), ("2025-02-01", 270000.0));
+    assert!(roll.parcels[1].sale.is_none());
+}
+
+/// The in-sample half of the holdout figures is exactly the accuracy of the
+/// training fit's values against the training prices.
+#[test]
+fn holdout_accuracy_scores_each_part_with_the_training_fit() {
+    use plumbline::value::{holdout_accuracy, value_accuracy};
+    let frame = sales();
+    let (training, holdout) = plumbline::compare::split_by_cutoff(&frame, "months", "9").expect("split");
+    let spec = ModelSpec::new("price").log_target().numeric("area").numeric("months");
+    let result =
+        holdout_accuracy(&training, &holdout, &spec, &FitOptions::default(), Retransform::Median, "months ≥ 9")
+            .expect("holdout");
+    let model = fit(&training, &spec).expect("fit");
+    let values = model_values(&model, &training, Retransform::Median).expect("values");
+    let prices = training.numeric_column("price").expect("prices");
+    assert_eq!(result.in_sample, value_accuracy(&values, &prices).expect("accuracy"));
+    assert_eq!(result.holdout.count, holdout.height());
+    assert_eq!(result.split, "months ≥ 9");
+}

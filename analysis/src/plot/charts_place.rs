@@ -79,9 +79,11 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
                         .map_err(plot_error)?;
                 }
             }
-            // The key: five swatches from valued high to valued low.
+            // The key, bottom right below the plot: five swatches from
+            // valued high to valued low.
             let key_style = (FONT, 11).into_font().color(&INK);
-            let (x0, y0) = (area.dim_in_pixel().0 as i32 - 250, 16);
+            let (width, height) = area.dim_in_pixel();
+            let (x0, y0) = (width as i32 - 200, height as i32 - 16);
             for (k, t) in [-2.5, -1.25, 0.0, 1.25, 2.5].iter().enumerate() {
                 let left = x0 + 26 + k as i32 * 22;
                 area.draw(&Rectangle::new([(left, y0), (left + 20, y0 + 10)], miss_colour(*t).filled()))

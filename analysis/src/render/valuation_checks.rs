@@ -49,7 +49,6 @@ impl Sheet {
         let mut out = format!("{}\n", self.heading);
         for line in &self.context {
             out.push_str(&wrap(line, 96, "  ", "  "));
-            out.push('\n');
         }
         for t in &self.tables {
             let columns = t.header.len();
@@ -85,12 +84,10 @@ impl Sheet {
         }
         for line in &self.reading {
             out.push_str(&wrap(line, 96, "  ", "  "));
-            out.push('\n');
         }
         if self.caution {
             out.push('\n');
             out.push_str(&wrap(VALUATION_CAUTION, 96, "  ", "  "));
-            out.push('\n');
         }
         out
     }
@@ -122,6 +119,16 @@ impl Sheet {
             Ok(json) => bundle.with(T::MIME, json),
             Err(_) => bundle,
         }
+    }
+}
+
+/// A residual summary on the model's scale: four decimals, signed; the
+/// rounding noise of a mean that is zero by construction reads as `0.0000`.
+fn miss(x: f64) -> String {
+    if x.abs() < 5e-5 {
+        "0.0000".into()
+    } else {
+        format!("{x:+.4}")
     }
 }
 
@@ -165,15 +172,7 @@ fn spatial_sheet(check: &SpatialCheck) -> Sheet {
         let rows = check
             .by_group
             .iter()
-            .map(|g| {
-                vec![
-                    g.group.clone(),
-                    format_count(g.count),
-                    format_significant(g.mean, 3),
-                    format_significant(g.median, 3),
-                    share(g.share_above),
-                ]
-            })
+            .map(|g| vec![g.group.clone(), format_count(g.count), miss(g.mean), miss(g.median), share(g.share_above)])
             .collect();
         let group = check.options.group_column.as_deref().unwrap_or("group");
         sheet.table(

@@ -88,7 +88,8 @@ fn bucket_label(lower: Option<f64>, upper: Option<f64>) -> String {
         (Some(l), None) => format!("value more than {l} % above price"),
         (Some(l), Some(u)) if l < 0.0 && u <= 0.0 => format!("value {}–{} % below price", -u, -l),
         (Some(l), Some(u)) if l >= 0.0 => format!("value {l}–{u} % above price"),
-        (Some(l), Some(u)) => format!("value within {}/+{} % of price", l, u),
+        (Some(l), Some(u)) if -l == u => format!("value within {u} % of price"),
+        (Some(l), Some(u)) => format!("value {}% to +{u} % of price", l),
         (None, None) => "all".into(),
     }
 }
