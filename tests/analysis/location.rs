@@ -8,6 +8,11 @@
 //! regression residuals: Cliff & Ord 1981 §8.3) must be clearly significant;
 //! adding the distance term must remove it. The coefficient recovered must
 //! cover the truth. External reference: the generator's documented truth.
+//!
+//! Measured on the seeded demo data (2,980 screened sales): district-only
+//! model, Moran's I 0.121 (expected −0.0019), z 14.1, p 3·10⁻⁴⁵; with the
+//! distance from Lantern Green, I −0.00003, z 0.26, p 0.80, and the distance
+//! coefficient −0.0405 per km against the true −0.040.
 
 use plumbline::diagnose::SpatialOptions;
 use plumbline::prelude::*;

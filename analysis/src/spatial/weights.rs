@@ -157,11 +157,24 @@ impl SpatialWeights {
 
     /// The weights from explicit rows `(j, wᵢⱼ)` (for tests and for matrices
     /// built elsewhere). Refuses a self-neighbour, an index out of range and
-    /// a weight that is not a non-negative finite number.
-    pub fn from_rows(rows: Vec<Vec<(usize, f64)>>, neighbourhood: Neighbourhood, style: WeightStyle) -> Result<Self> {
+    /// a weight that is not a non-negative finite number. Rows are sorted by
+    /// neighbour index; a neighbour listed twice is refused.
+    pub fn from_rows(
+        mut rows: Vec<Vec<(usize, f64)>>,
+        neighbourhood: Neighbourhood,
+        style: WeightStyle,
+    ) -> Result<Self> {
         let n = rows.len();
-        for (i, row) in rows.iter().enumerate() {
-            for &(j, w) in row {
+        for (i, row) in rows.iter_mut().enumerate() {
+            row.sort_by_key(|p| p.0);
+            if let Some(pair) = row.windows(2).find(|pair| pair[0].0 == pair[1].0) {
+                return Err(Error::Specification(format!(
+                    "weight row {}: neighbour {} is listed twice",
+                    i + 1,
+                    pair[0].0 + 1
+                )));
+            }
+            for &(j, w) in row.iter() {
                 if j == i || j >= n || !(w >= 0.0 && w.is_finite()) {
                     return Err(Error::Specification(format!(
                         "weight row {}: neighbour {} with weight {w} is not allowed (no self-neighbours, indices below {n}, finite non-negative weights)",
@@ -300,5 +313,27 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("between 1 and 1"), "{e}");
+        let e = SpatialWeights::from_rows(
+            vec![vec![(1, 1.0), (1, 1.0)], vec![(0, 1.0)]],
+            Neighbourhood::Nearest { k: 1 },
+            WeightStyle::Binary,
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("listed twice"), "{e}");
+    }
+
+    #[test]
+    fn explicit_rows_are_sorted_before_use() {
+        // Row 0 lists its neighbours out of order; the sums read wᵢⱼ wⱼᵢ by search.
+        let w = SpatialWeights::from_rows(
+            vec![vec![(2, 1.0), (1, 1.0)], vec![(0, 1.0)], vec![(0, 1.0)]],
+            Neighbourhood::Nearest { k: 1 },
+            WeightStyle::Binary,
+        )
+        .unwrap();
+        assert_eq!(w.row(0), &[(1, 1.0), (2, 1.0)]);
+        // Symmetric binary star: Σ wᵢⱼ wⱼᵢ = 4.
+        assert_eq!(w.sums().trace_ww, 4.0);
     }
 }
