@@ -19,7 +19,8 @@ TIMEOUT = 1800  # the first cell of a fresh engine directory compiles plumbline
 SALES = REPO / "notebooks-demo" / "data" / "sales.csv"
 COLUMNS = (
     "parcel_id text, sale_date date, sale_price bigint, living_area bigint, lot_size bigint, year_built bigint, "
-    "age bigint, quality bigint, bathrooms double precision, district text, sale_type text"
+    "age bigint, quality bigint, bathrooms double precision, district text, x double precision, y double precision, "
+    "sale_type text"
 )
 
 
