@@ -29,9 +29,10 @@ use crate::stats::{check_level, f_upper_p, t_critical, t_two_sided_p};
 use serde::{Deserialize, Serialize};
 
 /// Version of the JSON document produced by [`Fit::summary`]; bumped on any
-/// change that a reader would notice. 2: `model_df`/`residual_df` (were
-/// `df_model`/`df_resid`); 3: the fit document may carry a `spatial` section
-/// (Moran's I of the residuals); version 2 documents read unchanged.
+/// change that a reader would notice. 2: the degrees-of-freedom fields took
+/// our names `model_df`/`residual_df` (README, "JSON output"); 3: the fit
+/// document may carry a `spatial` section (Moran's I of the residuals);
+/// version 2 documents read unchanged.
 pub const SUMMARY_SCHEMA_VERSION: u32 = 3;
 
 /// One row of the coefficient table.
