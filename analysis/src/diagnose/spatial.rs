@@ -119,20 +119,13 @@ pub(crate) struct FitPlaces {
 }
 
 impl Fit {
-    /// Reads the coordinates and groups of the fitting rows from `frame`
-    /// (the frame the fit was made on). A fitting row without coordinates is
-    /// an error naming it, since leaving it out would change the weights.
+    /// Reads the coordinates and groups of the fitting rows from `frame`,
+    /// which must be the frame the fit read ([`Fit::require_fitting_frame`]).
+    /// A fitting row without coordinates is an error naming it, since
+    /// leaving it out would change the weights.
     pub(crate) fn places(&self, frame: &Frame, options: &SpatialOptions) -> Result<FitPlaces> {
+        self.require_fitting_frame(frame)?;
         let rows = &self.design.rows_used;
-        if let Some(&last) = rows.last() {
-            if last >= frame.height() {
-                return Err(Error::Specification(format!(
-                    "the frame has {} rows but the fit used row {}; pass the frame the model was fitted on",
-                    frame.height(),
-                    last + 1
-                )));
-            }
-        }
         let read = |column: &str| -> Result<Vec<f64>> {
             let values = frame.numeric_column(column)?;
             rows.iter()
@@ -191,13 +184,6 @@ impl Fit {
                     .collect()
             }
         };
-        let spec = self.spec();
-        let terms: Vec<String> = spec.terms().iter().map(|t| t.label()).collect();
-        Ok(SpatialCheck {
-            model: format!("{} on {}", spec.target_label(), terms.join(", ")),
-            options: options.clone(),
-            moran,
-            by_group,
-        })
+        Ok(SpatialCheck { model: self.spec().describe(), options: options.clone(), moran, by_group })
     }
 }

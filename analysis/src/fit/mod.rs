@@ -236,6 +236,20 @@ impl Fit {
         Ok(Fit { covariance, covariance_kind: kind, cluster_count, ..self.clone() })
     }
 
+    /// Refuses a frame other than the one this fit read (compared by
+    /// provenance: path, SHA-256 and record count), for every use that
+    /// matches design rows to frame rows by position.
+    pub fn require_fitting_frame(&self, frame: &Frame) -> Result<()> {
+        let (fitted_from, given) = (&self.provenance, frame.provenance());
+        if fitted_from.path != given.path || fitted_from.sha256 != given.sha256 || fitted_from.rows != given.rows {
+            return Err(Error::FrameMismatch {
+                fitted: format!("{}, {} records", fitted_from.path, fitted_from.rows),
+                given: format!("{}, {} records", given.path, given.rows),
+            });
+        }
+        Ok(())
+    }
+
     /// Leverages (hat values) `hᵢ` of the rows used, in design row order.
     pub fn leverages(&self) -> Vec<f64> {
         let rows = weighted_rows(&self.design, &self.solution);

@@ -433,6 +433,13 @@ impl ModelSpec {
         self.intercept
     }
 
+    /// The model in words, as result documents name it: `log(sale_price) on
+    /// log(living_area), age, district`.
+    pub fn describe(&self) -> String {
+        let terms: Vec<String> = self.terms.iter().map(Term::label).collect();
+        format!("{} on {}", self.target_label(), terms.join(", "))
+    }
+
     /// The target's display name (`log(price)` for a logged target).
     pub fn target_label(&self) -> String {
         match self.target_transform {

@@ -5,7 +5,7 @@
 //! The residual panels that need the data beside the fit (time, location,
 //! influence) go through [`ReviewData::gather`], which matches every design
 //! row to its frame row through `Design::rows_used` and refuses a frame other
-//! than the fitting one ([`Error::FrameMismatch`]).
+//! than the fitting one ([`crate::Error::FrameMismatch`]).
 //!
 //! **The miss** is what a reviewer reads a residual as: for a log target
 //! `100 (e^r − 1)` percent — the sale sold that many percent above (below,
@@ -15,7 +15,7 @@
 use crate::data::dates::{from_epoch_days, to_epoch_days};
 use crate::data::Frame;
 use crate::diagnose::flags::cooks_cutoff;
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::fit::Fit;
 use crate::model::{TargetTransform, Term};
 use polars::prelude::DataType;
@@ -191,13 +191,7 @@ impl ReviewData {
     /// column, the labelled sales, the time axis and the location groups.
     /// `frame` must be the frame the fit read.
     pub fn gather(fit: &Fit, frame: &Frame, options: &ReviewOptions) -> Result<ReviewData> {
-        let (fitted_from, given) = (fit.provenance(), frame.provenance());
-        if fitted_from.path != given.path || fitted_from.sha256 != given.sha256 || fitted_from.rows != given.rows {
-            return Err(Error::FrameMismatch {
-                fitted: format!("{}, {} records", fitted_from.path, fitted_from.rows),
-                given: format!("{}, {} records", given.path, given.rows),
-            });
-        }
+        fit.require_fitting_frame(frame)?;
         let mut data = ReviewData::of_fit(fit);
         let rows = &fit.design().rows_used;
         let id_column = options.id_column.as_deref();

@@ -124,11 +124,9 @@ pub fn value_roll(
         }
         out.push(RollParcel { id: id.clone(), value, sale: None });
     }
-    let spec = fit.spec();
-    let terms: Vec<String> = spec.terms().iter().map(|t| t.label()).collect();
     Ok(ValueRoll {
         valuation_date,
-        model: format!("{} on {}", spec.target_label(), terms.join(", ")),
+        model: fit.spec().describe(),
         parcels_source: parcels.provenance().describe(),
         sales_source: None,
         parcels: out,

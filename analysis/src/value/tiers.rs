@@ -18,7 +18,6 @@
 
 use super::ratio_study::{ratio_pairs, statistics, RatioOptions, RatioPairs, RatioStatistics};
 use crate::error::{Error, Result};
-use crate::stats::median_of_sorted;
 use serde::{Deserialize, Serialize};
 
 /// What sales are ranked by to form tiers.
@@ -111,9 +110,8 @@ pub fn ratio_tiers(
     let pairs: Vec<(f64, f64)> = rows.iter().map(|r| (r.1, r.2)).collect();
     let overall = statistics(&pairs, options)
         .ok_or_else(|| Error::Specification("fewer than two sales remain after trimming".into()))?;
-    let mut ratios: Vec<f64> = pairs.iter().map(|(a, s)| a / s).collect();
-    ratios.sort_by(f64::total_cmp);
-    let median = median_of_sorted(&ratios).unwrap_or(f64::NAN);
+    // The blend basis divides by the median ratio the overall statistics already hold.
+    let median = overall.median;
     let basis_of = |(a, s): (f64, f64)| match basis {
         TierBasis::SalePrice => s,
         TierBasis::Value => a,
