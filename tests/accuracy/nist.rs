@@ -3,14 +3,14 @@
 //! Source: NIST/ITL Statistical Reference Datasets, Linear Least Squares
 //! Regression (certified values in `../shared/reference/nist-strd/certified.json`).
 //! Scoring: log relative error, McCullough (1998), *The American Statistician* 52(4).
-//! Bar: minimum LRE ≥ 10 for coefficients, standard errors, residual SD and R²
+//! Bar: minimum LRE ≥ 13 for coefficients, standard errors, residual SD and R²
 //! on all 11 datasets (issue acceptance); we print the full table.
 
 use plumbline::accuracy::{log_relative_error, score_all};
 use plumbline::prelude::Precision;
 use plumbline::render::accuracy_table as table;
 
-const BAR: f64 = 10.0;
+const BAR: f64 = 13.0;
 
 #[test]
 fn every_nist_dataset_meets_the_lre_bar_in_auto_mode() {

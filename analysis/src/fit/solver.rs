@@ -10,13 +10,18 @@
 //!   `32 − log10 κ` digits, enough for every NIST StRD linear problem (Filip's
 //!   equilibrated κ ≈ 5e9). Chosen automatically for designs with `n·p² ≤ 10⁷`
 //!   and for larger ill-conditioned ones with `n·p² ≤ 2·10⁸`.
-//! * **Double** — faer's blocked column-pivoted Householder QR in `f64`, followed
-//!   by iterative refinement: the residual `y − Xb` is recomputed with
-//!   error-free products and double-double accumulation, and the correction
-//!   solved with the same factorization (Golub & Wilkinson 1966, "Note on the
-//!   iterative refinement of least squares solution", *Numer. Math.* 9,
-//!   139–148; Higham, *Accuracy and Stability of Numerical Algorithms*, 2nd ed.,
-//!   §20.5). This is the path for large designs.
+//! * **Double** — for large designs. The weighted `[X | y]` is reduced to its
+//!   small triangular factor by tall-skinny QR on all cores
+//!   ([`crate::numeric::tsqr`]); the rank-revealing pivoted QR then runs in
+//!   double-double on that `p × p` factor, and the solution is refined with
+//!   residuals recomputed with error-free products and double-double
+//!   accumulation (Golub & Wilkinson 1966, "Note on the iterative refinement
+//!   of least squares solution", *Numer. Math.* 9, 139–148; Higham, *Accuracy
+//!   and Stability of Numerical Algorithms*, 2nd ed., §20.5), the correction
+//!   coming from the corrected seminormal equations (Björck 1987). Designs too
+//!   ill-conditioned for that refinement ([`SEMINORMAL_CONDITION_LIMIT`]) take
+//!   the extended path when affordable, and otherwise faer's whole-matrix
+//!   column-pivoted QR, refined through its `Q`.
 //!
 //! **Numerical rank.** Columns are first scaled to unit length by powers of two
 //! (exact). A column is aliased when, at its pivot step, its remaining norm is
@@ -27,7 +32,7 @@
 
 use super::Precision;
 use crate::model::DesignColumn;
-use crate::numeric::dd_qr;
+use crate::numeric::{dd_qr, tsqr};
 use crate::numeric::equilibrate::power_of_two_scale;
 use crate::numeric::DoubleDouble;
 use faer::linalg::solvers::SolveLstsq;
@@ -41,7 +46,9 @@ use serde::{Deserialize, Serialize};
 pub enum SolverMethod {
     /// Pivoted QR in double-double arithmetic.
     ExtendedQr,
-    /// Pivoted QR in double precision with `refinement_steps` steps of refinement.
+    /// QR in double precision (blocked tall-skinny QR with a pivoted QR of the
+    /// small factor, or a whole-matrix pivoted QR for ill-conditioned
+    /// designs) with `refinement_steps` steps of refinement.
     RefinedQr {
         /// Steps of iterative refinement taken.
         refinement_steps: usize,
@@ -88,18 +95,25 @@ pub fn solve(
     let work = (n as f64) * (p as f64) * (p as f64);
     match precision {
         Precision::Extended => solve_extended(columns, y, weights, tolerance),
-        Precision::Double => solve_double(columns, y, weights, tolerance),
+        Precision::Double => solve_blocked(columns, y, weights, tolerance)
+            .unwrap_or_else(|| solve_double(columns, y, weights, tolerance)),
         Precision::Auto if work <= 1e7 => solve_extended(columns, y, weights, tolerance),
-        Precision::Auto => {
-            let fast = solve_double(columns, y, weights, tolerance);
-            if fast.condition_number > 1e10 && work <= 2e8 {
-                solve_extended(columns, y, weights, tolerance)
-            } else {
-                fast
-            }
-        }
+        Precision::Auto => match solve_blocked(columns, y, weights, tolerance) {
+            Some(solution) => solution,
+            None if work <= 2e8 => solve_extended(columns, y, weights, tolerance),
+            None => solve_double(columns, y, weights, tolerance),
+        },
     }
 }
+
+/// The largest condition number (of the equilibrated design) at which the
+/// blocked path's refinement, by the corrected seminormal equations, still
+/// gives a solution as accurate as a backward-stable QR solve: that holds
+/// while `κ·√ε` stays well below one (Björck 1987, "Stability analysis of the
+/// method of seminormal equations for linear least squares problems", *Linear
+/// Algebra Appl.* 88/89, 31–48, §4; `1/√ε ≈ 6.7e7`). Above it the fit takes
+/// the extended path, or the whole-matrix QR whose refinement uses `Q`.
+pub const SEMINORMAL_CONDITION_LIMIT: f64 = 1e7;
 
 /// `√wᵢ` in double-double, or one.
 fn root_weights(weights: Option<&[f64]>, n: usize) -> Vec<DoubleDouble> {
@@ -241,6 +255,141 @@ fn solve_extended(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, 
         kept,
         aliased,
         method: SolverMethod::ExtendedQr,
+    }
+}
+
+/// The blocked path for large designs: the weighted `[X | y]` is factored by
+/// tall-skinny QR on all cores ([`tsqr`]), columns are equilibrated on the
+/// small factor (`XS = Q(RS)` exactly, `S` a power-of-two diagonal), and the
+/// rank-revealing column-pivoted QR runs in double-double on that `p × p`
+/// factor alone — it sees the design's column norms and singular values, so it
+/// names the same aliased columns as pivoting the whole design would. The
+/// solution is refined with residuals in double-double and the corrected
+/// seminormal equations `RᵀR d = Xᵀ W r` (Björck 1987, see
+/// [`SEMINORMAL_CONDITION_LIMIT`]), since the blocked factorisation keeps no
+/// `Q`. Returns `None` when the design is too ill-conditioned for that refinement.
+fn solve_blocked(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, tolerance: f64) -> Option<Solution> {
+    let n = y.len();
+    let p = columns.len();
+    let root_w: Vec<f64> = match weights {
+        None => vec![1.0; n],
+        Some(w) => w.iter().map(|&v| DoubleDouble::from(v).sqrt().to_f64()).collect(),
+    };
+    let factor = tsqr::factor_rows(n, p + 1, tsqr::available_threads(), |i, j| {
+        if j < p {
+            columns[j].hi[i] * root_w[i]
+        } else {
+            y[i] * root_w[i]
+        }
+    });
+    let small = SmallFactor::from_augmented(factor.r(), tolerance);
+    if small.condition_number > SEMINORMAL_CONDITION_LIMIT {
+        return None;
+    }
+    let mut b = small.solution();
+    let rough_condition = small.rough_condition();
+    let max_steps = if rough_condition < 1e5 { 1 } else { 3 };
+    let mut steps = 0;
+    let mut r = residuals_dd(columns, &small.kept, &b, y);
+    for _ in 0..max_steps {
+        // Xᵀ W r in double precision from the accurately computed residual.
+        let weighted: Vec<f64> = match weights {
+            None => r.iter().map(|v| v.to_f64()).collect(),
+            Some(w) => r.iter().zip(w).map(|(v, &wi)| v.mul_f64(wi).to_f64()).collect(),
+        };
+        let gradient: Vec<f64> =
+            small.kept.iter().map(|&j| columns[j].hi.iter().zip(&weighted).map(|(x, r)| x * r).sum()).collect();
+        let delta = small.seminormal_correction(&gradient);
+        let mut largest_change = 0.0f64;
+        let mut largest = 0.0f64;
+        for (bk, d) in b.iter_mut().zip(delta) {
+            *bk += DoubleDouble::from(d);
+            largest_change = largest_change.max(d.abs());
+            largest = largest.max(bk.to_f64().abs());
+        }
+        steps += 1;
+        r = residuals_dd(columns, &small.kept, &b, y);
+        if largest_change <= f64::EPSILON * largest {
+            break;
+        }
+    }
+    Some(Solution {
+        unscaled_covariance: small.unscaled_covariance(),
+        weighted_rss: weighted_rss(&r, weights),
+        residuals: r.iter().map(|v| v.to_f64()).collect(),
+        coefficients: b.iter().map(|v| v.to_f64()).collect(),
+        condition_number: small.condition_number,
+        kept: small.kept,
+        aliased: small.aliased,
+        method: SolverMethod::RefinedQr { refinement_steps: steps },
+    })
+}
+
+/// What the small factor of a tall-skinny QR gives: rank, aliased columns,
+/// the solution and the unscaled covariance. Shared by the in-memory blocked
+/// path and fits assembled from streamed or partitioned factors.
+#[derive(Debug, Clone)]
+pub(crate) struct SmallFactor {
+    /// Power-of-two column scales (from the factor's column norms).
+    scales: Vec<f64>,
+    /// Double-double pivoted QR of the scaled factor of `X`, with `Qᵀz`.
+    qr: dd_qr::PivotedQr,
+    /// Design columns estimated, ascending.
+    pub(crate) kept: Vec<usize>,
+    /// Design columns aliased, ascending.
+    pub(crate) aliased: Vec<usize>,
+    /// Pivot position of each kept column.
+    pivot_of_kept: Vec<usize>,
+    /// Condition number of the equilibrated kept design.
+    pub(crate) condition_number: f64,
+}
+
+impl SmallFactor {
+    /// From the factor `R` of the weighted `[X | y]` (`p + 1` columns, target last).
+    pub(crate) fn from_augmented(r: faer::MatRef<'_, f64>, tolerance: f64) -> SmallFactor {
+        let p = r.ncols() - 1;
+        let rows = r.nrows();
+        let scales: Vec<f64> = (0..p)
+            .map(|j| power_of_two_scale((0..rows).map(|i| r[(i, j)].powi(2)).sum::<f64>().sqrt()))
+            .collect();
+        let scaled: Vec<Vec<DoubleDouble>> =
+            (0..p).map(|j| (0..rows).map(|i| DoubleDouble::from(r[(i, j)] * scales[j])).collect()).collect();
+        let rhs: Vec<DoubleDouble> = (0..rows).map(|i| DoubleDouble::from(r[(i, p)])).collect();
+        let qr = dd_qr::factor(scaled, rhs, tolerance);
+        let (kept, aliased, pivot_of_kept) = split_by_rank(&qr.permutation, qr.rank);
+        let condition_number = condition_from_r(&qr.r);
+        SmallFactor { scales, qr, kept, aliased, pivot_of_kept, condition_number }
+    }
+
+    /// The least-squares coefficients of the kept columns (original units).
+    pub(crate) fn solution(&self) -> Vec<DoubleDouble> {
+        let z = dd_qr::back_substitute(&self.qr.r, &self.qr.qt_rhs);
+        self.kept.iter().zip(&self.pivot_of_kept).map(|(&j, &pos)| z[pos].scale_pow2(self.scales[j])).collect()
+    }
+
+    /// Ratio of the largest to the smallest `|R_kk|` (a cheap lower bound of κ).
+    fn rough_condition(&self) -> f64 {
+        let d = &self.qr.diagonal;
+        d.iter().cloned().fold(0.0, f64::max) / d.iter().cloned().fold(f64::INFINITY, f64::min)
+    }
+
+    /// `d` solving `RᵀR d = g` for the gradient `g = Xᵀ W r` of the kept
+    /// columns (original units, in `kept` order).
+    pub(crate) fn seminormal_correction(&self, gradient: &[f64]) -> Vec<f64> {
+        let rank = self.kept.len();
+        let mut g = vec![DoubleDouble::ZERO; rank];
+        for (k, (&j, &pos)) in self.kept.iter().zip(&self.pivot_of_kept).enumerate() {
+            g[pos] = DoubleDouble::from(gradient[k]).scale_pow2(self.scales[j]);
+        }
+        let u = dd_qr::forward_substitute_transposed(&self.qr.r, &g);
+        let d = dd_qr::back_substitute(&self.qr.r, &u);
+        self.kept.iter().zip(&self.pivot_of_kept).map(|(&j, &pos)| d[pos].scale_pow2(self.scales[j]).to_f64()).collect()
+    }
+
+    /// `(XᵀWX)⁻¹` of the kept columns, in `kept` order and original units.
+    pub(crate) fn unscaled_covariance(&self) -> Vec<Vec<f64>> {
+        let kept_scales: Vec<f64> = self.kept.iter().map(|&j| self.scales[j]).collect();
+        unscaled_covariance(&self.qr.r, &self.pivot_of_kept, &kept_scales)
     }
 }
 

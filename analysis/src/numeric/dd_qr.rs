@@ -117,6 +117,20 @@ pub fn back_substitute(r: &[Vec<DoubleDouble>], b: &[DoubleDouble]) -> Vec<Doubl
     x
 }
 
+/// Solves `Rᵀ x = b` for upper-triangular `R` by forward substitution.
+pub fn forward_substitute_transposed(r: &[Vec<DoubleDouble>], b: &[DoubleDouble]) -> Vec<DoubleDouble> {
+    let k = b.len();
+    let mut x = vec![DoubleDouble::ZERO; k];
+    for i in 0..k {
+        let mut acc = b[i];
+        for j in 0..i {
+            acc -= r[j][i] * x[j];
+        }
+        x[i] = acc / r[i][i];
+    }
+    x
+}
+
 /// The inverse of an upper-triangular `R` (also upper triangular), row-major.
 pub fn invert_upper(r: &[Vec<DoubleDouble>]) -> Vec<Vec<DoubleDouble>> {
     let k = r.len();

@@ -5,9 +5,13 @@
 //! * [`dd_qr`] — a column-pivoted Householder QR carried out entirely in
 //!   double-double arithmetic, for small or ill-conditioned designs.
 //! * [`equilibrate`] — exact power-of-two column scaling.
+//! * [`tsqr`] — tall-skinny QR: the triangular factor of a tall matrix, built
+//!   from row blocks on several threads, from streamed batches, or from
+//!   partitions factored apart and merged.
 
 pub mod dd_qr;
 pub mod ddouble;
 pub mod equilibrate;
+pub mod tsqr;
 
 pub use ddouble::DoubleDouble;
