@@ -26,6 +26,13 @@ pub enum Error {
         cwd: String,
     },
 
+    /// A directory given as data holds no file read in batches.
+    #[error("the directory `{path}` holds no `.csv` or `.parquet` file to read")]
+    NoDataFiles {
+        /// The directory, as given.
+        path: PathBuf,
+    },
+
     /// The file's extension names no format we read, and none was given.
     #[error("cannot tell the format of `{path}` from its extension; use a `.csv`, `.tsv`, `.txt`, `.parquet`, `.arrow`, `.xlsx`, `.sqlite` or `.gpkg` file, or load it with an explicit reader")]
     UnknownFormat {

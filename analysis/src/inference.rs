@@ -21,7 +21,7 @@
 //! Distributions come from `statrs` (regularized incomplete beta).
 
 use crate::error::Result;
-use crate::fit::{CovarianceKind, Fit};
+use crate::fit::{AssembledFit, CovarianceKind, Fit};
 use crate::model::design::INTERCEPT_NAME;
 use crate::model::TargetTransform;
 use crate::numeric::DoubleDouble;
@@ -121,116 +121,39 @@ impl Fit {
 
     /// The coefficient table at confidence `level` (e.g. 0.95).
     pub fn coefficients(&self, level: f64) -> Result<Vec<Coefficient>> {
-        check_level(level)?;
-        let df = self.df_t();
-        let crit = t_critical(level, df);
-        Ok(self
-            .solution
-            .kept
-            .iter()
-            .enumerate()
-            .map(|(k, &j)| {
-                let estimate = self.solution.coefficients[k];
-                let std_error = self.covariance[k][k].max(0.0).sqrt();
-                let t = if std_error > 0.0 { Some(estimate / std_error) } else { None };
-                Coefficient {
-                    term: self.design.columns[j].name.clone(),
-                    estimate,
-                    std_error,
-                    t,
-                    p_value: t.map(|t| t_two_sided_p(t, df)),
-                    ci_low: estimate - crit * std_error,
-                    ci_high: estimate + crit * std_error,
-                }
-            })
-            .collect())
+        let names: Vec<&str> = self.estimated_names();
+        coefficient_table(&names, &self.solution.coefficients, &self.covariance, self.df_t(), level)
     }
 
     /// Goodness-of-fit statistics.
     pub fn statistics(&self) -> FitStatistics {
         let n = self.design.n_rows();
-        let k = self.solution.kept.len();
         let with_intercept = self.spec().has_intercept();
         let y = &self.design.target;
         let w = self.design.weights.as_deref();
         let weight = |i: usize| w.map_or(1.0, |w| w[i]);
-
         let total_weight: DoubleDouble = (0..n).map(|i| DoubleDouble::from(weight(i))).sum();
         let weighted_sum: DoubleDouble = (0..n).map(|i| DoubleDouble::from_product(weight(i), y[i])).sum();
         let mean = if with_intercept { weighted_sum / total_weight } else { DoubleDouble::ZERO };
-        let ss_total_dd: DoubleDouble = (0..n)
+        let ss_total: DoubleDouble = (0..n)
             .map(|i| {
                 let d = DoubleDouble::from(y[i]) - mean;
                 (d * d).mul_f64(weight(i))
             })
             .sum();
-        let rss = self.solution.weighted_rss;
-        let ss_total = ss_total_dd.to_f64();
-        let ss_regression = (ss_total_dd - DoubleDouble::from(rss)).to_f64();
-        let i = usize::from(with_intercept);
-        let model_df = k.saturating_sub(usize::from(self.intercept_estimated()));
-        let residual_df = n - k;
-        let r_squared = if ss_total > 0.0 { ss_regression / ss_total } else { f64::NAN };
-        let adj_r_squared = 1.0 - (1.0 - r_squared) * (n - i) as f64 / residual_df as f64;
-        let s2 = rss / residual_df as f64;
-
-        let (f_statistic, f_p_value) = self.overall_f(model_df, ss_regression, s2);
-        let sum_log_w: f64 = w.map_or(0.0, |w| w.iter().map(|v| v.ln()).sum());
-        let nf = n as f64;
-        let log_likelihood = -0.5 * nf * ((2.0 * std::f64::consts::PI).ln() + (rss / nf).ln() + 1.0) + 0.5 * sum_log_w;
-        let params = (k + 1) as f64;
-        FitStatistics {
-            n_obs: n,
-            n_coefficients: k,
-            model_df,
-            residual_df,
-            df_t: self.df_t(),
-            r_squared,
-            adj_r_squared,
-            residual_std_error: s2.sqrt(),
-            f_statistic,
-            f_p_value,
-            ss_regression,
-            ss_residual: rss,
+        whole_fit_statistics(&WholeFitSums {
+            rows: n,
+            with_intercept,
+            intercept_estimated: self.intercept_estimated(),
+            rss: self.solution.weighted_rss,
             ss_total,
-            log_likelihood,
-            aic: -2.0 * log_likelihood + 2.0 * params,
-            bic: -2.0 * log_likelihood + nf.ln() * params,
+            sum_log_weight: w.map_or(0.0, |w| w.iter().map(|v| v.ln()).sum()),
+            df_t: self.df_t(),
             condition_number: self.solution.condition_number,
-        }
-    }
-
-    fn overall_f(&self, model_df: usize, ss_regression: f64, s2: f64) -> (Option<f64>, Option<f64>) {
-        if model_df == 0 {
-            return (None, None);
-        }
-        let df2 = self.df_t();
-        let f = if self.covariance_kind == CovarianceKind::Classical {
-            if !(s2 > 0.0) {
-                return (None, None);
-            }
-            (ss_regression / model_df as f64) / s2
-        } else {
-            match self.wald_slopes() {
-                Some(f) => f,
-                None => return (None, None),
-            }
-        };
-        (Some(f), f_upper_p(f, model_df as f64, df2))
-    }
-
-    /// Wald F of all non-intercept coefficients under the fit's covariance.
-    fn wald_slopes(&self) -> Option<f64> {
-        let skip = usize::from(self.intercept_estimated());
-        let k = self.solution.kept.len();
-        let q = k - skip;
-        let b: Vec<f64> = self.solution.coefficients[skip..].to_vec();
-        let v = faer::Mat::<f64>::from_fn(q, q, |a, c| self.covariance[a + skip][c + skip]);
-        let rhs = faer::Mat::<f64>::from_fn(q, 1, |a, _| b[a]);
-        use faer::linalg::solvers::Solve;
-        let x = v.partial_piv_lu().solve(&rhs);
-        let quad: f64 = (0..q).map(|a| b[a] * x[(a, 0)]).sum();
-        quad.is_finite().then_some(quad / q as f64)
+            classical: self.covariance_kind == CovarianceKind::Classical,
+            coefficients: &self.solution.coefficients,
+            covariance: &self.covariance,
+        })
     }
 
     /// The full machine-readable summary at confidence `level`.
@@ -274,6 +197,202 @@ impl Fit {
             data: self.provenance.clone(),
         })
     }
+}
+
+impl AssembledFit {
+    /// Whether the intercept is among the estimated columns.
+    fn intercept_estimated(&self) -> bool {
+        self.recipe.spec.has_intercept()
+            && self.kept.first().is_some_and(|&j| self.recipe.column_names[j] == INTERCEPT_NAME)
+    }
+
+    /// Residual degrees of freedom `n − k` (also the t reference's).
+    pub fn residual_df(&self) -> usize {
+        self.rows - self.kept.len()
+    }
+
+    /// The coefficient table at confidence `level` (e.g. 0.95).
+    pub fn coefficients(&self, level: f64) -> Result<Vec<Coefficient>> {
+        let names = self.estimated_names();
+        coefficient_table(&names, &self.coefficients, &self.covariance, self.residual_df() as f64, level)
+    }
+
+    /// Goodness-of-fit statistics, from the sums gathered piece by piece.
+    pub fn statistics(&self) -> FitStatistics {
+        whole_fit_statistics(&WholeFitSums {
+            rows: self.rows,
+            with_intercept: self.recipe.spec.has_intercept(),
+            intercept_estimated: self.intercept_estimated(),
+            rss: self.weighted_rss,
+            ss_total: self.ss_total,
+            sum_log_weight: self.sum_log_weight,
+            df_t: self.residual_df() as f64,
+            condition_number: self.condition_number,
+            classical: self.covariance_kind == CovarianceKind::Classical,
+            coefficients: &self.coefficients,
+            covariance: &self.covariance,
+        })
+    }
+
+    /// The fit document at confidence `level`: the same document as an
+    /// in-memory fit's, from the sums gathered piece by piece.
+    pub fn summary(&self, level: f64) -> Result<FitSummary> {
+        let stats = self.statistics();
+        Ok(FitSummary {
+            schema: "plumbline.fit".into(),
+            schema_version: SUMMARY_SCHEMA_VERSION,
+            target: self.recipe.spec.target().to_string(),
+            target_transform: match self.recipe.spec.target_transform() {
+                TargetTransform::None => "none".into(),
+                TargetTransform::Log => "log".into(),
+            },
+            n_obs: stats.n_obs,
+            n_dropped: self.dropped.total,
+            dropped_by_column: self.dropped.by_column.clone(),
+            non_finite_by_column: self.dropped.non_finite_by_column.clone(),
+            model_df: stats.model_df,
+            residual_df: stats.residual_df,
+            intercept: self.recipe.spec.has_intercept(),
+            covariance: self.covariance_kind.label(),
+            clusters: None,
+            level,
+            solver: self.method,
+            coefficients: self.coefficients(level)?,
+            aliased: self.aliased_names().into_iter().map(str::to_string).collect(),
+            r_squared: stats.r_squared,
+            adj_r_squared: stats.adj_r_squared,
+            residual_std_error: stats.residual_std_error,
+            f_statistic: stats.f_statistic,
+            f_p_value: stats.f_p_value,
+            ss_regression: stats.ss_regression,
+            ss_residual: stats.ss_residual,
+            ss_total: stats.ss_total,
+            log_likelihood: stats.log_likelihood,
+            aic: stats.aic,
+            bic: stats.bic,
+            condition_number: stats.condition_number,
+            data: self.provenance.clone(),
+        })
+    }
+}
+
+/// The coefficient table from estimates and their covariance, with t tests
+/// on `df` degrees of freedom and intervals at `level`.
+fn coefficient_table(
+    names: &[&str],
+    estimates: &[f64],
+    covariance: &[Vec<f64>],
+    df: f64,
+    level: f64,
+) -> Result<Vec<Coefficient>> {
+    check_level(level)?;
+    let crit = t_critical(level, df);
+    Ok(names
+        .iter()
+        .zip(estimates)
+        .enumerate()
+        .map(|(k, (name, &estimate))| {
+            let std_error = covariance[k][k].max(0.0).sqrt();
+            let t = if std_error > 0.0 { Some(estimate / std_error) } else { None };
+            Coefficient {
+                term: name.to_string(),
+                estimate,
+                std_error,
+                t,
+                p_value: t.map(|t| t_two_sided_p(t, df)),
+                ci_low: estimate - crit * std_error,
+                ci_high: estimate + crit * std_error,
+            }
+        })
+        .collect())
+}
+
+/// The sums whole-fit statistics are computed from, however they were gathered.
+struct WholeFitSums<'a> {
+    rows: usize,
+    with_intercept: bool,
+    intercept_estimated: bool,
+    rss: f64,
+    ss_total: DoubleDouble,
+    sum_log_weight: f64,
+    df_t: f64,
+    condition_number: f64,
+    classical: bool,
+    coefficients: &'a [f64],
+    covariance: &'a [Vec<f64>],
+}
+
+/// R², F, likelihood and information criteria from a fit's sums.
+fn whole_fit_statistics(sums: &WholeFitSums) -> FitStatistics {
+    let n = sums.rows;
+    let k = sums.coefficients.len();
+    let rss = sums.rss;
+    let ss_total = sums.ss_total.to_f64();
+    let ss_regression = (sums.ss_total - DoubleDouble::from(rss)).to_f64();
+    let i = usize::from(sums.with_intercept);
+    let model_df = k.saturating_sub(usize::from(sums.intercept_estimated));
+    let residual_df = n - k;
+    let r_squared = if ss_total > 0.0 { ss_regression / ss_total } else { f64::NAN };
+    let adj_r_squared = 1.0 - (1.0 - r_squared) * (n - i) as f64 / residual_df as f64;
+    let s2 = rss / residual_df as f64;
+    let (f_statistic, f_p_value) = overall_f(sums, model_df, ss_regression, s2);
+    let nf = n as f64;
+    let log_likelihood =
+        -0.5 * nf * ((2.0 * std::f64::consts::PI).ln() + (rss / nf).ln() + 1.0) + 0.5 * sums.sum_log_weight;
+    let params = (k + 1) as f64;
+    FitStatistics {
+        n_obs: n,
+        n_coefficients: k,
+        model_df,
+        residual_df,
+        df_t: sums.df_t,
+        r_squared,
+        adj_r_squared,
+        residual_std_error: s2.sqrt(),
+        f_statistic,
+        f_p_value,
+        ss_regression,
+        ss_residual: rss,
+        ss_total,
+        log_likelihood,
+        aic: -2.0 * log_likelihood + 2.0 * params,
+        bic: -2.0 * log_likelihood + nf.ln() * params,
+        condition_number: sums.condition_number,
+    }
+}
+
+/// The overall F test of the slopes: the classical ANOVA F, or under a
+/// robust covariance the Wald F of all non-intercept coefficients.
+fn overall_f(sums: &WholeFitSums, model_df: usize, ss_regression: f64, s2: f64) -> (Option<f64>, Option<f64>) {
+    if model_df == 0 {
+        return (None, None);
+    }
+    let f = if sums.classical {
+        if !(s2 > 0.0) {
+            return (None, None);
+        }
+        (ss_regression / model_df as f64) / s2
+    } else {
+        match wald_slopes(sums) {
+            Some(f) => f,
+            None => return (None, None),
+        }
+    };
+    (Some(f), f_upper_p(f, model_df as f64, sums.df_t))
+}
+
+/// Wald F of all non-intercept coefficients under the fit's covariance.
+fn wald_slopes(sums: &WholeFitSums) -> Option<f64> {
+    let skip = usize::from(sums.intercept_estimated);
+    let k = sums.coefficients.len();
+    let q = k - skip;
+    let b: Vec<f64> = sums.coefficients[skip..].to_vec();
+    let v = faer::Mat::<f64>::from_fn(q, q, |a, c| sums.covariance[a + skip][c + skip]);
+    let rhs = faer::Mat::<f64>::from_fn(q, 1, |a, _| b[a]);
+    use faer::linalg::solvers::Solve;
+    let x = v.partial_piv_lu().solve(&rhs);
+    let quad: f64 = (0..q).map(|a| b[a] * x[(a, 0)]).sum();
+    quad.is_finite().then_some(quad / q as f64)
 }
 
 /// The machine-readable fit, serialized as the JSON documented in README.md.

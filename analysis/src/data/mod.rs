@@ -18,8 +18,11 @@
 //!   dates and the sale-date arithmetic of date terms.
 //! * [`profile`] — a per-column summary (type, missing, min/median/max, levels).
 //! * [`Screen`] — rows kept by a stated rule, with a record of the rows set aside.
+//! * [`RowBatches`] — a CSV or Parquet file, or a directory of them, read in
+//!   bounded batches for fits of data larger than memory.
 
 mod arrow_reader;
+mod batches;
 mod cells;
 mod csv_reader;
 pub mod dates;
@@ -36,6 +39,7 @@ mod values;
 mod workbook_reader;
 
 pub use arrow_reader::load_arrow;
+pub use batches::RowBatches;
 pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
 pub use parquet_reader::load_parquet;

@@ -4,13 +4,17 @@
 //! steps need: the design and how it was coded, the solution, the covariance
 //! under the chosen estimator, and the data's provenance. Statistics for
 //! reading a fit live in [`crate::inference`]; predictions in [`crate::predict`].
+//! [`streamed`] assembles a fit from pieces — batches of data larger than
+//! memory, or partitions factored apart and merged ([`fit_batches`]).
 
 mod covariance;
 pub mod solver;
+pub mod streamed;
 
 pub use covariance::CovarianceKind;
 pub(crate) use covariance::{leverages, quadratic_form};
 pub use solver::{default_rank_tolerance, Solution, SolverMethod};
+pub use streamed::{fit_batches, AssembledFit};
 
 use crate::data::{Frame, Provenance};
 use crate::error::{Error, Result};

@@ -32,9 +32,9 @@
 
 use super::Precision;
 use crate::model::DesignColumn;
-use crate::numeric::{dd_qr, tsqr};
 use crate::numeric::equilibrate::power_of_two_scale;
 use crate::numeric::DoubleDouble;
+use crate::numeric::{dd_qr, tsqr};
 use faer::linalg::solvers::SolveLstsq;
 use faer::Mat;
 use serde::{Deserialize, Serialize};
@@ -137,7 +137,12 @@ fn column_scales(columns: &[DesignColumn], root_w: &[DoubleDouble]) -> Vec<f64> 
 /// Residuals `y − Xb` with every product error-free and every sum in double-double.
 ///
 /// Column by column, so each design column is streamed through memory once.
-fn residuals_dd(columns: &[DesignColumn], kept: &[usize], b: &[DoubleDouble], y: &[f64]) -> Vec<DoubleDouble> {
+pub(crate) fn residuals_dd(
+    columns: &[DesignColumn],
+    kept: &[usize],
+    b: &[DoubleDouble],
+    y: &[f64],
+) -> Vec<DoubleDouble> {
     let mut acc: Vec<DoubleDouble> = y.iter().map(|&v| DoubleDouble::from(v)).collect();
     for (k, &j) in kept.iter().enumerate() {
         let column = &columns[j];
@@ -349,9 +354,8 @@ impl SmallFactor {
     pub(crate) fn from_augmented(r: faer::MatRef<'_, f64>, tolerance: f64) -> SmallFactor {
         let p = r.ncols() - 1;
         let rows = r.nrows();
-        let scales: Vec<f64> = (0..p)
-            .map(|j| power_of_two_scale((0..rows).map(|i| r[(i, j)].powi(2)).sum::<f64>().sqrt()))
-            .collect();
+        let scales: Vec<f64> =
+            (0..p).map(|j| power_of_two_scale((0..rows).map(|i| r[(i, j)].powi(2)).sum::<f64>().sqrt())).collect();
         let scaled: Vec<Vec<DoubleDouble>> =
             (0..p).map(|j| (0..rows).map(|i| DoubleDouble::from(r[(i, j)] * scales[j])).collect()).collect();
         let rhs: Vec<DoubleDouble> = (0..rows).map(|i| DoubleDouble::from(r[(i, p)])).collect();

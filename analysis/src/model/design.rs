@@ -302,13 +302,17 @@ fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<
     Ok(CompleteRows { numbers, labels, rows, dropped })
 }
 
-/// Builds the design of `spec` on `frame`.
-///
-/// Rows missing any value the model reads (target, terms, weights, and the
-/// extra columns in `also_require`, such as a cluster column) are dropped and
-/// counted per column. Category levels, centres and polynomial recurrences
-/// are learned from the rows kept.
-pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> Result<Design> {
+/// The complete rows of a fit, with the (transformed) target and the weights.
+struct FittingRows {
+    complete: CompleteRows,
+    target: Vec<f64>,
+    weights: Option<Vec<f64>>,
+}
+
+/// Reads the rows a fit of `spec` uses: drops rows missing any value the
+/// model reads, takes the log of the target when asked (refusing values that
+/// are not positive) and checks the weights.
+fn fitting_rows(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> Result<FittingRows> {
     if spec.terms().is_empty() && !spec.has_intercept() {
         return Err(Error::Specification("a model without intercept needs at least one term".into()));
     }
@@ -321,21 +325,8 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
     for extra in also_require {
         reads.add_label(extra);
     }
-    let mut order = vec![spec.target().to_string()];
-    for term in spec.terms() {
-        order.extend(term.columns().into_iter().map(str::to_string));
-    }
-    order.extend(spec.weight_column().map(str::to_string));
-    order.extend(also_require.iter().map(|s| s.to_string()));
-    order.dedup();
-
+    let order = read_order(spec, also_require);
     let complete = complete_rows(frame, &reads, &order)?;
-    if complete.rows.is_empty() {
-        return Err(Error::AllRowsDropped { detail: complete.dropped.describe() });
-    }
-    let line_of = |row: usize| frame.source_line(row);
-    let values =
-        RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
 
     // Target.
     let mut target = complete.numbers[spec.target()].clone();
@@ -371,6 +362,35 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
             Some(ws)
         }
     };
+    Ok(FittingRows { complete, target, weights })
+}
+
+/// The frame columns a model reads, target first, in the order messages name them.
+fn read_order(spec: &ModelSpec, also_require: &[&str]) -> Vec<String> {
+    let mut order = vec![spec.target().to_string()];
+    for term in spec.terms() {
+        order.extend(term.columns().into_iter().map(str::to_string));
+    }
+    order.extend(spec.weight_column().map(str::to_string));
+    order.extend(also_require.iter().map(|s| s.to_string()));
+    order.dedup();
+    order
+}
+
+/// Builds the design of `spec` on `frame`.
+///
+/// Rows missing any value the model reads (target, terms, weights, and the
+/// extra columns in `also_require`, such as a cluster column) are dropped and
+/// counted per column. Category levels, centres and polynomial recurrences
+/// are learned from the rows kept.
+pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> Result<Design> {
+    let FittingRows { complete, target, weights } = fitting_rows(frame, spec, also_require)?;
+    if complete.rows.is_empty() {
+        return Err(Error::AllRowsDropped { detail: complete.dropped.describe() });
+    }
+    let line_of = |row: usize| frame.source_line(row);
+    let values =
+        RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
 
     // Terms.
     let mut encodings = Vec::with_capacity(spec.terms().len());
@@ -459,6 +479,188 @@ impl DesignRecipe {
             RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
         let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
         Ok(AppliedDesign { columns, rows: complete.rows, numbers: complete.numbers })
+    }
+}
+
+impl DesignRecipe {
+    /// The design of a frame's rows coded with this recipe, target and
+    /// weights included, for fits assembled from several frames (row batches
+    /// of a large file, or partitions). Rows are dropped for missing values
+    /// as [`build_design`] drops them; a frame with no complete row gives an
+    /// empty design. A category level the recipe does not know is refused.
+    pub fn fitting_design(&self, frame: &Frame) -> Result<Design> {
+        let FittingRows { complete, target, weights } = fitting_rows(frame, &self.spec, &[])?;
+        let line_of = |row: usize| frame.source_line(row);
+        let values =
+            RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
+        let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
+        Ok(Design {
+            columns,
+            target,
+            weights,
+            rows_used: complete.rows,
+            dropped: complete.dropped,
+            recipe: self.clone(),
+        })
+    }
+}
+
+/// The frame columns `spec` reads, as `(numbers, labels)`: what a reader that
+/// loads only a model's columns ([`crate::data::RowBatches`]) must provide.
+/// Date columns are listed with the labels (read as ISO 8601 text).
+pub fn columns_read(spec: &ModelSpec) -> (Vec<String>, Vec<String>) {
+    let mut reads = ValueReads::of_terms(spec.terms());
+    reads.add_number(spec.target());
+    if let Some(w) = spec.weight_column() {
+        reads.add_number(w);
+    }
+    let mut numbers = Vec::new();
+    let mut labels = Vec::new();
+    for source in reads.numbers.values().chain(reads.labels.values()) {
+        for column in source.frame_columns() {
+            let list = match source {
+                ValueSource::Column(_) if reads.numbers.values().any(|s| s == source) => &mut numbers,
+                ValueSource::Distance { .. } => &mut numbers,
+                _ => &mut labels,
+            };
+            if !list.iter().any(|c: &String| c == column) {
+                list.push(column.to_string());
+            }
+        }
+    }
+    (numbers, labels)
+}
+
+/// Learns a [`DesignRecipe`] from frames seen one after another (row batches
+/// of data larger than memory), as [`build_design`] learns it from one frame:
+/// the same levels, the same reference levels (the most frequent, unless
+/// named), the same column names and value ranges. Terms whose coding needs
+/// every value at once (centred, standardised and orthogonal-polynomial
+/// terms) are refused with the alternative to use.
+#[derive(Debug)]
+pub struct RecipeLearner {
+    spec: ModelSpec,
+    level_counts: BTreeMap<String, BTreeMap<String, usize>>,
+    ranges: BTreeMap<String, (f64, f64)>,
+    dropped: DroppedRows,
+    rows_kept: usize,
+}
+
+impl RecipeLearner {
+    /// A learner for `spec`; refuses terms that cannot be learned in batches.
+    pub fn new(spec: &ModelSpec) -> Result<Self> {
+        fn check(term: &Term) -> Result<()> {
+            match term {
+                Term::Numeric { column, transform }
+                    if matches!(
+                        transform,
+                        super::Transform::Center
+                            | super::Transform::Standardize
+                            | super::Transform::OrthogonalPolynomial(_)
+                    ) =>
+                {
+                    Err(Error::Specification(format!(
+                        "the term `{}` is coded from every value of `{column}` at once, which a fit read in batches \
+                         cannot do; use `{column}` itself (or its raw powers): the other coefficients and the fit are unchanged",
+                        term.label()
+                    )))
+                }
+                Term::Interaction(a, b) => check(a).and_then(|()| check(b)),
+                _ => Ok(()),
+            }
+        }
+        spec.terms().iter().try_for_each(check)?;
+        check_degrees(spec.terms())?;
+        Ok(Self {
+            spec: spec.clone(),
+            level_counts: BTreeMap::new(),
+            ranges: BTreeMap::new(),
+            dropped: DroppedRows::default(),
+            rows_kept: 0,
+        })
+    }
+
+    /// Takes in one frame's complete rows.
+    pub fn absorb(&mut self, frame: &Frame) -> Result<()> {
+        let FittingRows { complete, .. } = fitting_rows(frame, &self.spec, &[])?;
+        for (key, labels) in &complete.labels {
+            let counts = self.level_counts.entry(key.clone()).or_default();
+            for label in labels {
+                match counts.get_mut(label) {
+                    Some(c) => *c += 1,
+                    None => {
+                        counts.insert(label.clone(), 1);
+                    }
+                }
+            }
+        }
+        for key in ValueReads::of_terms(self.spec.terms()).numbers.keys() {
+            let values = &complete.numbers[key];
+            let range = self.ranges.entry(key.clone()).or_insert((f64::INFINITY, f64::NEG_INFINITY));
+            for &v in values {
+                range.0 = range.0.min(v);
+                range.1 = range.1.max(v);
+            }
+        }
+        self.dropped.absorb(&complete.dropped);
+        self.rows_kept += complete.rows.len();
+        Ok(())
+    }
+
+    /// Rows kept so far.
+    pub fn rows_kept(&self) -> usize {
+        self.rows_kept
+    }
+
+    /// Rows dropped so far, by column.
+    pub fn dropped(&self) -> &DroppedRows {
+        &self.dropped
+    }
+
+    /// The recipe learned from every frame absorbed.
+    pub fn finish(&self) -> Result<DesignRecipe> {
+        if self.rows_kept == 0 {
+            return Err(Error::AllRowsDropped { detail: self.dropped.describe() });
+        }
+        let spec = &self.spec;
+        let mut encodings = Vec::with_capacity(spec.terms().len());
+        let mut full_coding_pending = !spec.has_intercept();
+        for term in spec.terms() {
+            let full = full_coding_pending && matches!(term.resolved(), Term::Category { .. });
+            if full {
+                full_coding_pending = false;
+            }
+            encodings.push(super::encode::learn_from_level_counts(term, &self.level_counts, full)?);
+        }
+        // Column names do not depend on values: assemble on no rows.
+        let (numbers, labels): (BTreeMap<String, Vec<f64>>, BTreeMap<String, Vec<String>>) = (
+            self.ranges.keys().map(|k| (k.clone(), Vec::new())).collect(),
+            self.level_counts.keys().map(|k| (k.clone(), Vec::new())).collect(),
+        );
+        let line_of = |_: usize| None;
+        let values = RowValues { numbers: &numbers, labels: &labels, rows: &[], line_of: &line_of };
+        let (columns, term_spans) = assemble_columns(spec, &encodings, &values, 0)?;
+        let column_names: Vec<String> = columns.iter().map(|c| c.name.clone()).collect();
+        let numeric_ranges = self.ranges.iter().map(|(c, &(lo, hi))| (c.clone(), lo, hi)).collect();
+        Ok(DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans, numeric_ranges })
+    }
+}
+
+impl DroppedRows {
+    /// Adds another frame's dropped rows to these (counts by column summed,
+    /// columns kept in first-seen order).
+    pub fn absorb(&mut self, other: &DroppedRows) {
+        self.total += other.total;
+        for (mine, theirs) in
+            [(&mut self.by_column, &other.by_column), (&mut self.non_finite_by_column, &other.non_finite_by_column)]
+        {
+            for (column, count) in theirs {
+                match mine.iter_mut().find(|(c, _)| c == column) {
+                    Some((_, k)) => *k += count,
+                    None => mine.push((column.clone(), *count)),
+                }
+            }
+        }
     }
 }
 

@@ -162,40 +162,79 @@ pub fn learn(term: &Term, values: &RowValues, full_coding: bool) -> Result<TermE
             for l in labels {
                 *counts.entry(l.as_str()).or_default() += 1;
             }
-            let mut all_levels: Vec<String> = counts.keys().map(|s| s.to_string()).collect();
-            sort_levels(&mut all_levels);
-            let reference = if full_coding {
-                None
-            } else {
-                match reference {
-                    Some(r) if counts.contains_key(r.as_str()) => Some(r.clone()),
-                    Some(r) => {
-                        return Err(Error::UnknownLevel {
-                            column: column.clone(),
-                            level: r.clone(),
-                            levels: all_levels,
-                        })
-                    }
-                    None => {
-                        let mut best: Option<(&String, usize)> = None;
-                        for level in &all_levels {
-                            let c = counts[level.as_str()];
-                            if best.is_none_or(|(_, bc)| c > bc) {
-                                best = Some((level, c));
-                            }
-                        }
-                        best.map(|(l, _)| l.clone())
-                    }
-                }
-            };
-            let coded_levels = all_levels.iter().filter(|l| Some(*l) != reference.as_ref()).cloned().collect();
-            Ok(TermEncoding::Category { column: column.clone(), coded_levels, reference, all_levels })
+            category_encoding(column, reference.as_ref(), &counts, full_coding)
         }
         Term::Date { .. } | Term::Distance { .. } => learn(&term.resolved(), values, full_coding),
         Term::Interaction(a, b) => {
             Ok(TermEncoding::Interaction(Box::new(learn(a, values, false)?), Box::new(learn(b, values, false)?)))
         }
     }
+}
+
+/// Learns a term's encoding from the level counts of its label columns alone
+/// (keyed by the name the encoder reads them under), for recipes learned from
+/// row batches. Numeric terms must have a fixed transform (identity, log,
+/// powers); `RecipeLearner` refuses the others before this is called.
+pub fn learn_from_level_counts(
+    term: &Term,
+    level_counts: &BTreeMap<String, BTreeMap<String, usize>>,
+    full_coding: bool,
+) -> Result<TermEncoding> {
+    match term {
+        Term::Numeric { column, transform } => {
+            Ok(TermEncoding::Numeric { column: column.clone(), transform: *transform, params: NumericParams::Fixed })
+        }
+        Term::Category { column, reference } => {
+            let counts: BTreeMap<&str, usize> = level_counts
+                .get(column)
+                .map(|c| c.iter().map(|(level, &k)| (level.as_str(), k)).collect())
+                .unwrap_or_default();
+            category_encoding(column, reference.as_ref(), &counts, full_coding)
+        }
+        Term::Date { .. } | Term::Distance { .. } => {
+            learn_from_level_counts(&term.resolved(), level_counts, full_coding)
+        }
+        Term::Interaction(a, b) => Ok(TermEncoding::Interaction(
+            Box::new(learn_from_level_counts(a, level_counts, false)?),
+            Box::new(learn_from_level_counts(b, level_counts, false)?),
+        )),
+    }
+}
+
+/// A category's coding from its level counts: levels in [`sort_levels`]
+/// order, the reference named or else the most frequent level (the first in
+/// level order on a tie), every level coded under `full_coding`.
+fn category_encoding(
+    column: &str,
+    reference: Option<&String>,
+    counts: &BTreeMap<&str, usize>,
+    full_coding: bool,
+) -> Result<TermEncoding> {
+    let column = column.to_string();
+    let mut all_levels: Vec<String> = counts.keys().map(|s| s.to_string()).collect();
+    sort_levels(&mut all_levels);
+    let reference = if full_coding {
+        None
+    } else {
+        match reference {
+            Some(r) if counts.contains_key(r.as_str()) => Some(r.clone()),
+            Some(r) => {
+                return Err(Error::UnknownLevel { column: column.clone(), level: r.clone(), levels: all_levels })
+            }
+            None => {
+                let mut best: Option<(&String, usize)> = None;
+                for level in &all_levels {
+                    let c = counts[level.as_str()];
+                    if best.is_none_or(|(_, bc)| c > bc) {
+                        best = Some((level, c));
+                    }
+                }
+                best.map(|(l, _)| l.clone())
+            }
+        }
+    };
+    let coded_levels = all_levels.iter().filter(|l| Some(*l) != reference.as_ref()).cloned().collect();
+    Ok(TermEncoding::Category { column, coded_levels, reference, all_levels })
 }
 
 impl TermEncoding {

@@ -123,12 +123,7 @@ fn factor_in_place(mut a: Mat<f64>) -> Mat<f64> {
 /// Factors the `n × width` matrix whose entry `(i, j)` is `entry(i, j)`, in
 /// blocks of [`BLOCK_ROWS`] rows on up to `threads` threads (contiguous row
 /// ranges, one factor each, merged in a tree).
-pub fn factor_rows(
-    n: usize,
-    width: usize,
-    threads: usize,
-    entry: impl Fn(usize, usize) -> f64 + Sync,
-) -> TallSkinnyQr {
+pub fn factor_rows(n: usize, width: usize, threads: usize, entry: impl Fn(usize, usize) -> f64 + Sync) -> TallSkinnyQr {
     let threads = threads.clamp(1, n.div_ceil(BLOCK_ROWS).max(1));
     let chunk = n.div_ceil(threads);
     let factor_range = |start: usize, end: usize| {

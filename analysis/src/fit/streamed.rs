@@ -1,0 +1,363 @@
+//! Fits assembled from pieces: row batches of data larger than memory, or
+//! partitions factored apart (on other threads or machines) and merged.
+//!
+//! Everything a least-squares fit with classical, HC0 or HC1 standard errors
+//! needs is a sum over rows, so it can be gathered piece by piece in two
+//! rounds, each piece reduced to a few `p × p` numbers:
+//!
+//! 1. [`FactorAggregate`] — the tall-skinny QR factor of the weighted
+//!    `[X | y]` ([`crate::numeric::tsqr`]), `Σ wᵢ` and `Σ wᵢ yᵢ`. Pieces merge
+//!    by factoring their stacked factors. From the merged factor,
+//!    [`FirstSolution`] takes the numerical rank (the same pivoted QR as an
+//!    in-memory fit), the coefficients `b₀` and the weighted mean of `y`.
+//! 2. [`ResidualAggregate`], given `b₀`: the gradient `g = Σ wᵢ xᵢ rᵢ`, the
+//!    residual sum of squares `Σ wᵢ rᵢ²` (residuals in double-double), the
+//!    total sum of squares about the mean, and for HC0/HC1 the middle matrix
+//!    `Σ wᵢ² rᵢ² xᵢxᵢᵀ` (White 1980). Pieces merge by adding.
+//!
+//! [`finish`] then takes one step of refinement by the corrected seminormal
+//! equations, `RᵀR d = g`, `b = b₀ + d` (Björck 1987; the same step as the
+//! in-memory blocked solver), with `RSS(b) = RSS(b₀) − dᵀg`, which is exact
+//! for the least-squares correction. The middle matrix uses the residuals at
+//! `b₀`, which differ from those at `b` only in rounding.
+//!
+//! HC2, HC3, cluster-robust errors and the row-level diagnostics need every
+//! row's leverage or group at once; a fit from pieces refuses them and says so.
+
+use super::solver::SmallFactor;
+use super::{default_rank_tolerance, CovarianceKind, FitOptions, SolverMethod};
+use crate::data::{Provenance, RowBatches};
+use crate::error::{Error, Result};
+use crate::model::design::{columns_read, RecipeLearner};
+use crate::model::{Design, DesignRecipe, DroppedRows, ModelSpec};
+use crate::numeric::tsqr::{self, TallSkinnyQr};
+use crate::numeric::DoubleDouble;
+use faer::Mat;
+
+/// Round one of a fit from pieces: the factor of the weighted `[X | y]` and
+/// the weight and target sums (see the module docs).
+#[derive(Debug, Clone, PartialEq)]
+pub struct FactorAggregate {
+    factor: TallSkinnyQr,
+    rows: usize,
+    total_weight: DoubleDouble,
+    weighted_target: DoubleDouble,
+    sum_log_weight: f64,
+}
+
+impl FactorAggregate {
+    /// The aggregate of no rows, for designs of `columns` columns.
+    pub fn new(columns: usize) -> Self {
+        Self {
+            factor: TallSkinnyQr::new(columns + 1),
+            rows: 0,
+            total_weight: DoubleDouble::ZERO,
+            weighted_target: DoubleDouble::ZERO,
+            sum_log_weight: 0.0,
+        }
+    }
+
+    /// Takes in a design's rows (on all cores).
+    pub fn absorb(&mut self, design: &Design) {
+        let n = design.n_rows();
+        if n == 0 {
+            return;
+        }
+        let p = design.columns.len();
+        let weight = |i: usize| design.weights.as_ref().map_or(1.0, |w| w[i]);
+        let root: Vec<f64> = (0..n).map(|i| DoubleDouble::from(weight(i)).sqrt().to_f64()).collect();
+        let piece = tsqr::factor_rows(n, p + 1, tsqr::available_threads(), |i, j| {
+            if j < p {
+                design.columns[j].hi[i] * root[i]
+            } else {
+                design.target[i] * root[i]
+            }
+        });
+        self.factor = std::mem::replace(&mut self.factor, TallSkinnyQr::new(p + 1)).merge(&piece);
+        self.rows += n;
+        for i in 0..n {
+            self.total_weight += DoubleDouble::from(weight(i));
+            self.weighted_target += DoubleDouble::from_product(weight(i), design.target[i]);
+        }
+        if let Some(w) = &design.weights {
+            self.sum_log_weight += w.iter().map(|v| v.ln()).sum::<f64>();
+        }
+    }
+
+    /// The aggregate of both pieces' rows.
+    pub fn merge(mut self, other: &FactorAggregate) -> FactorAggregate {
+        self.factor = self.factor.merge(&other.factor);
+        self.rows += other.rows;
+        self.total_weight += other.total_weight;
+        self.weighted_target += other.weighted_target;
+        self.sum_log_weight += other.sum_log_weight;
+        self
+    }
+
+    /// Rows taken in.
+    pub fn rows(&self) -> usize {
+        self.rows
+    }
+}
+
+/// What round one decides: rank, aliased columns, first coefficients `b₀`.
+#[derive(Debug, Clone)]
+pub struct FirstSolution {
+    small: SmallFactor,
+    coefficients: Vec<DoubleDouble>,
+    aggregate: FactorAggregate,
+    with_intercept: bool,
+}
+
+impl FirstSolution {
+    /// Solves from a merged round-one aggregate. `tolerance` as in
+    /// [`FitOptions::rank_tolerance`] (`None`: the default for the design's size).
+    pub fn from_aggregate(aggregate: FactorAggregate, recipe: &DesignRecipe, tolerance: Option<f64>) -> Result<Self> {
+        let p = recipe.column_names.len();
+        let tolerance = tolerance.unwrap_or_else(|| default_rank_tolerance(aggregate.rows, p));
+        let small = SmallFactor::from_augmented(aggregate.factor.r(), tolerance);
+        if small.kept.is_empty() {
+            return Err(Error::SingularDesign { detail: "every design column is zero on the rows used".into() });
+        }
+        if aggregate.rows <= small.kept.len() {
+            return Err(Error::TooFewRows { rows: aggregate.rows, columns: small.kept.len() });
+        }
+        let coefficients = small.solution();
+        Ok(Self { small, coefficients, aggregate, with_intercept: recipe.spec.has_intercept() })
+    }
+
+    /// The weighted mean of the target (zero without an intercept, where the
+    /// total sum of squares is uncentred).
+    fn centre(&self) -> DoubleDouble {
+        if self.with_intercept {
+            self.aggregate.weighted_target / self.aggregate.total_weight
+        } else {
+            DoubleDouble::ZERO
+        }
+    }
+}
+
+/// Round two of a fit from pieces, given [`FirstSolution`] (see the module docs).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ResidualAggregate {
+    gradient: Vec<DoubleDouble>,
+    rss: DoubleDouble,
+    ss_total: DoubleDouble,
+    /// `Σ wᵢ² rᵢ² xᵢxᵢᵀ` over the kept columns, row-major, when asked for.
+    middle: Option<Vec<f64>>,
+}
+
+impl ResidualAggregate {
+    /// The aggregate of no rows; `with_middle` gathers the HC0/HC1 middle matrix.
+    pub fn new(first: &FirstSolution, with_middle: bool) -> Self {
+        let k = first.small.kept.len();
+        Self {
+            gradient: vec![DoubleDouble::ZERO; k],
+            rss: DoubleDouble::ZERO,
+            ss_total: DoubleDouble::ZERO,
+            middle: with_middle.then(|| vec![0.0; k * k]),
+        }
+    }
+
+    /// Takes in a design's rows.
+    pub fn absorb(&mut self, design: &Design, first: &FirstSolution) {
+        let n = design.n_rows();
+        if n == 0 {
+            return;
+        }
+        let kept = &first.small.kept;
+        let weight = |i: usize| design.weights.as_ref().map_or(1.0, |w| w[i]);
+        let residuals = super::solver::residuals_dd(&design.columns, kept, &first.coefficients, &design.target);
+        let centre = first.centre();
+        let weighted: Vec<f64> = residuals.iter().enumerate().map(|(i, r)| r.mul_f64(weight(i)).to_f64()).collect();
+        for (g, &j) in self.gradient.iter_mut().zip(kept) {
+            let sum: f64 = design.columns[j].hi.iter().zip(&weighted).map(|(x, r)| x * r).sum();
+            *g += DoubleDouble::from(sum);
+        }
+        for (i, r) in residuals.iter().enumerate() {
+            self.rss += (*r * *r).mul_f64(weight(i));
+            let d = DoubleDouble::from(design.target[i]) - centre;
+            self.ss_total += (d * d).mul_f64(weight(i));
+        }
+        if let Some(middle) = &mut self.middle {
+            let k = kept.len();
+            let scaled = Mat::<f64>::from_fn(n, k, |i, a| design.columns[kept[a]].hi[i] * weighted[i]);
+            let product = scaled.transpose() * &scaled;
+            for a in 0..k {
+                for b in 0..k {
+                    middle[a * k + b] += product[(a, b)];
+                }
+            }
+        }
+    }
+
+    /// The aggregate of both pieces' rows.
+    pub fn merge(mut self, other: &ResidualAggregate) -> ResidualAggregate {
+        for (a, b) in self.gradient.iter_mut().zip(&other.gradient) {
+            *a += *b;
+        }
+        self.rss += other.rss;
+        self.ss_total += other.ss_total;
+        if let (Some(mine), Some(theirs)) = (&mut self.middle, &other.middle) {
+            mine.iter_mut().zip(theirs).for_each(|(a, b)| *a += b);
+        }
+        self
+    }
+}
+
+/// A least-squares fit assembled from pieces: the coefficients, their
+/// covariance and the whole-fit sums (no row-level results).
+#[derive(Debug, Clone)]
+pub struct AssembledFit {
+    /// How the rows were coded.
+    pub recipe: DesignRecipe,
+    /// Indices of the estimated design columns, ascending.
+    pub kept: Vec<usize>,
+    /// Indices of the aliased design columns, ascending.
+    pub aliased: Vec<usize>,
+    /// Estimates of the kept columns.
+    pub coefficients: Vec<f64>,
+    /// Their covariance under `covariance_kind`, row-major `k × k`.
+    pub covariance: Vec<Vec<f64>>,
+    /// The covariance estimator.
+    pub covariance_kind: CovarianceKind,
+    /// Rows used.
+    pub rows: usize,
+    /// Rows dropped for missing values.
+    pub dropped: DroppedRows,
+    /// `Σ wᵢ rᵢ²`.
+    pub weighted_rss: f64,
+    /// `Σ wᵢ (yᵢ − ȳ)²` (uncentred without intercept), in double-double.
+    pub ss_total: DoubleDouble,
+    /// `Σ ln wᵢ` (zero without weights), for the log-likelihood.
+    pub sum_log_weight: f64,
+    /// Condition number of the equilibrated design.
+    pub condition_number: f64,
+    /// The solver (blocked QR with one refinement step).
+    pub method: SolverMethod,
+    /// The data.
+    pub provenance: Provenance,
+    /// Pieces (batches or partitions) the rows came in.
+    pub pieces: usize,
+}
+
+impl AssembledFit {
+    /// Names of the estimated design columns.
+    pub fn estimated_names(&self) -> Vec<&str> {
+        self.kept.iter().map(|&j| self.recipe.column_names[j].as_str()).collect()
+    }
+
+    /// Names of the aliased design columns.
+    pub fn aliased_names(&self) -> Vec<&str> {
+        self.aliased.iter().map(|&j| self.recipe.column_names[j].as_str()).collect()
+    }
+}
+
+/// Refuses covariance estimators a fit from pieces cannot compute.
+pub fn check_covariance_for_pieces(kind: &CovarianceKind) -> Result<()> {
+    match kind {
+        CovarianceKind::Classical | CovarianceKind::Hc0 | CovarianceKind::Hc1 => Ok(()),
+        other => Err(Error::Specification(format!(
+            "{} standard errors need every row at once (each row's leverage, or its group), which a fit read \
+             in batches does not keep; use classical, HC0 or HC1 errors here, or load the data and fit in memory",
+            other.label()
+        ))),
+    }
+}
+
+/// Completes a fit from its two merged rounds.
+pub fn finish(
+    first: FirstSolution,
+    second: ResidualAggregate,
+    recipe: DesignRecipe,
+    kind: &CovarianceKind,
+    dropped: DroppedRows,
+    provenance: Provenance,
+    pieces: usize,
+) -> Result<AssembledFit> {
+    check_covariance_for_pieces(kind)?;
+    let gradient: Vec<f64> = second.gradient.iter().map(|g| g.to_f64()).collect();
+    let delta = first.small.seminormal_correction(&gradient);
+    let correction: DoubleDouble = delta.iter().zip(&second.gradient).map(|(&d, g)| g.mul_f64(d)).sum();
+    let weighted_rss = (second.rss - correction).to_f64().max(0.0);
+    let coefficients: Vec<f64> =
+        first.coefficients.iter().zip(&delta).map(|(b, &d)| (*b + DoubleDouble::from(d)).to_f64()).collect();
+    if first.with_intercept && second.ss_total.to_f64() == 0.0 {
+        return Err(Error::ConstantTarget { target: recipe.spec.target_label(), value: first.centre().to_f64() });
+    }
+    let n = first.aggregate.rows;
+    let k = first.small.kept.len();
+    let unscaled = first.small.unscaled_covariance();
+    let covariance = match (kind, &second.middle) {
+        (CovarianceKind::Classical, _) => {
+            let s2 = weighted_rss / (n - k) as f64;
+            unscaled.iter().map(|row| row.iter().map(|v| v * s2).collect()).collect()
+        }
+        (_, Some(middle)) => {
+            let c = Mat::<f64>::from_fn(k, k, |a, b| unscaled[a][b]);
+            let m = Mat::<f64>::from_fn(k, k, |a, b| middle[a * k + b]);
+            let sandwich = &c * &m * &c;
+            let factor = if *kind == CovarianceKind::Hc1 { n as f64 / (n - k) as f64 } else { 1.0 };
+            (0..k).map(|a| (0..k).map(|b| sandwich[(a, b)] * factor).collect()).collect()
+        }
+        (_, None) => {
+            return Err(Error::Specification(
+                "robust standard errors need the middle matrix gathered in round two".into(),
+            ))
+        }
+    };
+    Ok(AssembledFit {
+        kept: first.small.kept.clone(),
+        aliased: first.small.aliased.clone(),
+        coefficients,
+        covariance,
+        covariance_kind: kind.clone(),
+        rows: n,
+        dropped,
+        weighted_rss,
+        ss_total: second.ss_total,
+        sum_log_weight: first.aggregate.sum_log_weight,
+        condition_number: first.small.condition_number,
+        method: SolverMethod::RefinedQr { refinement_steps: 1 },
+        provenance,
+        pieces,
+        recipe,
+    })
+}
+
+/// Fits `spec` to data read in batches of `batches.batch_rows()` rows:
+/// one pass learns the coding, one factors, one gathers residual sums, and
+/// one hashes the files for the provenance stamp. Memory is bounded by a
+/// batch and `p²`, not by the rows.
+pub fn fit_batches(
+    path: &std::path::Path,
+    spec: &ModelSpec,
+    options: &FitOptions,
+    batch_rows: usize,
+) -> Result<AssembledFit> {
+    check_covariance_for_pieces(&options.covariance)?;
+    let (numbers, labels) = columns_read(spec);
+    let batches = RowBatches::open(path, &numbers, &labels, batch_rows)?;
+    let mut learner = RecipeLearner::new(spec)?;
+    let mut rows_read = 0;
+    let mut pieces = 0;
+    batches.for_each_batch(|frame| {
+        rows_read += frame.height();
+        pieces += 1;
+        learner.absorb(frame)
+    })?;
+    let recipe = learner.finish()?;
+    let mut factor = FactorAggregate::new(recipe.column_names.len());
+    batches.for_each_batch(|frame| {
+        factor.absorb(&recipe.fitting_design(frame)?);
+        Ok(())
+    })?;
+    let first = FirstSolution::from_aggregate(factor, &recipe, options.rank_tolerance)?;
+    let mut second = ResidualAggregate::new(&first, options.covariance != CovarianceKind::Classical);
+    batches.for_each_batch(|frame| {
+        second.absorb(&recipe.fitting_design(frame)?, &first);
+        Ok(())
+    })?;
+    let provenance = batches.fingerprint(rows_read)?;
+    finish(first, second, recipe, &options.covariance, learner.dropped().clone(), provenance, pieces)
+}

@@ -1,0 +1,163 @@
+//! Fits assembled from pieces equal the fit of all rows at once.
+//!
+//! Reference: the in-memory fit of the same data with the double-double
+//! solver (`Precision::Extended`), itself certified against NIST StRD
+//! (`tests/accuracy/nist.rs`). The algebra that makes the pieces agree is the
+//! TSQR reduction (Demmel, Grigori, Hoemmen & Langou 2012, *SIAM J. Sci.
+//! Comput.* 34(1), A206–A239): any split of the rows and any merge order give
+//! the same triangular factor up to rounding. Agreement is checked to 1e-12
+//! relative for every coefficient and standard error (issue acceptance).
+
+use plumbline::fit::streamed::{finish, FactorAggregate, FirstSolution, ResidualAggregate};
+use plumbline::fit::{fit_batches, AssembledFit};
+use plumbline::model::{Design, DroppedRows};
+use plumbline::polars::prelude::ParquetWriter;
+use plumbline::prelude::*;
+use plumbline_tests::{demo_sales_csv, demo_spec, scratch_dir};
+
+const TOLERANCE: f64 = 1e-12;
+
+fn close(a: f64, b: f64) -> bool {
+    (a - b).abs() <= TOLERANCE * a.abs().max(b.abs()).max(f64::MIN_POSITIVE)
+}
+
+fn in_memory(covariance: CovarianceKind) -> (Frame, Fit) {
+    let frame = load(demo_sales_csv()).expect("demo sales");
+    let options = FitOptions { covariance, precision: Precision::Extended, rank_tolerance: None };
+    let fit = fit_with(&frame, &demo_spec(), &options).expect("in-memory fit");
+    (frame, fit)
+}
+
+fn assert_agrees(reference: &Fit, assembled: &AssembledFit, what: &str) {
+    let expected = reference.summary(0.95).expect("summary");
+    let got = assembled.summary(0.95).expect("summary");
+    assert_eq!(got.n_obs, expected.n_obs, "{what}: rows");
+    assert_eq!(got.n_dropped, expected.n_dropped, "{what}: dropped rows");
+    assert_eq!(got.aliased, expected.aliased, "{what}: aliased columns");
+    assert_eq!(got.coefficients.len(), expected.coefficients.len(), "{what}: coefficient count");
+    for (e, g) in expected.coefficients.iter().zip(&got.coefficients) {
+        assert_eq!(e.term, g.term, "{what}: term order");
+        assert!(close(e.estimate, g.estimate), "{what}: {} estimate {} vs {}", e.term, g.estimate, e.estimate);
+        assert!(close(e.std_error, g.std_error), "{what}: {} SE {} vs {}", e.term, g.std_error, e.std_error);
+    }
+    assert!(
+        close(expected.ss_residual, got.ss_residual),
+        "{what}: RSS {} vs {}",
+        got.ss_residual,
+        expected.ss_residual
+    );
+    assert!(close(expected.r_squared, got.r_squared), "{what}: R² {} vs {}", got.r_squared, expected.r_squared);
+    assert!(close(expected.f_statistic.unwrap_or(0.0), got.f_statistic.unwrap_or(0.0)), "{what}: F");
+}
+
+/// Writes the demo sales as `parts` CSV files (header repeated) in a new directory.
+fn csv_directory(name: &str, parts: usize) -> std::path::PathBuf {
+    let dir = scratch_dir(name);
+    let text = std::fs::read_to_string(demo_sales_csv()).expect("demo sales text");
+    let mut lines = text.lines();
+    let header = lines.next().expect("header");
+    let rows: Vec<&str> = lines.collect();
+    for (k, chunk) in rows.chunks(rows.len().div_ceil(parts)).enumerate() {
+        let body = format!("{header}\n{}\n", chunk.join("\n"));
+        std::fs::write(dir.join(format!("sales-{k:02}.csv")), body).expect("write part");
+    }
+    dir
+}
+
+#[test]
+fn a_fit_read_in_batches_equals_the_fit_in_memory() {
+    let dir = csv_directory("batches-csv", 3);
+    for covariance in [CovarianceKind::Classical, CovarianceKind::Hc0, CovarianceKind::Hc1] {
+        let (_, reference) = in_memory(covariance.clone());
+        let options = FitOptions { covariance: covariance.clone(), ..FitOptions::default() };
+        // 257 rows per batch: batches straddle the file boundaries unevenly.
+        let streamed = fit_batches(&dir, &demo_spec(), &options, 257).expect("fit in batches");
+        assert!(streamed.pieces > 10, "the data came in {} batches", streamed.pieces);
+        assert_agrees(&reference, &streamed, &format!("CSV directory, {}", covariance.label()));
+    }
+}
+
+#[test]
+fn a_parquet_file_read_in_batches_equals_the_fit_in_memory() {
+    let (frame, reference) = in_memory(CovarianceKind::Hc1);
+    let dir = scratch_dir("batches-parquet");
+    let path = dir.join("sales.parquet");
+    let mut data = frame.data().clone();
+    let file = std::fs::File::create(&path).expect("create parquet");
+    ParquetWriter::new(file).with_row_group_size(Some(400)).finish(&mut data).expect("write parquet");
+    let options = FitOptions::with_covariance(CovarianceKind::Hc1);
+    let streamed = fit_batches(&path, &demo_spec(), &options, 1000).expect("fit in batches");
+    assert_agrees(&reference, &streamed, "Parquet file, HC1");
+    // The stamp names the file by its own SHA-256, as loading it would.
+    assert_eq!(streamed.provenance.sha256, load(&path).expect("load parquet").provenance().sha256);
+}
+
+#[test]
+fn partitions_factored_apart_and_merged_in_a_tree_equal_the_single_pass_fit() {
+    let (frame, reference) = in_memory(CovarianceKind::Hc1);
+    let recipe = reference.design().recipe.clone();
+    let n = frame.height();
+    for k in [1usize, 7, 64] {
+        // Partition i holds rows i, i + k, i + 2k, …: interleaved, as a hash
+        // partitioning would spread them.
+        let partitions: Vec<Frame> = (0..k)
+            .map(|i| {
+                let rows: Vec<usize> = (i..n).step_by(k).collect();
+                frame.subset(&rows, "partition").expect("partition")
+            })
+            .collect();
+        let designs: Vec<Design> = partitions.iter().map(|p| recipe.fitting_design(p).expect("design")).collect();
+        let factors: Vec<FactorAggregate> = designs
+            .iter()
+            .map(|d| {
+                let mut a = FactorAggregate::new(recipe.column_names.len());
+                a.absorb(d);
+                a
+            })
+            .collect();
+        let merged = tree(factors, |a, b| a.merge(&b)).expect("some partitions");
+        let first = FirstSolution::from_aggregate(merged, &recipe, None).expect("round one");
+        let residuals: Vec<ResidualAggregate> = designs
+            .iter()
+            .map(|d| {
+                let mut a = ResidualAggregate::new(&first, true);
+                a.absorb(d, &first);
+                a
+            })
+            .collect();
+        let second = tree(residuals, |a, b| a.merge(&b)).expect("some partitions");
+        let mut dropped = DroppedRows::default();
+        designs.iter().for_each(|d| dropped.absorb(&d.dropped));
+        let assembled =
+            finish(first, second, recipe.clone(), &CovarianceKind::Hc1, dropped, frame.provenance().clone(), k)
+                .expect("assembled fit");
+        assert_agrees(&reference, &assembled, &format!("{k} partitions"));
+    }
+}
+
+/// Pairwise merges, level by level, as a distributed reduction would run them.
+fn tree<T>(mut items: Vec<T>, merge: impl Fn(T, T) -> T) -> Option<T> {
+    while items.len() > 1 {
+        let mut next = Vec::new();
+        let mut it = items.into_iter();
+        while let Some(a) = it.next() {
+            next.push(match it.next() {
+                Some(b) => merge(a, b),
+                None => a,
+            });
+        }
+        items = next;
+    }
+    items.pop()
+}
+
+#[test]
+fn estimators_that_need_every_row_are_refused_in_batches_with_the_alternative() {
+    let dir = csv_directory("batches-refused", 2);
+    let options = FitOptions::with_covariance(CovarianceKind::Hc3);
+    let message = fit_batches(&dir, &demo_spec(), &options, 500).expect_err("HC3 needs leverages").to_string();
+    assert!(message.contains("HC3") && message.contains("HC1"), "{message}");
+    let centred = ModelSpec::new("sale_price").term(Term::numeric("age").center());
+    let message = fit_batches(&dir, &centred, &FitOptions::default(), 500).expect_err("centred").to_string();
+    assert!(message.contains("use `age` itself"), "{message}");
+}
