@@ -159,6 +159,13 @@ pub struct FitArgs {
     /// Whether the model's misses cluster in space.
     #[command(flatten)]
     pub spatial: SpatialFlags,
+    /// Read the data in batches of N rows and fit from the pieces, for a file
+    /// (or a directory of .csv / .parquet files) larger than memory: memory
+    /// stays bounded by one batch. A directory is always read this way
+    /// (default 1,000,000 rows per batch). Classical, HC0 and HC1 errors only;
+    /// no row-level results (--predict, --diagnose, --influence, --spatial-check).
+    #[arg(long, value_name = "N")]
+    pub batch_rows: Option<usize>,
 }
 
 /// Flags of the spatial check of a fit's residuals (Moran's I).

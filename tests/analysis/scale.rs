@@ -71,7 +71,7 @@ fn a_fit_read_in_batches_equals_the_fit_in_memory() {
         let (_, reference) = in_memory(covariance.clone());
         let options = FitOptions { covariance: covariance.clone(), ..FitOptions::default() };
         // 257 rows per batch: batches straddle the file boundaries unevenly.
-        let streamed = fit_batches(&dir, &demo_spec(), &options, 257).expect("fit in batches");
+        let streamed = fit_batches(&dir, &demo_spec(), &options, 257, NonFinite::Refuse).expect("fit in batches");
         assert!(streamed.pieces > 10, "the data came in {} batches", streamed.pieces);
         assert_agrees(&reference, &streamed, &format!("CSV directory, {}", covariance.label()));
     }
@@ -86,7 +86,7 @@ fn a_parquet_file_read_in_batches_equals_the_fit_in_memory() {
     let file = std::fs::File::create(&path).expect("create parquet");
     ParquetWriter::new(file).with_row_group_size(Some(400)).finish(&mut data).expect("write parquet");
     let options = FitOptions::with_covariance(CovarianceKind::Hc1);
-    let streamed = fit_batches(&path, &demo_spec(), &options, 1000).expect("fit in batches");
+    let streamed = fit_batches(&path, &demo_spec(), &options, 1000, NonFinite::Refuse).expect("fit in batches");
     assert_agrees(&reference, &streamed, "Parquet file, HC1");
     // The stamp names the file by its own SHA-256, as loading it would.
     assert_eq!(streamed.provenance.sha256, load(&path).expect("load parquet").provenance().sha256);
@@ -155,9 +155,11 @@ fn tree<T>(mut items: Vec<T>, merge: impl Fn(T, T) -> T) -> Option<T> {
 fn estimators_that_need_every_row_are_refused_in_batches_with_the_alternative() {
     let dir = csv_directory("batches-refused", 2);
     let options = FitOptions::with_covariance(CovarianceKind::Hc3);
-    let message = fit_batches(&dir, &demo_spec(), &options, 500).expect_err("HC3 needs leverages").to_string();
+    let message =
+        fit_batches(&dir, &demo_spec(), &options, 500, NonFinite::Refuse).expect_err("HC3 needs leverages").to_string();
     assert!(message.contains("HC3") && message.contains("HC1"), "{message}");
     let centred = ModelSpec::new("sale_price").term(Term::numeric("age").center());
-    let message = fit_batches(&dir, &centred, &FitOptions::default(), 500).expect_err("centred").to_string();
+    let message =
+        fit_batches(&dir, &centred, &FitOptions::default(), 500, NonFinite::Refuse).expect_err("centred").to_string();
     assert!(message.contains("use `age` itself"), "{message}");
 }

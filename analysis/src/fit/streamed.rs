@@ -26,7 +26,7 @@
 
 use super::solver::SmallFactor;
 use super::{default_rank_tolerance, CovarianceKind, FitOptions, SolverMethod};
-use crate::data::{Provenance, RowBatches};
+use crate::data::{NonFinite, Provenance, RowBatches};
 use crate::error::{Error, Result};
 use crate::model::design::{columns_read, RecipeLearner};
 use crate::model::{Design, DesignRecipe, DroppedRows, ModelSpec};
@@ -329,15 +329,22 @@ pub fn finish(
 /// one pass learns the coding, one factors, one gathers residual sums, and
 /// one hashes the files for the provenance stamp. Memory is bounded by a
 /// batch and `p²`, not by the rows.
+///
+/// `non_finite` says what the batches do with values that are not finite
+/// numbers (refuse them, by default, or read them as missing).
 pub fn fit_batches(
     path: &std::path::Path,
     spec: &ModelSpec,
     options: &FitOptions,
     batch_rows: usize,
+    non_finite: NonFinite,
 ) -> Result<AssembledFit> {
     check_covariance_for_pieces(&options.covariance)?;
     let (numbers, labels) = columns_read(spec);
-    let batches = RowBatches::open(path, &numbers, &labels, batch_rows)?;
+    let mut batches = RowBatches::open(path, &numbers, &labels, batch_rows)?;
+    if non_finite == NonFinite::AsMissing {
+        batches = batches.non_finite_as_missing();
+    }
     let mut learner = RecipeLearner::new(spec)?;
     let mut rows_read = 0;
     let mut pieces = 0;

@@ -37,4 +37,4 @@ pub use numbers::{format_column, format_p_value, format_significant, format_trim
 pub use prose::VALUATION_CAUTION;
 pub use ratio_report::{ratio_html, ratio_text};
 pub use result_reports::AssumptionTests;
-pub use text::{fit_text, predictions_text};
+pub use text::{assembled_fit_text, fit_text, predictions_text};

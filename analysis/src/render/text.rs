@@ -4,8 +4,77 @@ use super::fit_figures::figure_groups;
 use super::numbers::{format_count, format_p_value, format_significant};
 use super::prose::percent;
 use crate::error::Result;
-use crate::fit::Fit;
+use crate::fit::{AssembledFit, Fit};
 use crate::predict::Predictions;
+
+/// The aligned coefficient table (estimate, standard error, t, p-value,
+/// interval at `level`), one line per term.
+fn coefficient_lines(coefficients: &[crate::inference::Coefficient], level: f64) -> String {
+    let mut out = String::new();
+    let pct = percent(level);
+    let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
+    out.push_str(&format!(
+        "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   {pct} % interval\n",
+        "term", "estimate", "std error", "t", "p-value"
+    ));
+    for c in coefficients {
+        let term: String = if c.term.chars().count() > name_width {
+            c.term.chars().take(name_width - 1).chain(std::iter::once('…')).collect()
+        } else {
+            c.term.clone()
+        };
+        out.push_str(&format!(
+            "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   [{}, {}]\n",
+            term,
+            format_significant(c.estimate, 6),
+            format_significant(c.std_error, 4),
+            c.t.map_or("—".into(), |t| format!("{t:.2}")),
+            format_p_value(c.p_value),
+            format_significant(c.ci_low, 5),
+            format_significant(c.ci_high, 5),
+        ));
+    }
+    out
+}
+
+/// A fit assembled from batches or partitions ([`AssembledFit`]) as an
+/// aligned plain-text report: the same coefficient table as [`fit_text`], and
+/// the whole-fit figures its sums give (no row-level results exist).
+pub fn assembled_fit_text(fit: &AssembledFit, level: f64) -> Result<String> {
+    let coefficients = fit.coefficients(level)?;
+    let stats = fit.statistics();
+    let prov = &fit.provenance;
+    let mut out = format!(
+        "Least-squares fit of {}, read in {} batches\n",
+        fit.recipe.spec.target_label(),
+        format_count(fit.pieces)
+    );
+    out.push_str(&format!("  source    {}\n", prov.describe()));
+    out.push_str(&format!("  data      {} records, sha256 {}…\n", format_count(prov.rows), prov.short_hash()));
+    out.push_str(&format!(
+        "  rows      {} used, dropped for missing values: {}\n",
+        format_count(stats.n_obs),
+        fit.dropped.describe()
+    ));
+    out.push_str(&format!("  errors    {}\n\n", fit.covariance_kind.label()));
+    out.push_str(&coefficient_lines(&coefficients, level));
+    let aliased = fit.aliased_names();
+    if !aliased.is_empty() {
+        out.push_str(&format!(
+            "\n  left out (each is a linear combination of the columns above): {}\n",
+            aliased.join(", ")
+        ));
+    }
+    out.push_str(&format!(
+        "\n  R² {}   adjusted {}   residual std error {} on {} df   condition number {}\n",
+        format_significant(stats.r_squared, 6),
+        format_significant(stats.adj_r_squared, 6),
+        format_significant(stats.residual_std_error, 5),
+        format_count(stats.residual_df),
+        format_significant(stats.condition_number, 3),
+    ));
+    Ok(out)
+}
 
 /// The fit as an aligned plain-text report at confidence `level`.
 pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
@@ -15,7 +84,6 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
     let prov = fit.provenance();
     let dropped = &fit.design().dropped;
     let mut out = String::new();
-    let pct = percent(level);
 
     out.push_str(&format!("Least-squares fit of {}\n", spec.target_label()));
     out.push_str(&format!("  source    {}\n", prov.describe()));
@@ -33,28 +101,7 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
     ));
     out.push_str(&format!("  errors    {}\n\n", fit.covariance_description()));
 
-    let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
-    out.push_str(&format!(
-        "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   {pct} % interval\n",
-        "term", "estimate", "std error", "t", "p-value"
-    ));
-    for c in &coefficients {
-        let term: String = if c.term.chars().count() > name_width {
-            c.term.chars().take(name_width - 1).chain(std::iter::once('…')).collect()
-        } else {
-            c.term.clone()
-        };
-        out.push_str(&format!(
-            "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   [{}, {}]\n",
-            term,
-            format_significant(c.estimate, 6),
-            format_significant(c.std_error, 4),
-            c.t.map_or("—".into(), |t| format!("{t:.2}")),
-            format_p_value(c.p_value),
-            format_significant(c.ci_low, 5),
-            format_significant(c.ci_high, 5),
-        ));
-    }
+    out.push_str(&coefficient_lines(&coefficients, level));
     let aliased = fit.aliased_names();
     if !aliased.is_empty() {
         out.push_str(&format!(

@@ -270,6 +270,9 @@ fn spatial_options(flags: &SpatialFlags) -> Result<Option<SpatialOptions>, Comma
 /// Runs `plumbline fit`; returns the report to print. Nothing is printed
 /// unless every step succeeded, so a failure never leaves partial JSON.
 pub fn run(args: &FitArgs) -> Result<String, CommandError> {
+    if let Some(batch_rows) = args.batch_rows.or_else(|| args.data.is_dir().then_some(DEFAULT_BATCH_ROWS)) {
+        return run_in_batches(args, batch_rows);
+    }
     let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
     let spec = model_spec(args)?;
     let model = fit_with(&frame, &spec, &fit_options(args))?;
@@ -339,5 +342,49 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
             };
             Ok(to_pretty_json(&document, "fit document")?)
         }
+    }
+}
+
+/// Rows per batch when a directory is fitted without `--batch-rows`: about
+/// 8 bytes × columns × 10⁶ of numbers per batch (160 MB at 20 columns).
+const DEFAULT_BATCH_ROWS: usize = 1_000_000;
+
+/// `plumbline fit` on data read in batches (`--batch-rows`, or a directory).
+fn run_in_batches(args: &FitArgs, batch_rows: usize) -> Result<String, CommandError> {
+    let refused = [
+        (args.predict.is_some(), "--predict"),
+        (args.diagnose, "--diagnose"),
+        (args.influence, "--influence"),
+        (args.spatial.spatial_check.is_some(), "--spatial-check"),
+        (
+            args.source.query.is_some() || args.source.table.is_some() || args.source.sheet.is_some(),
+            "--query/--table/--sheet",
+        ),
+        (
+            args.input.delimiter != ","
+                || !args.input.null_markers.is_empty()
+                || !args.input.column_types.is_empty()
+                || !args.input.date_formats.is_empty()
+                || args.input.encoding != "utf-8",
+            "the text-file flags (--delimiter, --null, --column-type, --date-format, --encoding)",
+        ),
+    ];
+    if let Some((_, flag)) = refused.iter().find(|(given, _)| *given) {
+        return Err(CommandError::Usage(format!(
+            "{flag} needs the data in memory, but this fit reads it in batches (--batch-rows, or a directory); \
+             load a single file without --batch-rows, or leave the flag out"
+        )));
+    }
+    if args.format == Format::Html {
+        return Err(CommandError::Usage(
+            "a fit read in batches is reported as text or JSON (--format text|json)".into(),
+        ));
+    }
+    let spec = model_spec(args)?;
+    let fit =
+        plumbline::fit::fit_batches(&args.data, &spec, &fit_options(args), batch_rows, non_finite_rule(&args.input)?)?;
+    match args.format {
+        Format::Json => Ok(to_pretty_json(&FitDocument::from(fit.summary(args.level)?), "fit document")?),
+        _ => Ok(plumbline::render::assembled_fit_text(&fit, args.level)?),
     }
 }
