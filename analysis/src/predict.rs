@@ -14,7 +14,8 @@
 
 use crate::data::Frame;
 use crate::error::{Error, Result};
-use crate::fit::{quadratic_form, Fit};
+use crate::fit::{quadratic_form, AssembledFit, Fit};
+use crate::model::DesignRecipe;
 use crate::model::TargetTransform;
 use crate::stats::{check_level, t_critical};
 use serde::{Deserialize, Serialize};
@@ -58,26 +59,67 @@ pub struct Predictions {
     pub skipped_rows: Vec<usize>,
 }
 
+/// What predicting needs from a fitted model, however it was fitted (all
+/// rows in memory, or assembled from batches).
+struct Predictor<'a> {
+    recipe: &'a DesignRecipe,
+    kept: &'a [usize],
+    coefficients: &'a [f64],
+    covariance: &'a [Vec<f64>],
+    residual_variance: f64,
+    df_t: f64,
+    /// `mean(exp(rᵢ))` over the fitting residuals, for a logged target.
+    smearing: Option<f64>,
+}
+
 impl Fit {
     /// Predicts every row of `frame` that has all term values.
     pub fn predict(&self, frame: &Frame, level: f64) -> Result<Predictions> {
+        let log_target = self.spec().target_transform() == TargetTransform::Log;
+        let r = &self.solution.residuals;
+        Predictor {
+            recipe: &self.design.recipe,
+            kept: &self.solution.kept,
+            coefficients: &self.solution.coefficients,
+            covariance: &self.covariance,
+            residual_variance: self.residual_std_error().powi(2),
+            df_t: self.df_t(),
+            smearing: log_target.then(|| r.iter().map(|v| v.exp()).sum::<f64>() / r.len() as f64),
+        }
+        .predict(frame, level)
+    }
+}
+
+impl AssembledFit {
+    /// Predicts every row of `frame` that has all term values, exactly as
+    /// [`Fit::predict`] does (the smearing factor of a logged target comes
+    /// from the residual sums gathered piece by piece).
+    pub fn predict(&self, frame: &Frame, level: f64) -> Result<Predictions> {
+        let log_target = self.recipe.spec.target_transform() == TargetTransform::Log;
+        Predictor {
+            recipe: &self.recipe,
+            kept: &self.kept,
+            coefficients: &self.coefficients,
+            covariance: &self.covariance,
+            residual_variance: self.weighted_rss / self.residual_df() as f64,
+            df_t: self.residual_df() as f64,
+            smearing: log_target.then(|| self.exp_residual_sum / self.rows as f64),
+        }
+        .predict(frame, level)
+    }
+}
+
+impl Predictor<'_> {
+    fn predict(&self, frame: &Frame, level: f64) -> Result<Predictions> {
         check_level(level)?;
-        let applied = self.design.recipe.apply(frame)?;
+        let applied = self.recipe.apply(frame)?;
         let (columns, rows) = (&applied.columns, &applied.rows);
         if rows.is_empty() {
             return Err(Error::Prediction("no row of the new data has every value the model needs".into()));
         }
-        let kept = &self.solution.kept;
-        let crit = t_critical(level, self.df_t());
-        let s2 = self.residual_std_error().powi(2);
-        let log_target = self.spec().target_transform() == TargetTransform::Log;
-        let smearing = if log_target {
-            let r = &self.solution.residuals;
-            Some(r.iter().map(|v| v.exp()).sum::<f64>() / r.len() as f64)
-        } else {
-            None
-        };
-        let ranges = &self.design.recipe.numeric_ranges;
+        let crit = t_critical(level, self.df_t);
+        let s2 = self.residual_variance;
+        let ranges = &self.recipe.numeric_ranges;
         let mut predictions = Vec::with_capacity(rows.len());
         for (i, &row) in rows.iter().enumerate() {
             let outside_range = ranges
@@ -85,9 +127,9 @@ impl Fit {
                 .filter(|(c, lo, hi)| applied.numbers.get(c).is_some_and(|values| values[i] < *lo || values[i] > *hi))
                 .map(|(c, _, _)| c.clone())
                 .collect();
-            let x: Vec<f64> = kept.iter().map(|&j| columns[j].hi[i]).collect();
-            let estimate: f64 = x.iter().zip(&self.solution.coefficients).map(|(a, b)| a * b).sum();
-            let se_fit = quadratic_form(&self.covariance, &x).max(0.0).sqrt();
+            let x: Vec<f64> = self.kept.iter().map(|&j| columns[j].hi[i]).collect();
+            let estimate: f64 = x.iter().zip(self.coefficients).map(|(a, b)| a * b).sum();
+            let se_fit = quadratic_form(self.covariance, &x).max(0.0).sqrt();
             let half_ci = crit * se_fit;
             let half_pi = crit * (s2 + se_fit * se_fit).sqrt();
             predictions.push(Prediction {
@@ -98,8 +140,8 @@ impl Fit {
                 ci_high: estimate + half_ci,
                 pi_low: estimate - half_pi,
                 pi_high: estimate + half_pi,
-                median_original: log_target.then(|| estimate.exp()),
-                mean_original: smearing.map(|s| estimate.exp() * s),
+                median_original: self.smearing.map(|_| estimate.exp()),
+                mean_original: self.smearing.map(|s| estimate.exp() * s),
                 outside_range,
             });
         }

@@ -25,6 +25,9 @@ pub enum Command {
     Compare(Box<CompareArgs>),
     /// Ratio study of values against sale prices: level, uniformity, vertical equity.
     Ratio(Box<RatioArgs>),
+    /// Fit a model to the sales, then value every parcel of a (large) parcel
+    /// file in batches, writing estimates and intervals to CSV or Parquet.
+    Value(Box<ValueArgs>),
     /// Execute a study notebook headlessly; save the executed notebook and an HTML report.
     Run(RunArgs),
     /// What moved between two runs: fit JSON files or executed notebooks.
@@ -311,6 +314,27 @@ pub struct CompareArgs {
     /// What to read from a database or workbook.
     #[command(flatten)]
     pub source: SourceFlags,
+}
+
+/// Arguments of `plumbline value`.
+#[derive(Debug, Args)]
+pub struct ValueArgs {
+    /// The sales and the model, exactly as for `plumbline fit` (`--batch-rows`
+    /// and directories fit in batches; `--id` names the parcel id column
+    /// copied into the output).
+    #[command(flatten)]
+    pub fit: FitArgs,
+    /// The parcels to value: a .csv or .parquet file, or a directory of them,
+    /// with the model's term columns (and the id column).
+    #[arg(long, value_name = "FILE|DIR")]
+    pub parcels: PathBuf,
+    /// Where to write the values: a .csv or .parquet file (written whole or
+    /// not at all).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Parcels read and valued per batch (memory is bounded by one batch).
+    #[arg(long, value_name = "N", default_value_t = 100_000)]
+    pub parcel_batch_rows: usize,
 }
 
 /// Arguments of `plumbline ratio`.

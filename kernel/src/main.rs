@@ -18,6 +18,7 @@ fn main() -> ExitCode {
         Command::Fit(args) => commands::fit::run(&args),
         Command::Compare(args) => commands::compare::run(&args),
         Command::Ratio(args) => commands::ratio::run(&args),
+        Command::Value(args) => commands::value::run(&args),
         Command::Run(args) => commands::run::run(&args),
         Command::Diff(args) => commands::diff::run(&args),
         Command::Accuracy(args) => commands::accuracy::run(&args),

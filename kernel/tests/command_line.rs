@@ -179,3 +179,81 @@ fn an_sqlite_table_fits_on_the_command_line_as_its_csv_does() {
     assert_eq!(from_csv["coefficients"], from_table["coefficients"]);
     assert_eq!(from_table["data"]["source"]["table"], "norris");
 }
+
+fn run_value(args: &[&str]) -> Result<String, CommandError> {
+    let cli = Cli::try_parse_from(std::iter::once("plumbline").chain(args.iter().copied())).expect("arguments parse");
+    match cli.command {
+        Command::Value(a) => plumbline_kernel::commands::value::run(&a),
+        other => panic!("expected a value command, got {other:?}"),
+    }
+}
+
+/// `plumbline value` writes one row per parcel, in input order, whose numbers
+/// are the library's predictions to the last digit (the library's prediction
+/// intervals follow Weisberg, *Applied Linear Regression*, 4th ed., §3.7, and
+/// are checked against numpy in `tests/python/test_prediction_against_numpy.py`).
+#[test]
+fn value_writes_every_parcel_with_the_library_predictions_in_batches() {
+    use plumbline::prelude::*;
+    let dir = scratch_dir("value-command");
+    let sales = plumbline_tests::demo_sales_csv();
+    let parcels = sales.with_file_name("parcels.csv");
+    let out = dir.join("values.csv");
+    let (sales_arg, parcels_arg, out_arg) =
+        (sales.to_str().expect("utf8"), parcels.to_str().expect("utf8"), out.to_str().expect("utf8"));
+    let model_flags = [
+        "--target",
+        "sale_price",
+        "--log-target",
+        "--log",
+        "living_area",
+        "--terms",
+        "age,quality",
+        "--category",
+        "district",
+    ];
+    let mut args = vec!["value", sales_arg];
+    args.extend(model_flags);
+    args.extend(["--id", "parcel_id", "--parcels", parcels_arg, "--out", out_arg, "--parcel-batch-rows", "700"]);
+    let summary = run_value(&args).expect("value");
+    assert!(summary.contains("3340 parcels valued") && summary.contains("not appraisals"), "{summary}");
+
+    // The command line orders terms as `--terms`, `--log`, `--category`.
+    let spec = ModelSpec::new("sale_price")
+        .log_target()
+        .numeric("age")
+        .numeric("quality")
+        .term(Term::numeric("living_area").log())
+        .category("district");
+    let fit = fit(&load(&sales).expect("sales"), &spec).expect("fit");
+    let parcel_frame = load(&parcels).expect("parcels");
+    let expected = fit.predict(&parcel_frame, 0.95).expect("predict");
+    let ids = parcel_frame.label_column("parcel_id").expect("ids");
+    let mut reader = csv::Reader::from_path(&out).expect("values file");
+    let header: Vec<String> = reader.headers().expect("header").iter().map(str::to_string).collect();
+    assert_eq!(header[..4], ["row", "id", "estimate", "se_fit"]);
+    let rows: Vec<csv::StringRecord> = reader.records().map(|r| r.expect("record")).collect();
+    assert_eq!(rows.len(), expected.rows.len());
+    for (record, p) in rows.iter().zip(&expected.rows) {
+        assert_eq!(record[0].parse::<usize>().expect("row"), p.row);
+        assert_eq!(Some(record[1].to_string()), ids[p.row - 1]);
+        assert_eq!(record[2].parse::<f64>().expect("estimate"), p.estimate);
+        assert_eq!(record[7].parse::<f64>().expect("pi_high"), p.pi_high);
+        assert_eq!(record[8].parse::<f64>().expect("median"), p.median_original.expect("log target"));
+    }
+
+    // A failure leaves no file behind, not even a partial one.
+    let broken = write_file(&dir, "broken-parcels.csv", "parcel_id,living_area,age\nA,1200,10\n");
+    let failed_out = dir.join("never.csv");
+    let mut args = vec!["value", sales_arg];
+    args.extend(model_flags);
+    args.extend(["--parcels", broken.to_str().expect("utf8"), "--out", failed_out.to_str().expect("utf8")]);
+    let error = run_value(&args).expect_err("parcels lack quality and district").to_string();
+    assert!(error.contains("quality"), "{error}");
+    assert!(!failed_out.exists());
+    assert!(std::fs::read_dir(&dir).expect("dir").all(|e| !e
+        .expect("entry")
+        .file_name()
+        .to_string_lossy()
+        .contains("partial")));
+}

@@ -93,6 +93,26 @@ fn a_parquet_file_read_in_batches_equals_the_fit_in_memory() {
 }
 
 #[test]
+fn predictions_of_a_fit_read_in_batches_equal_the_in_memory_predictions() {
+    let (_, reference) = in_memory(CovarianceKind::Classical);
+    let dir = csv_directory("batches-predict", 2);
+    let streamed = fit_batches(&dir, &demo_spec(), &FitOptions::default(), 640, NonFinite::Refuse).expect("fit");
+    let parcels = load(demo_sales_csv().with_file_name("parcels.csv")).expect("parcels");
+    let (expected, got) =
+        (reference.predict(&parcels, 0.9).expect("predict"), streamed.predict(&parcels, 0.9).expect("predict"));
+    assert_eq!(expected.rows.len(), got.rows.len());
+    assert_eq!(expected.skipped_rows, got.skipped_rows);
+    for (e, g) in expected.rows.iter().zip(&got.rows) {
+        assert_eq!(e.row, g.row);
+        for (a, b) in [(e.estimate, g.estimate), (e.se_fit, g.se_fit), (e.pi_low, g.pi_low), (e.pi_high, g.pi_high)] {
+            assert!(close(a, b), "row {}: {a} vs {b}", e.row);
+        }
+        let (a, b) = (e.mean_original.expect("log target"), g.mean_original.expect("log target"));
+        assert!(close(a, b), "row {}: smeared mean {a} vs {b}", e.row);
+    }
+}
+
+#[test]
 fn partitions_factored_apart_and_merged_in_a_tree_equal_the_single_pass_fit() {
     let (frame, reference) = in_memory(CovarianceKind::Hc1);
     let recipe = reference.design().recipe.clone();

@@ -143,6 +143,8 @@ pub struct ResidualAggregate {
     gradient: Vec<DoubleDouble>,
     rss: DoubleDouble,
     ss_total: DoubleDouble,
+    /// `Σ exp(rᵢ)`, for the smearing estimate of a logged target's mean.
+    exp_residual_sum: f64,
     /// `Σ wᵢ² rᵢ² xᵢxᵢᵀ` over the kept columns, row-major, when asked for.
     middle: Option<Vec<f64>>,
 }
@@ -155,6 +157,7 @@ impl ResidualAggregate {
             gradient: vec![DoubleDouble::ZERO; k],
             rss: DoubleDouble::ZERO,
             ss_total: DoubleDouble::ZERO,
+            exp_residual_sum: 0.0,
             middle: with_middle.then(|| vec![0.0; k * k]),
         }
     }
@@ -175,6 +178,7 @@ impl ResidualAggregate {
             *g += DoubleDouble::from(sum);
         }
         for (i, r) in residuals.iter().enumerate() {
+            self.exp_residual_sum += r.to_f64().exp();
             self.rss += (*r * *r).mul_f64(weight(i));
             let d = DoubleDouble::from(design.target[i]) - centre;
             self.ss_total += (d * d).mul_f64(weight(i));
@@ -198,6 +202,7 @@ impl ResidualAggregate {
         }
         self.rss += other.rss;
         self.ss_total += other.ss_total;
+        self.exp_residual_sum += other.exp_residual_sum;
         if let (Some(mine), Some(theirs)) = (&mut self.middle, &other.middle) {
             mine.iter_mut().zip(theirs).for_each(|(a, b)| *a += b);
         }
@@ -231,6 +236,9 @@ pub struct AssembledFit {
     pub ss_total: DoubleDouble,
     /// `Σ ln wᵢ` (zero without weights), for the log-likelihood.
     pub sum_log_weight: f64,
+    /// `Σ exp(rᵢ)` over the rows used (residuals at the round-one
+    /// coefficients), for the smearing estimate of a logged target's mean.
+    pub exp_residual_sum: f64,
     /// Condition number of the equilibrated design.
     pub condition_number: f64,
     /// The solver (blocked QR with one refinement step).
@@ -317,6 +325,7 @@ pub fn finish(
         weighted_rss,
         ss_total: second.ss_total,
         sum_log_weight: first.aggregate.sum_log_weight,
+        exp_residual_sum: second.exp_residual_sum,
         condition_number: first.small.condition_number,
         method: SolverMethod::RefinedQr { refinement_steps: 1 },
         provenance,

@@ -514,6 +514,16 @@ pub fn columns_read(spec: &ModelSpec) -> (Vec<String>, Vec<String>) {
     if let Some(w) = spec.weight_column() {
         reads.add_number(w);
     }
+    split_reads(&reads)
+}
+
+/// The frame columns `spec`'s terms read (no target, no weights), as
+/// `(numbers, labels)`: what new rows to predict must provide.
+pub fn term_columns_read(spec: &ModelSpec) -> (Vec<String>, Vec<String>) {
+    split_reads(&ValueReads::of_terms(spec.terms()))
+}
+
+fn split_reads(reads: &ValueReads) -> (Vec<String>, Vec<String>) {
     let mut numbers = Vec::new();
     let mut labels = Vec::new();
     for source in reads.numbers.values().chain(reads.labels.values()) {

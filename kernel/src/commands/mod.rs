@@ -9,6 +9,7 @@ pub mod install;
 pub mod kernel;
 pub mod ratio;
 pub mod run;
+pub mod value;
 
 /// Why a subcommand failed.
 #[derive(Debug, thiserror::Error)]
