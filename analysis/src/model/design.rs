@@ -561,20 +561,16 @@ impl RecipeLearner {
     pub fn new(spec: &ModelSpec) -> Result<Self> {
         fn check(term: &Term) -> Result<()> {
             match term {
-                Term::Numeric { column, transform }
-                    if matches!(
-                        transform,
-                        super::Transform::Center
-                            | super::Transform::Standardize
-                            | super::Transform::OrthogonalPolynomial(_)
-                    ) =>
-                {
-                    Err(Error::Specification(format!(
-                        "the term `{}` is coded from every value of `{column}` at once, which a fit read in batches \
-                         cannot do; use `{column}` itself (or its raw powers): the other coefficients and the fit are unchanged",
-                        term.label()
-                    )))
-                }
+                Term::Numeric {
+                    column,
+                    transform:
+                        super::Transform::Center | super::Transform::Standardize | super::Transform::OrthogonalPolynomial(_),
+                } => Err(Error::Specification(format!(
+                    "the term `{}` is coded from every value of `{column}` at once, which a fit read in batches \
+                     cannot do; use `{column}` itself (or its raw powers): the fitted values are the same, only the \
+                     intercept and this term's coefficients are on the raw scale",
+                    term.label()
+                ))),
                 Term::Interaction(a, b) => check(a).and_then(|()| check(b)),
                 _ => Ok(()),
             }

@@ -197,9 +197,9 @@ impl ValueTable {
 /// Where output batches go.
 enum Sink {
     /// CSV: the header goes out with the first batch.
-    Csv { writer: csv::Writer<std::io::BufWriter<std::fs::File>>, log_target: bool, header_written: bool },
+    Csv { writer: Box<csv::Writer<std::io::BufWriter<std::fs::File>>>, log_target: bool, header_written: bool },
     /// Parquet: the writer is opened with the first batch's schema.
-    Parquet { writer: Option<BatchedWriter<std::fs::File>>, file: std::fs::File, log_target: bool },
+    Parquet { writer: Option<Box<BatchedWriter<std::fs::File>>>, file: std::fs::File, log_target: bool },
 }
 
 impl Sink {
@@ -208,7 +208,7 @@ impl Sink {
             .map_err(|e| CommandError::Runtime(format!("cannot create `{}`: {e}", path.display())))?;
         Ok(match kind {
             OutputKind::Csv => Sink::Csv {
-                writer: csv::Writer::from_writer(std::io::BufWriter::new(file)),
+                writer: Box::new(csv::Writer::from_writer(std::io::BufWriter::new(file))),
                 log_target,
                 header_written: false,
             },
@@ -238,7 +238,8 @@ impl Sink {
                 let frame = DataFrame::new(height, columns).map_err(|e| failed(&e))?;
                 if writer.is_none() {
                     let handle = file.try_clone().map_err(|e| failed(&e))?;
-                    *writer = Some(ParquetWriter::new(handle).batched(frame.schema()).map_err(|e| failed(&e))?);
+                    *writer =
+                        Some(Box::new(ParquetWriter::new(handle).batched(frame.schema()).map_err(|e| failed(&e))?));
                 }
                 if let Some(w) = writer {
                     w.write_batch(&frame).map_err(|e| failed(&e))?;
