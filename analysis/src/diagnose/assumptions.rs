@@ -25,7 +25,7 @@
 //! `2·min(P(d ≤ d_obs), P(d ≥ d_obs))`. It is only meaningful when the rows
 //! are in time order (sort by sale date first).
 
-use crate::fit::{auxiliary_regression, weighted_rows, Fit};
+use crate::fit::{auxiliary_regression, Fit};
 use crate::model::DesignColumn;
 use serde::{Deserialize, Serialize};
 use statrs::distribution::{Beta, ChiSquared, ContinuousCDF};
@@ -70,7 +70,7 @@ fn aux_fit(columns: &[DesignColumn], y: &[f64]) -> (f64, f64, usize) {
 impl Fit {
     /// The weighted kept design columns, with a constant added when the model has none.
     fn auxiliary_base(&self) -> Vec<DesignColumn> {
-        let data = weighted_rows(&self.design, &self.solution);
+        let data = self.weighted_rows();
         let k = self.solution.kept.len();
         let mut columns: Vec<DesignColumn> = (0..k)
             .map(|a| {
@@ -88,7 +88,7 @@ impl Fit {
     }
 
     fn residuals_weighted(&self) -> Vec<f64> {
-        weighted_rows(&self.design, &self.solution).residuals
+        self.weighted_rows().residuals.clone()
     }
 
     /// Breusch–Pagan test, original form (assumes normal errors).
@@ -110,8 +110,15 @@ impl Fit {
         }
     }
 
-    /// Breusch–Pagan test, Koenker's studentized form (robust to non-normal errors).
+    /// Breusch–Pagan test, Koenker's studentized form (robust to non-normal
+    /// errors). Computed once per fit: the fit's warnings read it too.
     pub fn breusch_pagan_studentized(&self) -> TestResult {
+        /// The cache key of this test's result.
+        struct Studentized(TestResult);
+        self.derived.get_or_compute(|| Studentized(self.compute_breusch_pagan_studentized())).0.clone()
+    }
+
+    fn compute_breusch_pagan_studentized(&self) -> TestResult {
         let e = self.residuals_weighted();
         let e2: Vec<f64> = e.iter().map(|v| v * v).collect();
         let (r2, _, rank) = aux_fit(&self.auxiliary_base(), &e2);
@@ -174,7 +181,7 @@ impl Fit {
 
     /// Durbin–Watson test of first-order serial correlation in row order.
     pub fn durbin_watson(&self) -> TestResult {
-        let data = weighted_rows(&self.design, &self.solution);
+        let data = self.weighted_rows();
         let e = &data.residuals;
         let n = e.len();
         let k = self.solution.kept.len();
@@ -272,8 +279,14 @@ impl Fit {
         }
     }
 
-    /// Every assumption test, in a fixed order.
+    /// Every assumption test, in a fixed order (computed once per fit).
     pub fn assumption_tests(&self) -> Vec<TestResult> {
+        /// The cache key of the whole set.
+        struct AllTests(Vec<TestResult>);
+        self.derived.get_or_compute(|| AllTests(self.compute_assumption_tests())).0.clone()
+    }
+
+    fn compute_assumption_tests(&self) -> Vec<TestResult> {
         vec![
             self.breusch_pagan(),
             self.breusch_pagan_studentized(),

@@ -62,8 +62,13 @@ pub struct Collinearity {
 }
 
 impl Fit {
-    /// VIF/GVIF per term and the condition indices of the design.
+    /// VIF/GVIF per term and the condition indices of the design (computed
+    /// once per fit).
     pub fn collinearity(&self) -> Collinearity {
+        (*self.derived.get_or_compute(|| self.compute_collinearity())).clone()
+    }
+
+    fn compute_collinearity(&self) -> Collinearity {
         let kept = &self.solution.kept;
         let columns = &self.design.columns;
         let n = self.design.n_rows();

@@ -14,7 +14,7 @@
 //! A row with leverage 1 determines its own fitted value; its standardized
 //! and studentized residuals and Cook's distance are reported as `None`.
 
-use crate::fit::{leverages, weighted_rows, Fit};
+use crate::fit::{leverages, Fit};
 use serde::{Deserialize, Serialize};
 
 /// Influence measures of one row.
@@ -50,9 +50,13 @@ pub struct Influence {
 }
 
 impl Fit {
-    /// Influence measures of every row.
+    /// Influence measures of every row (computed once per fit).
     pub fn influence(&self) -> Influence {
-        let data = weighted_rows(&self.design, &self.solution);
+        (*self.derived.get_or_compute(|| self.compute_influence())).clone()
+    }
+
+    fn compute_influence(&self) -> Influence {
+        let data = self.weighted_rows();
         let c = &self.solution.unscaled_covariance;
         let h = leverages(&data.rows, c);
         let n = data.rows.len();

@@ -14,7 +14,7 @@
 
 use crate::data::Frame;
 use crate::error::{Error, Result};
-use crate::fit::{weighted_rows, Fit};
+use crate::fit::Fit;
 use crate::spatial::{moran_test_of_residuals, MoranTest, Neighbourhood, SpatialWeights, WeightStyle};
 use crate::stats::median_of_sorted;
 use serde::{Deserialize, Serialize};
@@ -157,7 +157,7 @@ impl Fit {
     pub fn spatial_check(&self, frame: &Frame, options: &SpatialOptions) -> Result<SpatialCheck> {
         let places = self.places(frame, options)?;
         let weights = SpatialWeights::build(&places.xs, &places.ys, options.neighbourhood, options.style)?;
-        let rows = weighted_rows(&self.design, &self.solution);
+        let rows = self.weighted_rows();
         let k = self.solution.kept.len();
         let columns: Vec<Vec<f64>> = (0..k).map(|a| rows.rows.iter().map(|r| r[a]).collect()).collect();
         let moran = moran_test_of_residuals(&rows.residuals, &columns, &self.solution.unscaled_covariance, &weights)?;

@@ -8,6 +8,7 @@
 //! memory, or partitions factored apart and merged ([`fit_batches`]).
 
 mod covariance;
+pub mod derived;
 pub mod solver;
 pub mod streamed;
 
@@ -63,6 +64,8 @@ pub struct Fit {
     pub(crate) covariance_kind: CovarianceKind,
     pub(crate) cluster_count: Option<usize>,
     pub(crate) provenance: Provenance,
+    /// Derived results computed once and shared by clones (see [`derived`]).
+    pub(crate) derived: std::sync::Arc<derived::Derived>,
 }
 
 /// Fits `spec` to `frame` by ordinary (or, with weights, weighted) least
@@ -114,6 +117,7 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
         covariance_kind: options.covariance.clone(),
         cluster_count,
         provenance: frame.provenance().clone(),
+        derived: Default::default(),
     })
 }
 
@@ -256,8 +260,12 @@ impl Fit {
 
     /// Leverages (hat values) `hᵢ` of the rows used, in design row order.
     pub fn leverages(&self) -> Vec<f64> {
-        let rows = weighted_rows(&self.design, &self.solution);
-        covariance::leverages(&rows.rows, &self.solution.unscaled_covariance)
+        covariance::leverages(&self.weighted_rows().rows, &self.solution.unscaled_covariance)
+    }
+
+    /// The weighted rows and residuals of the kept columns (computed once).
+    pub(crate) fn weighted_rows(&self) -> std::sync::Arc<WeightedRows> {
+        self.derived.get_or_compute(|| weighted_rows(&self.design, &self.solution))
     }
 }
 
