@@ -97,8 +97,7 @@ fn main() {
         std::hint::black_box(plumbline::model::build_design(&frame, &spec, &[]).expect("design"));
         design_times.push(start.elapsed().as_secs_f64());
         let start = Instant::now();
-        let solution =
-            plumbline::fit::solver::solve(&design.columns, &design.target, None, Precision::Auto, tolerance);
+        let solution = plumbline::fit::solver::solve(&design.columns, &design.target, None, Precision::Auto, tolerance);
         std::hint::black_box(solution);
         core.push(start.elapsed().as_secs_f64());
     }

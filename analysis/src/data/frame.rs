@@ -28,8 +28,10 @@ pub struct Frame {
 /// frame's rule turned into missing ones.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct NumericValues {
-    /// One value per row; `None` where missing.
-    pub values: Vec<Option<f64>>,
+    /// One value per row; NaN where missing. Every other value is finite:
+    /// non-finite values were refused or read as missing before this was
+    /// built, so NaN can mean nothing else.
+    pub values: Vec<f64>,
     /// Rows whose value was not finite and now reads as missing.
     pub non_finite_as_missing: usize,
 }
@@ -180,14 +182,14 @@ impl Frame {
     /// A non-finite value is refused with its row and line, or read as
     /// missing when the frame's rule says so ([`Frame::non_finite_as_missing`]).
     pub fn numeric_column(&self, name: &str) -> Result<Vec<Option<f64>>> {
-        Ok(self.numeric_values(name)?.values)
+        Ok(self.numeric_values(name)?.values.into_iter().map(|v| (!v.is_nan()).then_some(v)).collect())
     }
 
     /// [`Frame::numeric_column`] with the count of non-finite values read as
     /// missing, for the account of dropped rows.
     pub(crate) fn numeric_values(&self, name: &str) -> Result<NumericValues> {
         let series = self.column_by_name(name)?.as_materialized_series().clone();
-        let mut values: Vec<Option<f64>> = match series.dtype() {
+        let values: Vec<Option<f64>> = match series.dtype() {
             DataType::String => {
                 let strings = series.str()?;
                 let mut out = Vec::with_capacity(strings.len());
@@ -213,7 +215,14 @@ impl Frame {
             DataType::Date | DataType::Datetime(..) => return Err(Error::DatesNotNumbers { column: name.to_string() }),
             dtype if dtype.is_primitive_numeric() || dtype.is_bool() => {
                 let cast = series.cast(&DataType::Float64)?;
-                cast.f64()?.iter().collect()
+                let doubles = cast.f64()?;
+                if doubles.null_count() == 0 {
+                    // The common case, copied chunk by chunk without a per-value branch.
+                    let values: Vec<f64> =
+                        doubles.downcast_iter().flat_map(|chunk| chunk.values().iter().copied()).collect();
+                    return self.checked_numbers(name, values, None);
+                }
+                doubles.iter().collect()
             }
             other => {
                 let first = series.get(0).map(|v| v.to_string()).unwrap_or_default();
@@ -226,28 +235,38 @@ impl Frame {
                 });
             }
         };
+        let missing: Vec<bool> = values.iter().map(Option::is_none).collect();
+        let values = values.into_iter().map(|v| v.unwrap_or(f64::NAN)).collect();
+        self.checked_numbers(name, values, Some(missing))
+    }
+
+    /// Applies the frame's non-finite rule to `values` (where `missing`, if
+    /// given, marks the rows that were missing in the source; their values
+    /// are NaN) and refuses a column with no value at all.
+    fn checked_numbers(&self, name: &str, mut values: Vec<f64>, missing: Option<Vec<bool>>) -> Result<NumericValues> {
+        let is_missing = |row: usize| missing.as_ref().is_some_and(|m| m[row]);
         let mut non_finite_as_missing = 0;
-        for (row, value) in values.iter_mut().enumerate() {
-            if let Some(v) = *value {
-                if !v.is_finite() {
+        if values.iter().any(|v| !v.is_finite()) {
+            for (row, value) in values.iter_mut().enumerate() {
+                if !value.is_finite() && !is_missing(row) {
                     match self.non_finite {
                         NonFinite::Refuse => {
                             return Err(Error::NonFinite {
                                 column: name.to_string(),
                                 row: row + 1,
                                 line: self.source_line(row),
-                                value: v,
+                                value: *value,
                             })
                         }
                         NonFinite::AsMissing => {
-                            *value = None;
+                            *value = f64::NAN;
                             non_finite_as_missing += 1;
                         }
                     }
                 }
             }
         }
-        if !values.is_empty() && values.iter().all(Option::is_none) {
+        if !values.is_empty() && values.iter().all(|v| v.is_nan()) {
             return Err(Error::ColumnAllMissing { column: name.to_string() });
         }
         Ok(NumericValues { values, non_finite_as_missing })

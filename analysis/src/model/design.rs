@@ -186,9 +186,9 @@ impl ValueReads {
     }
 }
 
-/// The numbers a source yields, one per frame row, and how many non-finite
-/// values the frame's rule read as missing.
-fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<Option<f64>>, usize)> {
+/// The numbers a source yields, one per frame row (NaN where missing), and
+/// how many non-finite values the frame's rule read as missing.
+fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<f64>, usize)> {
     match source {
         ValueSource::Column(c) => {
             let read = frame.numeric_values(c)?;
@@ -201,12 +201,13 @@ fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<Option<f64>>
             let what = format!("the reference date of the term `{}`", part.derived_name(column));
             let reference = dates::require_iso_date(what, reference)?;
             let days = frame.date_column(column)?;
-            Ok((days.into_iter().map(|d| d.map(|d| between(reference, d))).collect(), 0))
+            Ok((days.into_iter().map(|d| d.map_or(f64::NAN, |d| between(reference, d))).collect(), 0))
         }
         ValueSource::Distance { x, y, point } => {
             // Non-finite coordinates are counted under their own columns.
             let (xs, ys) = (frame.numeric_values(x)?.values, frame.numeric_values(y)?.values);
-            let distance = |(x, y): (Option<f64>, Option<f64>)| Some(point.distance(x?, y?));
+            // NaN (missing) in either coordinate gives NaN (missing) here.
+            let distance = |(x, y): (f64, f64)| if x.is_nan() || y.is_nan() { f64::NAN } else { point.distance(x, y) };
             Ok((xs.into_iter().zip(ys).map(distance).collect(), 0))
         }
     }
@@ -258,31 +259,41 @@ fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<
         raw_labels.insert(key.clone(), (source.column(), read_labels(frame, source)?));
     }
     let height = frame.height();
+    // Only columns with a missing value take part in the row-by-row scan.
+    let gappy_numbers: Vec<(Option<&str>, &Vec<f64>)> =
+        raw_numbers.values().filter(|(_, v)| v.iter().any(|x| x.is_nan())).map(|(c, v)| (*c, v)).collect();
+    let gappy_labels: Vec<(Option<&str>, &Vec<Option<String>>)> =
+        raw_labels.values().filter(|(_, v)| v.iter().any(Option::is_none)).map(|(c, v)| (*c, v)).collect();
     let mut missing_by_column: BTreeMap<&str, usize> = BTreeMap::new();
-    let mut rows = Vec::with_capacity(height);
-    let mut missing_now: BTreeSet<&str> = BTreeSet::new();
-    for row in 0..height {
-        missing_now.clear();
-        let mut present = true;
-        for (column, values) in raw_numbers.values() {
-            if values[row].is_none() {
-                present = false;
-                missing_now.extend(*column);
+    let rows: Vec<usize> = if gappy_numbers.is_empty() && gappy_labels.is_empty() {
+        (0..height).collect()
+    } else {
+        let mut rows = Vec::with_capacity(height);
+        let mut missing_now: BTreeSet<&str> = BTreeSet::new();
+        for row in 0..height {
+            missing_now.clear();
+            let mut present = true;
+            for (column, values) in &gappy_numbers {
+                if values[row].is_nan() {
+                    present = false;
+                    missing_now.extend(*column);
+                }
+            }
+            for (column, values) in &gappy_labels {
+                if values[row].is_none() {
+                    present = false;
+                    missing_now.extend(*column);
+                }
+            }
+            if present {
+                rows.push(row);
+            }
+            for column in &missing_now {
+                *missing_by_column.entry(column).or_default() += 1;
             }
         }
-        for (column, values) in raw_labels.values() {
-            if values[row].is_none() {
-                present = false;
-                missing_now.extend(*column);
-            }
-        }
-        if present {
-            rows.push(row);
-        }
-        for column in &missing_now {
-            *missing_by_column.entry(column).or_default() += 1;
-        }
-    }
+        rows
+    };
     let in_order = |counts: &mut BTreeMap<&str, usize>| -> Vec<(String, usize)> {
         order.iter().filter_map(|name| counts.remove(name.as_str()).map(|k| (name.clone(), k))).collect()
     };
@@ -291,13 +302,20 @@ fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<
         by_column: in_order(&mut missing_by_column),
         non_finite_by_column: in_order(&mut non_finite_by_column),
     };
+    let every_row = rows.len() == height;
     let numbers = raw_numbers
         .into_iter()
-        .map(|(k, (_, v))| (k, rows.iter().map(|&r| v[r].unwrap_or(f64::NAN)).collect()))
+        .map(|(k, (_, v))| if every_row { (k, v) } else { (k, rows.iter().map(|&r| v[r]).collect()) })
         .collect();
     let labels = raw_labels
         .into_iter()
-        .map(|(k, (_, v))| (k, rows.iter().map(|&r| v[r].clone().unwrap_or_default()).collect()))
+        .map(|(k, (_, v))| {
+            if every_row {
+                (k, v.into_iter().map(Option::unwrap_or_default).collect())
+            } else {
+                (k, rows.iter().map(|&r| v[r].clone().unwrap_or_default()).collect())
+            }
+        })
         .collect();
     Ok(CompleteRows { numbers, labels, rows, dropped })
 }
