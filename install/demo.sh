@@ -17,14 +17,14 @@ cd "$(dirname "$0")/.."
 source install/lib.sh
 
 require_rust
-step "building plumbline (the first build compiles polars and faer; a few minutes)"
-cargo build -p plumbline-kernel --locked
+step "building plumbline, optimised (the first build compiles polars and faer; several minutes)"
+cargo build --release -p plumbline-kernel --locked
 
 out="${PLUMBLINE_STUDY_OUT:-target/study}"
 export PLUMBLINE_ENGINE_DIR="${PLUMBLINE_ENGINE_DIR:-$PWD/target/engine-demo}"
 export PLUMBLINE_ENGINE_OPT="${PLUMBLINE_ENGINE_OPT:-0}"
 step "running the Wrenmoor valuation study (the first run builds the engine's copy of plumbline)"
-./target/debug/plumbline run notebooks-demo/valuation-study.ipynb \
+./target/release/plumbline run notebooks-demo/valuation-study.ipynb \
   -o "$out/valuation-study.ipynb" --html "$out/valuation-study.html"
 
 cat <<'NOTE'
@@ -32,9 +32,9 @@ cat <<'NOTE'
 Open the HTML report in a browser, or the executed notebook in any Jupyter
 front end. To rerun the study on next quarter's sales and see what moved:
 
-  ./target/debug/plumbline run notebooks-demo/valuation-study.ipynb -o target/study/rerun.ipynb \
+  ./target/release/plumbline run notebooks-demo/valuation-study.ipynb -o target/study/rerun.ipynb \
       --set sales_file=data/sales-next-quarter.csv --set valuation_date=2026-04-01
-  ./target/debug/plumbline diff notebooks-demo/valuation-study.ipynb target/study/rerun.ipynb
+  ./target/release/plumbline diff notebooks-demo/valuation-study.ipynb target/study/rerun.ipynb
 
 These figures are analytical estimates from invented demo data, not appraisals.
 Real valuations follow local assessment law and licensed appraisal practice.

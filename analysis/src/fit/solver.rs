@@ -134,33 +134,109 @@ fn column_scales(columns: &[DesignColumn], root_w: &[DoubleDouble]) -> Vec<f64> 
         .collect()
 }
 
+/// Rows per block of the residual pass: a block's double-double accumulators
+/// (16 bytes a row, 32 KiB) stay in the core's cache while every design
+/// column streams through them once.
+const RESIDUAL_BLOCK_ROWS: usize = 2048;
+
+/// Below this many rows the residual pass runs on the calling thread; above,
+/// it is split across the available cores (a thread costs more than the pass
+/// saves on small designs).
+const RESIDUAL_PARALLEL_ROWS: usize = 1 << 16;
+
 /// Residuals `y − Xb` with every product error-free and every sum in double-double.
 ///
-/// Column by column, so each design column is streamed through memory once.
+/// Each row's value is the same sequence of operations whatever the split —
+/// `y_i`, minus `b_k x_ik` column by column in `kept` order — so the result is
+/// identical bit for bit on one core or many. Rows are taken in cache-sized
+/// blocks, and contiguous runs of blocks are shared among the cores.
 pub(crate) fn residuals_dd(
     columns: &[DesignColumn],
     kept: &[usize],
     b: &[DoubleDouble],
     y: &[f64],
 ) -> Vec<DoubleDouble> {
-    let mut acc: Vec<DoubleDouble> = y.iter().map(|&v| DoubleDouble::from(v)).collect();
-    for (k, &j) in kept.iter().enumerate() {
-        let column = &columns[j];
-        let coefficient = b[k];
-        match &column.lo {
-            None => {
-                for (a, &x) in acc.iter_mut().zip(&column.hi) {
-                    *a -= coefficient.mul_f64(x);
+    let n = y.len();
+    let mut out = vec![DoubleDouble::ZERO; n];
+    let threads = if n < RESIDUAL_PARALLEL_ROWS { 1 } else { crate::numeric::tsqr::available_threads() };
+    if threads <= 1 {
+        residual_rows(columns, kept, b, y, 0, &mut out);
+        return out;
+    }
+    let share = n.div_ceil(threads).div_ceil(RESIDUAL_BLOCK_ROWS) * RESIDUAL_BLOCK_ROWS;
+    std::thread::scope(|scope| {
+        for (part, rows) in out.chunks_mut(share).enumerate() {
+            scope.spawn(move || residual_rows(columns, kept, b, y, part * share, rows));
+        }
+    });
+    out
+}
+
+/// The residuals of rows `first..first + out.len()` into `out`, compiled for
+/// the processor's fused multiply-add when it has one: pulp (faer's SIMD
+/// dispatcher) checks the features at run time and enters a copy of
+/// [`ResidualRows::with_simd`] built with them. Without that, each error-free
+/// product calls the software `fma` routine, several times slower.
+fn residual_rows(
+    columns: &[DesignColumn],
+    kept: &[usize],
+    b: &[DoubleDouble],
+    y: &[f64],
+    first: usize,
+    out: &mut [DoubleDouble],
+) {
+    pulp::Arch::new().dispatch(ResidualRows { columns, kept, b, y, first, out });
+}
+
+/// The arguments of [`residual_rows`], as the operation pulp dispatches.
+struct ResidualRows<'a> {
+    columns: &'a [DesignColumn],
+    kept: &'a [usize],
+    b: &'a [DoubleDouble],
+    y: &'a [f64],
+    first: usize,
+    out: &'a mut [DoubleDouble],
+}
+
+impl pulp::WithSimd for ResidualRows<'_> {
+    type Output = ();
+
+    #[inline(always)]
+    fn with_simd<S: pulp::Simd>(self, _simd: S) {
+        let Self { columns, kept, b, y, first, out } = self;
+        // The block's accumulators as two plain arrays (high and low parts),
+        // so that the compiler can run each column's update in vector lanes.
+        let mut high = [0.0f64; RESIDUAL_BLOCK_ROWS];
+        let mut low = [0.0f64; RESIDUAL_BLOCK_ROWS];
+        for (block, acc) in out.chunks_mut(RESIDUAL_BLOCK_ROWS).enumerate() {
+            let start = first + block * RESIDUAL_BLOCK_ROWS;
+            let rows = start..start + acc.len();
+            let (high, low) = (&mut high[..acc.len()], &mut low[..acc.len()]);
+            high.copy_from_slice(&y[rows.clone()]);
+            low.fill(0.0);
+            for (&j, &coefficient) in kept.iter().zip(b) {
+                let column = &columns[j];
+                match &column.lo {
+                    None => {
+                        for ((h, l), &x) in high.iter_mut().zip(low.iter_mut()).zip(&column.hi[rows.clone()]) {
+                            let v = DoubleDouble { hi: *h, lo: *l } - coefficient.mul_f64(x);
+                            (*h, *l) = (v.hi, v.lo);
+                        }
+                    }
+                    Some(lo) => {
+                        let parts = column.hi[rows.clone()].iter().zip(&lo[rows.clone()]);
+                        for ((h, l), (&x, &xl)) in high.iter_mut().zip(low.iter_mut()).zip(parts) {
+                            let v = DoubleDouble { hi: *h, lo: *l } - DoubleDouble { hi: x, lo: xl } * coefficient;
+                            (*h, *l) = (v.hi, v.lo);
+                        }
+                    }
                 }
             }
-            Some(lo) => {
-                for ((a, &x), &l) in acc.iter_mut().zip(&column.hi).zip(lo) {
-                    *a -= DoubleDouble { hi: x, lo: l } * coefficient;
-                }
+            for ((a, &h), &l) in acc.iter_mut().zip(high.iter()).zip(low.iter()) {
+                *a = DoubleDouble { hi: h, lo: l };
             }
         }
     }
-    acc
 }
 
 fn weighted_rss(residuals: &[DoubleDouble], weights: Option<&[f64]>) -> f64 {
@@ -276,17 +352,14 @@ fn solve_extended(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, 
 fn solve_blocked(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, tolerance: f64) -> Option<Solution> {
     let n = y.len();
     let p = columns.len();
-    let root_w: Vec<f64> = match weights {
-        None => vec![1.0; n],
-        Some(w) => w.iter().map(|&v| DoubleDouble::from(v).sqrt().to_f64()).collect(),
-    };
-    let factor = tsqr::factor_rows(n, p + 1, tsqr::available_threads(), |i, j| {
-        if j < p {
-            columns[j].hi[i] * root_w[i]
-        } else {
-            y[i] * root_w[i]
+    let threads = tsqr::available_threads();
+    let factor = match weights {
+        None => tsqr::factor_rows(n, p + 1, threads, |i, j| if j < p { columns[j].hi[i] } else { y[i] }),
+        Some(w) => {
+            let root_w: Vec<f64> = w.iter().map(|&v| DoubleDouble::from(v).sqrt().to_f64()).collect();
+            tsqr::factor_rows(n, p + 1, threads, |i, j| if j < p { columns[j].hi[i] } else { y[i] } * root_w[i])
         }
-    });
+    };
     let small = SmallFactor::from_augmented(factor.r(), tolerance);
     if small.condition_number > SEMINORMAL_CONDITION_LIMIT {
         return None;

@@ -347,7 +347,18 @@ fn fitting_rows(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> Resul
     let complete = complete_rows(frame, &reads, &order)?;
 
     // Target.
-    let mut target = complete.numbers[spec.target()].clone();
+    let term_reads = ValueReads::of_terms(spec.terms());
+    // Moved out when no term or weight reads the same column, copied otherwise.
+    let target_shared = term_reads.numbers.contains_key(spec.target()) || spec.weight_column() == Some(spec.target());
+    let mut complete = complete;
+    let mut target = match complete.numbers.remove(spec.target()) {
+        Some(values) if target_shared => {
+            complete.numbers.insert(spec.target().to_string(), values.clone());
+            values
+        }
+        Some(values) => values,
+        None => Vec::new(),
+    };
     if spec.target_transform() == TargetTransform::Log {
         if let Some((i, &v)) = target.iter().enumerate().find(|(_, v)| !(**v > 0.0)) {
             let row = complete.rows[i];
@@ -420,13 +431,6 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
         }
         encodings.push(learn(term, &values, full)?);
     }
-    let (columns, term_spans) = assemble_columns(spec, &encodings, &values, complete.rows.len())?;
-    let column_names: Vec<String> = columns.iter().map(|c| c.name.clone()).collect();
-    if let Some(dup) = column_names.iter().enumerate().find(|(i, n)| column_names[..*i].contains(n)).map(|(_, n)| n) {
-        return Err(Error::Specification(format!(
-            "the design column `{dup}` is generated twice; remove the repeated term"
-        )));
-    }
     let numeric_ranges = ValueReads::of_terms(spec.terms())
         .numbers
         .keys()
@@ -439,6 +443,17 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
             )
         })
         .collect();
+    let mut complete = complete;
+    let mut moved = take_untransformed(spec, &encodings, &mut complete.numbers);
+    let values =
+        RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
+    let (columns, term_spans) = assemble_columns(spec, &encodings, &values, complete.rows.len(), &mut moved)?;
+    let column_names: Vec<String> = columns.iter().map(|c| c.name.clone()).collect();
+    if let Some(dup) = column_names.iter().enumerate().find(|(i, n)| column_names[..*i].contains(n)).map(|(_, n)| n) {
+        return Err(Error::Specification(format!(
+            "the design column `{dup}` is generated twice; remove the repeated term"
+        )));
+    }
     let recipe = DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans, numeric_ranges };
     Ok(Design { columns, target, weights, rows_used: complete.rows, dropped: complete.dropped, recipe })
 }
@@ -463,11 +478,43 @@ fn check_degrees(terms: &[Term]) -> Result<()> {
     Ok(())
 }
 
+/// Takes out of `numbers` the columns that enter the design once and
+/// unchanged — an untransformed numeric term that no other term reads — so
+/// that [`assemble_columns`] moves them into the design instead of copying
+/// them (at 10⁶ rows, 8 MB a column saved).
+fn take_untransformed(
+    spec: &ModelSpec,
+    encodings: &[TermEncoding],
+    numbers: &mut BTreeMap<String, Vec<f64>>,
+) -> BTreeMap<String, Vec<f64>> {
+    let mut uses: BTreeMap<&str, usize> = BTreeMap::new();
+    for term in spec.terms() {
+        for column in term.columns() {
+            *uses.entry(column).or_default() += 1;
+        }
+    }
+    let mut moved = BTreeMap::new();
+    for encoding in encodings {
+        if let TermEncoding::Numeric { column, transform: super::Transform::Identity, .. } = encoding {
+            if uses.get(column.as_str()) == Some(&1) {
+                if let Some(values) = numbers.remove(column) {
+                    moved.insert(column.clone(), values);
+                }
+            }
+        }
+    }
+    moved
+}
+
+/// The design columns of `encodings` on `values`, after the intercept when
+/// the model has one. Columns in `moved` (see [`take_untransformed`]) are
+/// moved into the design.
 fn assemble_columns(
     spec: &ModelSpec,
     encodings: &[TermEncoding],
     values: &RowValues,
     n: usize,
+    moved: &mut BTreeMap<String, Vec<f64>>,
 ) -> Result<(Vec<DesignColumn>, Vec<TermSpan>)> {
     let mut columns = Vec::new();
     let mut spans = Vec::with_capacity(encodings.len());
@@ -476,7 +523,14 @@ fn assemble_columns(
     }
     for (term, encoding) in spec.terms().iter().zip(encodings) {
         let start = columns.len();
-        columns.extend(encoding.columns(values)?);
+        let taken = match encoding {
+            TermEncoding::Numeric { column, transform: super::Transform::Identity, .. } => moved.remove_entry(column),
+            _ => None,
+        };
+        match taken {
+            Some((name, hi)) => columns.push(DesignColumn { name, hi, lo: None }),
+            None => columns.extend(encoding.columns(values)?),
+        }
         spans.push(TermSpan { label: term.label(), columns: start..columns.len() });
     }
     Ok((columns, spans))
@@ -495,7 +549,8 @@ impl DesignRecipe {
         let line_of = |row: usize| frame.source_line(row);
         let values =
             RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
-        let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
+        let (columns, _) =
+            assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len(), &mut BTreeMap::new())?;
         Ok(AppliedDesign { columns, rows: complete.rows, numbers: complete.numbers })
     }
 }
@@ -507,11 +562,12 @@ impl DesignRecipe {
     /// as [`build_design`] drops them; a frame with no complete row gives an
     /// empty design. A category level the recipe does not know is refused.
     pub fn fitting_design(&self, frame: &Frame) -> Result<Design> {
-        let FittingRows { complete, target, weights } = fitting_rows(frame, &self.spec, &[])?;
+        let FittingRows { mut complete, target, weights } = fitting_rows(frame, &self.spec, &[])?;
+        let mut moved = take_untransformed(&self.spec, &self.encodings, &mut complete.numbers);
         let line_of = |row: usize| frame.source_line(row);
         let values =
             RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
-        let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len())?;
+        let (columns, _) = assemble_columns(&self.spec, &self.encodings, &values, complete.rows.len(), &mut moved)?;
         Ok(Design {
             columns,
             target,
@@ -663,7 +719,7 @@ impl RecipeLearner {
         );
         let line_of = |_: usize| None;
         let values = RowValues { numbers: &numbers, labels: &labels, rows: &[], line_of: &line_of };
-        let (columns, term_spans) = assemble_columns(spec, &encodings, &values, 0)?;
+        let (columns, term_spans) = assemble_columns(spec, &encodings, &values, 0, &mut BTreeMap::new())?;
         let column_names: Vec<String> = columns.iter().map(|c| c.name.clone()).collect();
         let numeric_ranges = self.ranges.iter().map(|(c, &(lo, hi))| (c.clone(), lo, hi)).collect();
         Ok(DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans, numeric_ranges })
