@@ -42,6 +42,7 @@ import time
 REPO = pathlib.Path(__file__).resolve().parents[2]
 BIN = os.environ.get("PLUMBLINE_BIN", str(REPO / "target" / "release" / "plumbline"))
 DATA = pathlib.Path(os.environ.get("PLUMBLINE_BENCH_DIR", tempfile.gettempdir()))
+DATA.mkdir(parents=True, exist_ok=True)
 
 
 def design_file(rows: int, regressors: int) -> pathlib.Path:
@@ -172,14 +173,18 @@ def part_two(rows):
     terms = ",".join([f"r{j}" for j in range(9)] + [f"k{j}" for j in range(10)])
     command = [BIN, "fit", str(directory), "--target", "y", "--terms", terms, "--cov", "hc1",
                "--batch-rows", "1000000", "--format", "json"]
-    start = time.perf_counter()
-    child = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    # wait4 gives this child's own peak resident set size (kB on Linux).
-    _, status, usage = os.wait4(child.pid, 0)
-    elapsed = time.perf_counter() - start
-    out = child.stdout.read().decode()
+    # Output to files, not pipes: a child blocked on a full pipe would never end.
+    with tempfile.TemporaryFile() as out_file, tempfile.TemporaryFile() as err_file:
+        start = time.perf_counter()
+        child = subprocess.Popen(command, stdout=out_file, stderr=err_file)
+        # wait4 gives this child's own peak resident set size (kB on Linux).
+        _, status, usage = os.wait4(child.pid, 0)
+        elapsed = time.perf_counter() - start
+        out_file.seek(0)
+        err_file.seek(0)
+        out, err = out_file.read().decode(), err_file.read().decode()
     if status != 0:
-        raise SystemExit(child.stderr.read().decode())
+        raise SystemExit(err)
     import json
 
     document = json.loads(out)

@@ -3,6 +3,7 @@
 //! checked against the FIPS example in `analysis/src/data/provenance.rs`; here we
 //! check that the stamp describes the bytes actually read.
 
+use plumbline::data::NonFinite;
 use plumbline::polars::prelude::{Column, DataFrame, ParquetWriter};
 use plumbline::prelude::*;
 use plumbline_tests::{scratch_dir, write_file};
@@ -29,6 +30,48 @@ fn parquet_round_trip_keeps_values_and_stamps_provenance() {
     assert_eq!(prov.sha256, plumbline::data::sha256_hex(&bytes));
     assert_eq!((prov.rows, prov.cols), (4, 3));
     assert!(prov.loaded_at.ends_with('Z'));
+}
+
+/// Database and warehouse exports store small counts (bedrooms, quality
+/// grades, year parts) in 8- and 16-bit integer columns; each reads as its
+/// exact value, and the batch reader fits them as the in-memory path does.
+#[test]
+fn small_integer_parquet_columns_read_exactly() {
+    let dir = scratch_dir("parquet-small-ints");
+    let path = dir.join("sales.parquet");
+    let price = vec![101.5, 203.0, 298.25, 407.0, 488.5, 612.0];
+    let mut df = DataFrame::new(
+        6,
+        vec![
+            Column::new("price".into(), price.clone()),
+            Column::new("beds".into(), vec![1i8, 2, 3, 4, 5, -6]),
+            Column::new("grade".into(), vec![Some(7i16), Some(-300), None, Some(12), Some(32767), Some(9)]),
+            Column::new("rooms".into(), vec![3u8, 4, 255, 6, 7, 8]),
+            Column::new("year".into(), vec![1999u16, 2004, 65535, 2012, 2020, 2021]),
+        ],
+    )
+    .expect("frame");
+    ParquetWriter::new(std::fs::File::create(&path).expect("create")).finish(&mut df).expect("write parquet");
+    let frame = load(&path).expect("load parquet");
+    assert_eq!(frame.numeric_column("beds").expect("i8"), [1.0, 2.0, 3.0, 4.0, 5.0, -6.0].map(Some));
+    assert_eq!(
+        frame.numeric_column("grade").expect("i16"),
+        vec![Some(7.0), Some(-300.0), None, Some(12.0), Some(32767.0), Some(9.0)]
+    );
+    assert_eq!(frame.numeric_column("rooms").expect("u8")[2], Some(255.0));
+    assert_eq!(frame.numeric_column("year").expect("u16")[2], Some(65535.0));
+
+    let spec = ModelSpec::new("price").numeric("beds").numeric("rooms");
+    let whole = fit(&frame, &spec).expect("fit in memory");
+    let pieces = plumbline::fit::fit_batches(&path, &spec, &FitOptions::default(), 2, NonFinite::Refuse)
+        .expect("fit in batches");
+    let (whole, pieces) = (whole.coefficients(0.95).expect("table"), pieces.coefficients(0.95).expect("table"));
+    assert_eq!(whole.len(), 3);
+    for (a, b) in whole.iter().zip(&pieces) {
+        assert_eq!(a.term, b.term);
+        assert!((a.estimate - b.estimate).abs() <= 1e-12 * a.estimate.abs(), "{} vs {}", a.estimate, b.estimate);
+        assert!((a.std_error - b.std_error).abs() <= 1e-12 * a.std_error, "{} vs {}", a.std_error, b.std_error);
+    }
 }
 
 #[test]
