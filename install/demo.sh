@@ -7,6 +7,7 @@
 #
 #   ./install/demo.sh                 # outputs in target/study/
 #   PLUMBLINE_STUDY_OUT=DIR ./install/demo.sh
+#   PLUMBLINE_BIN=path/to/plumbline ./install/demo.sh   # skip the build
 #
 # The evaluation engine builds plumbline once into its own folder (several
 # minutes the first time). Unless PLUMBLINE_ENGINE_DIR / PLUMBLINE_ENGINE_OPT
@@ -16,15 +17,22 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 source install/lib.sh
 
-require_rust
-step "building plumbline, optimised (the first build compiles polars and faer; several minutes)"
-cargo build --release -p plumbline-kernel --locked
+# PLUMBLINE_BIN names an already built plumbline to use instead (the test
+# command passes its own build, so CI compiles the workspace only once).
+if [ -n "${PLUMBLINE_BIN:-}" ]; then
+  plumbline="$PLUMBLINE_BIN"
+else
+  require_rust
+  step "building plumbline, optimised (the first build compiles polars and faer; several minutes)"
+  cargo build --release -p plumbline-kernel --locked
+  plumbline=./target/release/plumbline
+fi
 
 out="${PLUMBLINE_STUDY_OUT:-target/study}"
 export PLUMBLINE_ENGINE_DIR="${PLUMBLINE_ENGINE_DIR:-$PWD/target/engine-demo}"
 export PLUMBLINE_ENGINE_OPT="${PLUMBLINE_ENGINE_OPT:-0}"
 step "running the Wrenmoor valuation study (the first run builds the engine's copy of plumbline)"
-./target/release/plumbline run notebooks-demo/valuation-study.ipynb \
+"$plumbline" run notebooks-demo/valuation-study.ipynb \
   -o "$out/valuation-study.ipynb" --html "$out/valuation-study.html"
 
 cat <<'NOTE'

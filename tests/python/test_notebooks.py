@@ -47,7 +47,9 @@ def fit_bundles(notebook):
 def study_run(tmp_path_factory):
     """The study, run by the README's main-job command into a scratch folder."""
     out = tmp_path_factory.mktemp("study")
-    env = dict(os.environ, PLUMBLINE_STUDY_OUT=str(out))
+    # The test command's own build stands in for the demo's optimised one
+    # (CI would otherwise compile every dependency a second time).
+    env = dict(os.environ, PLUMBLINE_STUDY_OUT=str(out), PLUMBLINE_BIN=str(plumbline_binary()))
     result = subprocess.run(["bash", str(REPO / "install" / "demo.sh")], env=env, capture_output=True,
                             text=True, timeout=TIMEOUT)
     assert result.returncode == 0, result.stdout[-3000:] + result.stderr[-3000:]
