@@ -36,6 +36,7 @@ import os
 import pathlib
 import statistics
 import subprocess
+import sys
 import tempfile
 import time
 
@@ -142,6 +143,22 @@ def part_one(rows):
     print(f"  largest relative difference from numpy: coefficients {agree_b:.1e}, standard errors {agree_se:.1e}")
 
 
+# Runs argv, waits for it, and prints its time, its own peak resident set
+# (wait4's ru_maxrss, kB on Linux), exit status and output as JSON.
+MEASURE = """
+import json, os, subprocess, sys, tempfile, time
+with tempfile.TemporaryFile() as out, tempfile.TemporaryFile() as err:
+    start = time.perf_counter()
+    child = subprocess.Popen(sys.argv[1:], stdout=out, stderr=err)
+    _, status, usage = os.wait4(child.pid, 0)
+    elapsed = time.perf_counter() - start
+    out.seek(0)
+    err.seek(0)
+    print(json.dumps({"elapsed": elapsed, "peak_kib": usage.ru_maxrss, "status": status,
+                      "out": out.read().decode(), "err": err.read().decode()}))
+"""
+
+
 def stream_directory(rows):
     import numpy as np
     import pyarrow as pa
@@ -173,24 +190,23 @@ def part_two(rows):
     terms = ",".join([f"r{j}" for j in range(9)] + [f"k{j}" for j in range(10)])
     command = [BIN, "fit", str(directory), "--target", "y", "--terms", terms, "--cov", "hc1",
                "--batch-rows", "1000000", "--format", "json"]
-    # Output to files, not pipes: a child blocked on a full pipe would never end.
-    with tempfile.TemporaryFile() as out_file, tempfile.TemporaryFile() as err_file:
-        start = time.perf_counter()
-        child = subprocess.Popen(command, stdout=out_file, stderr=err_file)
-        # wait4 gives this child's own peak resident set size (kB on Linux).
-        _, status, usage = os.wait4(child.pid, 0)
-        elapsed = time.perf_counter() - start
-        out_file.seek(0)
-        err_file.seek(0)
-        out, err = out_file.read().decode(), err_file.read().decode()
-    if status != 0:
-        raise SystemExit(err)
+    # The fit runs under a fresh, small Python that only starts it and waits:
+    # Linux carries the pre-exec memory of the forked process into the child's
+    # peak (ru_maxrss), so started from this process — which holds part one's
+    # arrays — the peak would be this process's, not plumbline's.
+    measured = subprocess.run([sys.executable, "-c", MEASURE, *command], capture_output=True, text=True)
+    if measured.returncode != 0:
+        raise SystemExit(measured.stderr)
     import json
 
+    report = json.loads(measured.stdout)
+    elapsed, peak_kib, status, out, err = (report[k] for k in ("elapsed", "peak_kib", "status", "out", "err"))
+    if status != 0:
+        raise SystemExit(err)
     document = json.loads(out)
     print(f"{rows:,} rows x 20 columns in {directory} ({size / 1e9:.1f} GB of Parquet; "
           f"{rows * 20 * 8 / 1e9:.0f} GB as f64 in memory)")
-    print(f"  plumbline fit --batch-rows 1000000 (HC1)   {elapsed:8.1f} s   peak RSS {usage.ru_maxrss / 1024:.0f} MiB")
+    print(f"  plumbline fit --batch-rows 1000000 (HC1)   {elapsed:8.1f} s   peak RSS {peak_kib / 1024:.0f} MiB")
     print(f"  rows used {document['n_obs']:,}   R² {document['r_squared']:.6f}")
 
 
