@@ -169,20 +169,25 @@ impl ResidualAggregate {
             return;
         }
         let kept = &first.small.kept;
-        let weight = |i: usize| design.weights.as_ref().map_or(1.0, |w| w[i]);
         let residuals = super::solver::residuals_dd(&design.columns, kept, &first.coefficients, &design.target);
         let centre = first.centre();
-        let weighted: Vec<f64> = residuals.iter().enumerate().map(|(i, r)| r.mul_f64(weight(i)).to_f64()).collect();
+        let weighted: Vec<f64> = match &design.weights {
+            None => residuals.iter().map(|r| r.to_f64()).collect(),
+            Some(w) => residuals.iter().zip(w).map(|(r, &wi)| r.mul_f64(wi).to_f64()).collect(),
+        };
         for (g, &j) in self.gradient.iter_mut().zip(kept) {
             let sum: f64 = design.columns[j].hi.iter().zip(&weighted).map(|(x, r)| x * r).sum();
             *g += DoubleDouble::from(sum);
         }
-        for (i, r) in residuals.iter().enumerate() {
-            self.exp_residual_sum += r.to_f64().exp();
-            self.rss += (*r * *r).mul_f64(weight(i));
-            let d = DoubleDouble::from(design.target[i]) - centre;
-            self.ss_total += (d * d).mul_f64(weight(i));
-        }
+        let sums = pulp::Arch::new().dispatch(RowSums {
+            residuals: &residuals,
+            target: &design.target,
+            weights: design.weights.as_deref(),
+            centre,
+        });
+        self.rss += sums.rss;
+        self.ss_total += sums.ss_total;
+        self.exp_residual_sum += sums.exp_residual_sum;
         if let Some(middle) = &mut self.middle {
             let k = kept.len();
             let scaled = Mat::<f64>::from_fn(n, k, |i, a| design.columns[kept[a]].hi[i] * weighted[i]);
@@ -207,6 +212,42 @@ impl ResidualAggregate {
             mine.iter_mut().zip(theirs).for_each(|(a, b)| *a += b);
         }
         self
+    }
+}
+
+/// The per-row sums of one piece: `Σ wᵢrᵢ²` and `Σ wᵢ(yᵢ − ȳ)²` in
+/// double-double, and `Σ exp(rᵢ)` (for the smearing retransform).
+struct PieceSums {
+    rss: DoubleDouble,
+    ss_total: DoubleDouble,
+    exp_residual_sum: f64,
+}
+
+/// The operation computing [`PieceSums`], dispatched through pulp so that its
+/// double-double products compile to fused multiply-adds where the processor
+/// has them (as the solver's residual pass; see `solver::residual_rows`).
+struct RowSums<'a> {
+    residuals: &'a [DoubleDouble],
+    target: &'a [f64],
+    weights: Option<&'a [f64]>,
+    centre: DoubleDouble,
+}
+
+impl pulp::WithSimd for RowSums<'_> {
+    type Output = PieceSums;
+
+    #[inline(always)]
+    fn with_simd<S: pulp::Simd>(self, _simd: S) -> PieceSums {
+        let Self { residuals, target, weights, centre } = self;
+        let weight = |i: usize| weights.map_or(1.0, |w| w[i]);
+        let mut sums = PieceSums { rss: DoubleDouble::ZERO, ss_total: DoubleDouble::ZERO, exp_residual_sum: 0.0 };
+        for (i, (r, &y)) in residuals.iter().zip(target).enumerate() {
+            sums.exp_residual_sum += r.to_f64().exp();
+            sums.rss += (*r * *r).mul_f64(weight(i));
+            let d = DoubleDouble::from(y) - centre;
+            sums.ss_total += (d * d).mul_f64(weight(i));
+        }
+        sums
     }
 }
 
