@@ -239,6 +239,21 @@ impl pulp::WithSimd for ResidualRows<'_> {
     }
 }
 
+/// `W r` rounded to double from the accurately computed residuals: what the
+/// refinement's gradient and the robust middle matrix are formed from.
+pub(crate) fn weighted_residuals(residuals: &[DoubleDouble], weights: Option<&[f64]>) -> Vec<f64> {
+    match weights {
+        None => residuals.iter().map(|r| r.to_f64()).collect(),
+        Some(w) => residuals.iter().zip(w).map(|(r, &wi)| r.mul_f64(wi).to_f64()).collect(),
+    }
+}
+
+/// The gradient `Xᵀ W r` over the `kept` columns, in double precision, from
+/// [`weighted_residuals`]; the right-hand side of the seminormal correction.
+pub(crate) fn gradient(columns: &[DesignColumn], kept: &[usize], weighted: &[f64]) -> Vec<f64> {
+    kept.iter().map(|&j| columns[j].hi.iter().zip(weighted).map(|(x, r)| x * r).sum()).collect()
+}
+
 fn weighted_rss(residuals: &[DoubleDouble], weights: Option<&[f64]>) -> f64 {
     let total: DoubleDouble = residuals
         .iter()
@@ -371,12 +386,8 @@ fn solve_blocked(columns: &[DesignColumn], y: &[f64], weights: Option<&[f64]>, t
     let mut r = residuals_dd(columns, &small.kept, &b, y);
     for _ in 0..max_steps {
         // Xᵀ W r in double precision from the accurately computed residual.
-        let weighted: Vec<f64> = match weights {
-            None => r.iter().map(|v| v.to_f64()).collect(),
-            Some(w) => r.iter().zip(w).map(|(v, &wi)| v.mul_f64(wi).to_f64()).collect(),
-        };
-        let gradient: Vec<f64> =
-            small.kept.iter().map(|&j| columns[j].hi.iter().zip(&weighted).map(|(x, r)| x * r).sum()).collect();
+        let weighted = weighted_residuals(&r, weights);
+        let gradient = gradient(columns, &small.kept, &weighted);
         let delta = small.seminormal_correction(&gradient);
         let mut largest_change = 0.0f64;
         let mut largest = 0.0f64;

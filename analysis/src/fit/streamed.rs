@@ -171,12 +171,8 @@ impl ResidualAggregate {
         let kept = &first.small.kept;
         let residuals = super::solver::residuals_dd(&design.columns, kept, &first.coefficients, &design.target);
         let centre = first.centre();
-        let weighted: Vec<f64> = match &design.weights {
-            None => residuals.iter().map(|r| r.to_f64()).collect(),
-            Some(w) => residuals.iter().zip(w).map(|(r, &wi)| r.mul_f64(wi).to_f64()).collect(),
-        };
-        for (g, &j) in self.gradient.iter_mut().zip(kept) {
-            let sum: f64 = design.columns[j].hi.iter().zip(&weighted).map(|(x, r)| x * r).sum();
+        let weighted = super::solver::weighted_residuals(&residuals, design.weights.as_deref());
+        for (g, sum) in self.gradient.iter_mut().zip(super::solver::gradient(&design.columns, kept, &weighted)) {
             *g += DoubleDouble::from(sum);
         }
         let sums = pulp::Arch::new().dispatch(RowSums {

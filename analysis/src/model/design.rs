@@ -344,20 +344,16 @@ fn fitting_rows(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> Resul
         reads.add_label(extra);
     }
     let order = read_order(spec, also_require);
-    let complete = complete_rows(frame, &reads, &order)?;
+    let mut complete = complete_rows(frame, &reads, &order)?;
 
     // Target.
-    let term_reads = ValueReads::of_terms(spec.terms());
     // Moved out when no term or weight reads the same column, copied otherwise.
-    let target_shared = term_reads.numbers.contains_key(spec.target()) || spec.weight_column() == Some(spec.target());
-    let mut complete = complete;
-    let mut target = match complete.numbers.remove(spec.target()) {
-        Some(values) if target_shared => {
-            complete.numbers.insert(spec.target().to_string(), values.clone());
-            values
-        }
-        Some(values) => values,
-        None => Vec::new(),
+    let target_shared = ValueReads::of_terms(spec.terms()).numbers.contains_key(spec.target())
+        || spec.weight_column() == Some(spec.target());
+    let mut target = if target_shared {
+        complete.numbers[spec.target()].clone()
+    } else {
+        complete.numbers.remove(spec.target()).unwrap_or_default()
     };
     if spec.target_transform() == TargetTransform::Log {
         if let Some((i, &v)) = target.iter().enumerate().find(|(_, v)| !(**v > 0.0)) {
@@ -413,7 +409,7 @@ fn read_order(spec: &ModelSpec, also_require: &[&str]) -> Vec<String> {
 /// counted per column. Category levels, centres and polynomial recurrences
 /// are learned from the rows kept.
 pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> Result<Design> {
-    let FittingRows { complete, target, weights } = fitting_rows(frame, spec, also_require)?;
+    let FittingRows { mut complete, target, weights } = fitting_rows(frame, spec, also_require)?;
     if complete.rows.is_empty() {
         return Err(Error::AllRowsDropped { detail: complete.dropped.describe() });
     }
@@ -443,7 +439,6 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
             )
         })
         .collect();
-    let mut complete = complete;
     let mut moved = take_untransformed(spec, &encodings, &mut complete.numbers);
     let values =
         RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
