@@ -12,6 +12,12 @@ fn main() -> ExitCode {
     plumbline_kernel::eval::relay_cell_process_output();
     evcxr::runtime_hook();
     let cli = Cli::parse();
+    // Commands that start the engine put its settings into the environment
+    // now, while this process is still single-threaded.
+    if matches!(cli.command, Command::Kernel(_) | Command::Install(_) | Command::Run(_)) {
+        let config = plumbline_kernel::eval::EngineConfig::from_environment();
+        plumbline_kernel::eval::export_engine_environment(&config);
+    }
     let outcome = match cli.command {
         Command::Kernel(args) => commands::kernel::run(&args),
         Command::Install(args) => commands::install::run(&args),

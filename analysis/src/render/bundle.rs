@@ -60,25 +60,3 @@ pub fn emit(bundle: &MimeBundle) {
     }
     let _ = out.flush();
 }
-
-/// Environment variable set by the Plumbline kernel for its cells.
-pub const KERNEL_DISPLAY_ENV: &str = "PLUMBLINE_KERNEL_DISPLAY";
-/// Start of an output line carrying a display bundle for the kernel.
-pub const KERNEL_DISPLAY_MARKER: &str = "\u{1e}plumbline-display ";
-
-/// Shows a value now, mid-cell, as its own display (a cell may show several).
-///
-/// Inside the Plumbline kernel the bundle travels on one output line, marked
-/// so the kernel turns it into a `display_data` message; elsewhere (a plain
-/// program, a terminal) the plain-text rendering is printed.
-pub fn show(value: &impl Report) {
-    let bundle = value.bundle();
-    let mut out = std::io::stdout().lock();
-    if std::env::var_os(KERNEL_DISPLAY_ENV).is_some() {
-        let json = serde_json::to_string(&bundle.entries).unwrap_or_else(|_| "{}".into());
-        let _ = writeln!(out, "{KERNEL_DISPLAY_MARKER}{json}");
-    } else if let Some(text) = bundle.get("text/plain") {
-        let _ = writeln!(out, "{text}");
-    }
-    let _ = out.flush();
-}

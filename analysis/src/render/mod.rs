@@ -13,6 +13,7 @@ mod fit_figures;
 mod fit_report;
 mod frame_report;
 pub mod html;
+mod live;
 mod numbers;
 mod prose;
 mod ratio_report;
@@ -21,10 +22,7 @@ mod text;
 mod valuation_checks;
 
 pub use accuracy_table::accuracy_table;
-pub use bundle::{
-    emit, show, MimeBundle, Report, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, KERNEL_DISPLAY_ENV,
-    KERNEL_DISPLAY_MARKER, RATIO_JSON_MIME,
-};
+pub use bundle::{emit, MimeBundle, Report, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, RATIO_JSON_MIME};
 pub use diagnostics_text::{
     collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text,
 };
@@ -33,6 +31,9 @@ pub use explain::{explanations, Explained};
 pub use export::{fit_csv, fit_markdown};
 pub use fit_report::{fit_html, fit_warnings, FitReport};
 pub use frame_report::{frame_html, frame_text, ProfileReport};
+pub use live::{
+    clear_output, show, show_updatable, update, DisplayCommand, LiveProgress, KERNEL_DISPLAY_ENV, KERNEL_DISPLAY_MARKER,
+};
 pub use numbers::{format_column, format_p_value, format_significant, format_trimmed};
 pub use prose::VALUATION_CAUTION;
 pub use ratio_report::{ratio_html, ratio_text};

@@ -63,10 +63,9 @@ pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
             "warming the evaluation engine in {} (the first time compiles plumbline and its dependencies; minutes)…",
             config.build_dir.display()
         );
-        let (lines, mut sink) = tokio::sync::mpsc::unbounded_channel();
-        let session = Session::start(config.clone(), lines);
-        let outcome = session.execute("plumbline_session_ready");
-        sink.close();
+        let (stray, _ignored) = tokio::sync::mpsc::unbounded_channel();
+        let session = Session::start(config.clone(), stray, crate::eval::preparation::lines_on_stderr(true));
+        let (_, outcome) = session.execute_to_end("plumbline_session_ready");
         if let Some(error) = outcome.error {
             return Err(CommandError::Runtime(format!("the engine warm-up failed: {}", error.traceback.join("\n"))));
         }

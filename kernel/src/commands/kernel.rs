@@ -12,6 +12,9 @@ pub fn run(args: &KernelArgs) -> Result<String, CommandError> {
         .enable_all()
         .build()
         .map_err(|e| CommandError::Runtime(format!("cannot start the async runtime: {e}")))?;
-    runtime.block_on(crate::server::serve(connection)).map_err(|e| CommandError::Runtime(e.to_string()))?;
+    let served = runtime.block_on(crate::server::serve(connection));
+    // Tasks still blocked on sockets or on the engine thread end with the process.
+    runtime.shutdown_background();
+    served.map_err(|e| CommandError::Runtime(e.to_string()))?;
     Ok(String::new())
 }

@@ -1,17 +1,37 @@
 //! Evaluating Rust cells with the evcxr engine, `plumbline` preloaded.
 //!
-//! One engine session lives on its own thread ([`Session`]); the server talks
-//! to it through channels. Cell output lines stream out while a cell runs; its
-//! last value arrives as a MIME bundle built by `plumbline::render`; compile
-//! errors are rendered in the cell's own line numbers ([`diagnostics`]).
+//! One engine session lives on its own thread ([`Session`]); the server and
+//! the runner talk to it through channels. Each cell answers with one ordered
+//! event stream ([`CellEvent`]): its output lines as they are printed, then
+//! its outcome — the last value as a MIME bundle built by `plumbline::render`,
+//! or an error (compile errors in the cell's own line numbers, see
+//! [`diagnostics`]; an ended cell process explained, see `termination`).
+//!
+//! | module | responsibility |
+//! |---|---|
+//! | `runtime_relay` | inside the cell process: one ordered output pipe, `?` and abort markers |
+//! | `output_pump` | in the kernel: routes output lines to the running cell's events |
+//! | `session` | the engine thread, requests, interrupts |
+//! | `termination` | why the cell process ended, and what was lost |
+//! | [`preparation`] | progress of the engine's first build and start |
+//! | [`display`] | typed display commands from `plumbline::render` |
 
 pub mod completeness;
 pub mod diagnostics;
+pub mod display;
+mod output_pump;
+pub mod preparation;
 mod runtime_relay;
 mod session;
+mod termination;
 
+pub use display::{display_command, DisplayCommand};
+pub use preparation::{Preparation, PreparationObserver};
 pub use runtime_relay::{relay_cell_process_output, CELL_ERROR_MARKER};
-pub use session::{CellError, CompleteOutcome, EngineConfig, ExecOutcome, Interrupter, Session, StreamLine};
+pub use session::{
+    export_engine_environment, CellError, CellEvent, CompleteOutcome, EngineConfig, ExecOutcome, Interrupter, Session,
+    StreamLine,
+};
 
 use serde_json::{Map, Value};
 
@@ -28,20 +48,4 @@ pub fn mime_value(mime: &str, text: String) -> Value {
 /// A cell's MIME bundle as the protocol and nbformat carry it ([`mime_value`] per entry).
 pub fn bundle_json(data: impl IntoIterator<Item = (String, String)>) -> Map<String, Value> {
     data.into_iter().map(|(mime, text)| (mime.clone(), mime_value(&mime, text))).collect()
-}
-
-/// The display bundle an output line carries when `plumbline::render::show`
-/// wrote it (the line starts with [`plumbline::render::KERNEL_DISPLAY_MARKER`]).
-pub fn display_bundle(line: &str) -> Option<Map<String, Value>> {
-    let json = line.trim_end_matches('\n').strip_prefix(plumbline::render::KERNEL_DISPLAY_MARKER)?;
-    let entries: Map<String, Value> = serde_json::from_str(json).ok()?;
-    Some(
-        entries
-            .into_iter()
-            .map(|(mime, v)| match v {
-                Value::String(text) => (mime.clone(), mime_value(&mime, text)),
-                other => (mime, other),
-            })
-            .collect(),
-    )
 }

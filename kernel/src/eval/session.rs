@@ -1,13 +1,23 @@
 //! The engine session thread.
+//!
+//! One thread owns the engine (`evcxr::CommandContext`) and takes requests in
+//! order. A cell's output reaches its caller as one ordered event stream
+//! ([`CellEvent`]): output lines while it runs, then exactly one `Finished`
+//! with the outcome, after every line (see `output_pump`). Nothing here waits
+//! on a clock.
 
 use super::diagnostics;
+use super::output_pump::{CellSignals, OutputPump};
+use super::preparation::{watch_compilation, Preparation, PreparationObserver};
+use super::termination::Termination;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 use std::process::Child;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc;
 use std::sync::{Arc, Mutex};
-use std::time::Duration;
+use std::time::Instant;
+use tokio::sync::mpsc::{unbounded_channel, UnboundedReceiver, UnboundedSender};
 
 /// MIME type our panic hook uses to report a panic as content.
 const PANIC_MIME: &str = "application/vnd.plumbline.panic+text";
@@ -29,18 +39,40 @@ impl EngineConfig {
     /// The defaults: the analysis crate this kernel was built from (or
     /// `$PLUMBLINE_ANALYSIS_PATH`), the build directory
     /// `$PLUMBLINE_ENGINE_DIR` or `~/.cache/plumbline/engine-<version>`, and
-    /// `$PLUMBLINE_ENGINE_OPT` as the optimisation level.
+    /// `$PLUMBLINE_ENGINE_OPT` as the optimisation level. Paths are absolute.
     pub fn from_environment() -> Self {
         let analysis_path = std::env::var_os("PLUMBLINE_ANALYSIS_PATH")
             .map(PathBuf::from)
             .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..").join("analysis"));
-        let analysis_path = analysis_path.canonicalize().unwrap_or(analysis_path);
+        let absolute = |path: PathBuf| match std::env::current_dir() {
+            Ok(here) if path.is_relative() => here.join(path),
+            _ => path,
+        };
+        let analysis_path = absolute(analysis_path.canonicalize().unwrap_or(analysis_path));
         let build_dir = std::env::var_os("PLUMBLINE_ENGINE_DIR").map(PathBuf::from).unwrap_or_else(|| {
             let home = std::env::var_os("HOME").map(PathBuf::from).unwrap_or_else(std::env::temp_dir);
             home.join(".cache").join("plumbline").join(format!("engine-{}", env!("CARGO_PKG_VERSION")))
         });
+        let build_dir = absolute(build_dir);
         let opt_level = std::env::var("PLUMBLINE_ENGINE_OPT").ok().filter(|s| !s.is_empty());
         Self { analysis_path, build_dir, opt_level }
+    }
+}
+
+/// Puts the engine's settings into this process's environment, where the
+/// engine reads them when it starts and the cell process inherits them:
+/// `EVCXR_TMPDIR`, `EVCXR_CONFIG_DIR` and the kernel display switch of
+/// `plumbline::render::show`.
+///
+/// Call from `main` before any thread starts: changing the environment
+/// while other threads may read it is undefined behaviour on Unix.
+pub fn export_engine_environment(config: &EngineConfig) {
+    // SAFETY: `main` calls this while the process is single-threaded (the
+    // contract above), so no other thread reads the environment meanwhile.
+    unsafe {
+        std::env::set_var("EVCXR_TMPDIR", config.build_dir.join("work"));
+        std::env::set_var("EVCXR_CONFIG_DIR", config.build_dir.join("config"));
+        std::env::set_var(plumbline::render::KERNEL_DISPLAY_ENV, "1");
     }
 }
 
@@ -73,6 +105,15 @@ pub struct ExecOutcome {
     pub error: Option<CellError>,
 }
 
+/// One event of a running cell, in the order it happened.
+#[derive(Debug, Clone)]
+pub enum CellEvent {
+    /// A line the cell printed (display commands included, see `display`).
+    Output(StreamLine),
+    /// The cell ended; always the last event.
+    Finished(ExecOutcome),
+}
+
 /// Completion candidates.
 #[derive(Debug, Clone, Default)]
 pub struct CompleteOutcome {
@@ -85,82 +126,79 @@ pub struct CompleteOutcome {
 }
 
 enum Request {
-    Execute { code: String, reply: mpsc::Sender<ExecOutcome> },
+    Execute { code: String, events: UnboundedSender<CellEvent> },
     Complete { code: String, cursor: usize, reply: mpsc::Sender<CompleteOutcome> },
     Inspect { code: String, cursor: usize, reply: mpsc::Sender<Option<(String, String)>> },
 }
 
-/// What the output readers noticed while a cell ran: whether it stopped at a
-/// `?` (our relay's marker line, see `runtime_relay`), and its latest
-/// standard-error lines, where the engine printed that error.
-#[derive(Default)]
-struct CellSignals {
-    stopped_at_question_mark: AtomicBool,
-    recent_stderr: Mutex<Vec<String>>,
-}
-
-impl CellSignals {
-    fn reset(&self) {
-        self.stopped_at_question_mark.store(false, Ordering::SeqCst);
-        if let Ok(mut lines) = self.recent_stderr.lock() {
-            lines.clear();
-        }
-    }
-
-    /// Handles one output line of the cell process: our `?` marker sets the
-    /// flag, anything else goes to `streams` (standard error is also kept for
-    /// the error message). Returns false once nobody listens any more.
-    fn route(
-        &self,
-        name: &'static str,
-        line: String,
-        streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>,
-    ) -> bool {
-        if name == "stdout" && line == super::CELL_ERROR_MARKER {
-            self.stopped_at_question_mark.store(true, Ordering::SeqCst);
-            return true;
-        }
-        if name == "stderr" {
-            if let Ok(mut recent) = self.recent_stderr.lock() {
-                if recent.len() >= 64 {
-                    recent.remove(0);
-                }
-                recent.push(line.clone());
-            }
-        }
-        streams.send(StreamLine { name, text: line + "\n" }).is_ok()
-    }
-
-    /// The error message the engine printed, if the cell stopped at a `?`.
-    fn question_mark_error(&self) -> Option<String> {
-        if !self.stopped_at_question_mark.swap(false, Ordering::SeqCst) {
-            return None;
-        }
-        let lines = self.recent_stderr.lock().map(|l| l.clone()).unwrap_or_default();
-        let message = lines.iter().rev().find(|l| !l.trim().is_empty()).cloned();
-        Some(message.unwrap_or_else(|| "a `?` in the cell returned an error".into()))
-    }
-}
-
-/// Stops the running cell by killing the engine's worker process.
+/// Stops the running cell by killing the process that runs cells.
+///
+/// It acts only while a cell runs: an interrupt that arrives while the
+/// session is idle (or busy with a completion) does nothing, so it cannot
+/// throw away the variables of a session nobody asked to stop.
 #[derive(Clone, Default)]
 pub struct Interrupter {
-    child: Arc<Mutex<Option<Arc<Mutex<Child>>>>>,
+    inner: Arc<InterruptState>,
+}
+
+#[derive(Default)]
+struct InterruptState {
+    /// The engine's handle to the cell process (valid across its restarts).
+    process: Mutex<Option<Arc<Mutex<Child>>>>,
+    /// A cell is running (set and cleared by the engine thread).
+    running: AtomicBool,
+    /// We killed the process during the running cell.
+    fired: AtomicBool,
 }
 
 impl Interrupter {
-    /// Kills the worker; the engine restarts it and its variables are lost.
+    /// Kills the cell process if a cell is running; the engine restarts it
+    /// and the variables are lost (the cell's error says which). Returns
+    /// whether a cell was stopped.
     pub fn interrupt(&self) -> bool {
-        let child = match self.child.lock() {
-            Ok(slot) => slot.clone(),
-            Err(_) => return false,
-        };
-        let Some(child) = child else { return false };
+        let Ok(slot) = self.inner.process.lock() else { return false };
+        if !self.inner.running.load(Ordering::SeqCst) {
+            return false;
+        }
+        let Some(child) = slot.clone() else { return false };
         let killed = match child.lock() {
             Ok(mut process) => process.kill().is_ok(),
             Err(_) => false,
         };
+        if killed {
+            self.inner.fired.store(true, Ordering::SeqCst);
+        }
         killed
+    }
+
+    /// Kills the cell process whether or not a cell runs (kernel shutdown).
+    pub fn terminate(&self) {
+        let Ok(slot) = self.inner.process.lock() else { return };
+        if let Some(child) = slot.clone() {
+            if let Ok(mut process) = child.lock() {
+                let _ = process.kill();
+            }
+        }
+    }
+
+    fn set_process(&self, process: Arc<Mutex<Child>>) {
+        if let Ok(mut slot) = self.inner.process.lock() {
+            *slot = Some(process);
+        }
+    }
+
+    /// Marks a cell as running (under the same lock `interrupt` takes, so an
+    /// interrupt sees either the whole cell or none of it).
+    fn set_running(&self, running: bool) {
+        let _guard = self.inner.process.lock();
+        self.inner.running.store(running, Ordering::SeqCst);
+        if running {
+            self.inner.fired.store(false, Ordering::SeqCst);
+        }
+    }
+
+    fn fired(&self) -> bool {
+        self.inner.fired.swap(false, Ordering::SeqCst)
     }
 }
 
@@ -172,17 +210,28 @@ pub struct Session {
 
 impl Session {
     /// Starts the engine thread; it prepares the session (preloading
-    /// `plumbline`) before taking the first request. `streams` receives cell
-    /// output lines as they are printed.
-    pub fn start(config: EngineConfig, streams: tokio::sync::mpsc::UnboundedSender<StreamLine>) -> Session {
+    /// `plumbline`) before taking the first request, reporting how far it got
+    /// to `observer`. Lines printed while no cell runs go to `stray`.
+    pub fn start(
+        config: EngineConfig,
+        stray: UnboundedSender<StreamLine>,
+        observer: Arc<PreparationObserver>,
+    ) -> Session {
         let (requests, inbox) = mpsc::channel::<Request>();
         let interrupter = Interrupter::default();
-        let slot = interrupter.clone();
-        std::thread::Builder::new()
+        let engine_interrupter = interrupter.clone();
+        let spawned = std::thread::Builder::new()
             .name("plumbline-engine".into())
-            .spawn(move || engine_thread(config, inbox, streams, slot))
-            .expect("spawn the engine thread");
+            .spawn(move || engine_thread(config, inbox, stray, engine_interrupter, observer));
+        if let Err(e) = spawned {
+            eprintln!("plumbline kernel: cannot start the engine thread: {e}");
+        }
         Session { requests, interrupter }
+    }
+
+    /// Ends the cell process (shutdown); the session answers no more cells.
+    pub fn terminate(&self) {
+        self.interrupter.terminate();
     }
 
     /// The interrupter for this session.
@@ -190,13 +239,30 @@ impl Session {
         self.interrupter.clone()
     }
 
-    /// Runs a cell, blocking until it finishes.
-    pub fn execute(&self, code: &str) -> ExecOutcome {
-        let (reply, answer) = mpsc::channel();
-        if self.requests.send(Request::Execute { code: code.to_string(), reply }).is_err() {
-            return engine_gone();
+    /// Queues a cell; its events arrive on the returned channel, ending with
+    /// exactly one [`CellEvent::Finished`].
+    pub fn execute(&self, code: &str) -> UnboundedReceiver<CellEvent> {
+        let (events, receiver) = unbounded_channel();
+        if let Err(mpsc::SendError(Request::Execute { events, .. })) =
+            self.requests.send(Request::Execute { code: code.to_string(), events })
+        {
+            let _ = events.send(CellEvent::Finished(engine_gone()));
         }
-        answer.recv().unwrap_or_else(|_| engine_gone())
+        receiver
+    }
+
+    /// Runs a cell to the end, blocking: its output lines and its outcome.
+    /// For callers outside an async runtime (the runner, install).
+    pub fn execute_to_end(&self, code: &str) -> (Vec<StreamLine>, ExecOutcome) {
+        let mut events = self.execute(code);
+        let mut lines = Vec::new();
+        while let Some(event) = events.blocking_recv() {
+            match event {
+                CellEvent::Output(line) => lines.push(line),
+                CellEvent::Finished(outcome) => return (lines, outcome),
+            }
+        }
+        (lines, engine_gone())
     }
 
     /// Completion candidates at byte offset `cursor`.
@@ -217,14 +283,11 @@ impl Session {
 }
 
 fn engine_gone() -> ExecOutcome {
-    ExecOutcome {
-        data: BTreeMap::new(),
-        error: Some(CellError {
-            ename: "EngineStopped".into(),
-            evalue: "the evaluation engine stopped; restart the kernel".into(),
-            traceback: vec!["The evaluation engine stopped; restart the kernel to continue.".into()],
-        }),
-    }
+    failure(
+        "EngineStopped",
+        "the evaluation engine stopped; restart the kernel".into(),
+        vec!["The evaluation engine stopped; restart the kernel to continue.".into()],
+    )
 }
 
 fn failure(ename: &str, evalue: String, traceback: Vec<String>) -> ExecOutcome {
@@ -246,132 +309,60 @@ fn toolchain_problem() -> Option<String> {
     None
 }
 
+/// Answers every request with the startup problem.
+fn refuse_all(inbox: mpsc::Receiver<Request>, message: &str) {
+    for request in inbox {
+        match request {
+            Request::Execute { events, .. } => {
+                let _ = events.send(CellEvent::Finished(failure(
+                    "EngineUnavailable",
+                    message.to_string(),
+                    vec![message.to_string()],
+                )));
+            }
+            Request::Complete { cursor, reply, .. } => {
+                let _ = reply.send(CompleteOutcome { cursor_start: cursor, cursor_end: cursor, ..Default::default() });
+            }
+            Request::Inspect { reply, .. } => {
+                let _ = reply.send(None);
+            }
+        }
+    }
+}
+
 fn engine_thread(
     config: EngineConfig,
     inbox: mpsc::Receiver<Request>,
-    streams: tokio::sync::mpsc::UnboundedSender<StreamLine>,
+    stray: UnboundedSender<StreamLine>,
     interrupter: Interrupter,
+    observer: Arc<PreparationObserver>,
 ) {
-    let signals = Arc::new(CellSignals::default());
-    let startup = start_engine(&config, &streams, &interrupter, &signals);
-    let (mut ctx, stdout, stderr) = match startup {
+    let started = Instant::now();
+    observer(&Preparation::Starting);
+    let startup = start_engine(&config, stray, &interrupter, Arc::clone(&observer));
+    let (mut engine, pump) = match startup {
         Ok(parts) => parts,
         Err(message) => {
-            // Every request gets the startup problem as its answer.
-            for request in inbox {
-                match request {
-                    Request::Execute { reply, .. } => {
-                        let _ = reply.send(failure("EngineUnavailable", message.clone(), vec![message.clone()]));
-                    }
-                    Request::Complete { cursor, reply, .. } => {
-                        let _ = reply.send(CompleteOutcome {
-                            cursor_start: cursor,
-                            cursor_end: cursor,
-                            ..Default::default()
-                        });
-                    }
-                    Request::Inspect { reply, .. } => {
-                        let _ = reply.send(None);
-                    }
-                }
-            }
+            observer(&Preparation::Failed(message.clone()));
+            refuse_all(inbox, &message);
             return;
         }
     };
-    let drain = |streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>| {
-        std::thread::sleep(Duration::from_millis(30));
-        while let Ok(line) = stdout.try_recv() {
-            signals.route("stdout", line, streams);
-        }
-        while let Ok(line) = stderr.try_recv() {
-            signals.route("stderr", line, streams);
-        }
-    };
+    observer(&Preparation::Ready(started.elapsed()));
     for request in inbox {
         match request {
-            Request::Execute { code, reply } => {
-                let before: Vec<String> = ctx.variables_and_types().map(|(n, _)| n.to_string()).collect();
-                signals.reset();
-                let result = ctx.execute(&code);
-                drain(&streams);
-                if let Ok(mut slot) = interrupter.child.lock() {
-                    *slot = Some(ctx.process_handle());
-                }
-                let question_mark_error = signals.question_mark_error();
-                let outcome = match result {
-                    Ok(_) if question_mark_error.is_some() => {
-                        let message = question_mark_error.unwrap_or_default();
-                        failure(
-                            "Error",
-                            message.clone(),
-                            vec![
-                                format!("The cell stopped at a `?`: {message}"),
-                                "Statements after it did not run, and variables it would have defined were not kept."
-                                    .into(),
-                            ],
-                        )
-                    }
-                    Ok(outputs) => {
-                        let mut data: BTreeMap<String, String> = outputs.content_by_mime_type.into_iter().collect();
-                        match data.remove(PANIC_MIME) {
-                            Some(panic) => {
-                                let message = panic.lines().skip(1).collect::<Vec<_>>().join("\n");
-                                let message = if message.is_empty() { panic.clone() } else { message };
-                                failure(
-                                    "panic",
-                                    message.clone(),
-                                    vec![
-                                        format!("The cell panicked: {message}"),
-                                        "Variables from earlier cells are kept.".into(),
-                                    ],
-                                )
-                            }
-                            None => ExecOutcome { data, error: None },
-                        }
-                    }
-                    Err(evcxr::Error::CompilationErrors(errors)) => {
-                        let mut traceback = Vec::new();
-                        for e in errors.iter().filter(|e| e.is_from_user_code() || errors.len() == 1) {
-                            traceback.extend(diagnostics::render(e, &code));
-                        }
-                        if traceback.is_empty() {
-                            for e in &errors {
-                                traceback.extend(diagnostics::render(e, &code));
-                            }
-                        }
-                        let first = errors.first().map(|e| e.message()).unwrap_or_default();
-                        failure("CompileError", first, traceback)
-                    }
-                    Err(evcxr::Error::SubprocessTerminated(reason)) => {
-                        let lost = if before.is_empty() { "none".to_string() } else { before.join(", ") };
-                        failure(
-                            "Interrupted",
-                            format!("the cell was stopped ({reason})"),
-                            vec![
-                                "The cell was stopped and the evaluation process restarted.".into(),
-                                format!("Variables lost: {lost}. Functions, types and `use` lines are kept."),
-                                "Rerun the cells that defined the variables you still need.".into(),
-                            ],
-                        )
-                    }
-                    Err(evcxr::Error::TypeRedefinedVariablesLost(names)) => failure(
-                        "VariablesLost",
-                        format!("redefining a type dropped variables: {}", names.join(", ")),
-                        vec![format!("Redefining a type dropped these variables: {}.", names.join(", "))],
-                    ),
-                    Err(other) => {
-                        let text = other.to_string();
-                        failure(
-                            "Error",
-                            text.lines().next().unwrap_or("").to_string(),
-                            text.lines().map(str::to_string).collect(),
-                        )
-                    }
-                };
-                let _ = reply.send(outcome);
+            Request::Execute { code, events } => {
+                let before: Vec<String> = engine.variables_and_types().map(|(n, _)| n.to_string()).collect();
+                pump.begin(events.clone());
+                interrupter.set_running(true);
+                let result = engine.execute(&code);
+                interrupter.set_running(false);
+                let signals = pump.finish();
+                let outcome = cell_outcome(&mut engine, &code, result, &signals, &before, interrupter.fired());
+                let _ = events.send(CellEvent::Finished(outcome));
             }
             Request::Complete { code, cursor, reply } => {
-                let outcome = match ctx.completions(&code, cursor.min(code.len())) {
+                let outcome = match engine.completions(&code, cursor.min(code.len())) {
                     Ok(c) => CompleteOutcome {
                         matches: c.completions.into_iter().map(|x| x.code).collect(),
                         cursor_start: c.start_offset,
@@ -383,9 +374,91 @@ fn engine_thread(
             }
             Request::Inspect { code, cursor, reply } => {
                 let answer =
-                    ctx.hover_at(&code, cursor.min(code.len())).ok().filter(|(plain, _)| !plain.trim().is_empty());
+                    engine.hover_at(&code, cursor.min(code.len())).ok().filter(|(plain, _)| !plain.trim().is_empty());
                 let _ = reply.send(answer);
             }
+        }
+    }
+}
+
+/// The outcome of one cell from the engine's result and what the pump saw.
+/// After the cell process ended, the session hooks are installed again in
+/// the new one.
+fn cell_outcome(
+    engine: &mut evcxr::CommandContext,
+    code: &str,
+    result: Result<evcxr::EvalOutputs, evcxr::Error>,
+    signals: &CellSignals,
+    before: &[String],
+    interrupted: bool,
+) -> ExecOutcome {
+    match result {
+        Ok(_) if signals.stopped_at_question_mark => {
+            let message = signals.question_mark_message();
+            failure(
+                "Error",
+                message.clone(),
+                vec![
+                    format!("The cell stopped at a `?`: {message}"),
+                    "Statements after it did not run, and variables it would have defined were not kept.".into(),
+                ],
+            )
+        }
+        Ok(outputs) => {
+            let mut data: BTreeMap<String, String> = outputs.content_by_mime_type.into_iter().collect();
+            match data.remove(PANIC_MIME) {
+                Some(panic) => {
+                    let message = panic.lines().skip(1).collect::<Vec<_>>().join("\n");
+                    let message = if message.is_empty() { panic.clone() } else { message };
+                    failure(
+                        "panic",
+                        message.clone(),
+                        vec![format!("The cell panicked: {message}"), "Variables from earlier cells are kept.".into()],
+                    )
+                }
+                None => ExecOutcome { data, error: None },
+            }
+        }
+        Err(evcxr::Error::CompilationErrors(errors)) => {
+            let mut traceback = Vec::new();
+            for e in errors.iter().filter(|e| e.is_from_user_code() || errors.len() == 1) {
+                traceback.extend(diagnostics::render(e, code));
+            }
+            if traceback.is_empty() {
+                for e in &errors {
+                    traceback.extend(diagnostics::render(e, code));
+                }
+            }
+            let first = errors.first().map(|e| e.message()).unwrap_or_default();
+            failure("CompileError", first, traceback)
+        }
+        Err(evcxr::Error::SubprocessTerminated(reason)) => {
+            let termination = Termination::classify(&reason, interrupted, signals.aborted);
+            let after: Vec<String> = engine.variables_and_types().map(|(n, _)| n.to_string()).collect();
+            let lost: Vec<String> = before.iter().filter(|n| !after.contains(n)).cloned().collect();
+            let kept: Vec<String> = before.iter().filter(|n| after.contains(n)).cloned().collect();
+            let mut last_lines = signals.recent_stderr.clone();
+            last_lines.extend(
+                reason
+                    .lines()
+                    .filter_map(|l| l.strip_prefix(super::runtime_relay::STDERR_LINE_MARKER))
+                    .map(str::to_string),
+            );
+            let error = termination.to_error(&lost, &kept, &last_lines);
+            // The new cell process has none of the session hooks yet.
+            if let Err(problem) = install_cell_process_hooks(engine) {
+                eprintln!("plumbline kernel: the restarted cell process lacks its hooks: {problem}");
+            }
+            ExecOutcome { data: BTreeMap::new(), error: Some(error) }
+        }
+        Err(evcxr::Error::TypeRedefinedVariablesLost(names)) => failure(
+            "VariablesLost",
+            format!("redefining a type dropped variables: {}", names.join(", ")),
+            vec![format!("Redefining a type dropped these variables: {}.", names.join(", "))],
+        ),
+        Err(other) => {
+            let text = other.to_string();
+            failure("Error", text.lines().next().unwrap_or("").to_string(), text.lines().map(str::to_string).collect())
         }
     }
 }
@@ -423,44 +496,24 @@ fn write_shared_library_crate(config: &EngineConfig) -> Result<PathBuf, String> 
     Ok(dir)
 }
 
-type EngineParts = (evcxr::CommandContext, crossbeam_channel::Receiver<String>, crossbeam_channel::Receiver<String>);
-
 fn start_engine(
     config: &EngineConfig,
-    streams: &tokio::sync::mpsc::UnboundedSender<StreamLine>,
+    stray: UnboundedSender<StreamLine>,
     interrupter: &Interrupter,
-    signals: &Arc<CellSignals>,
-) -> Result<EngineParts, String> {
+    observer: Arc<PreparationObserver>,
+) -> Result<(evcxr::CommandContext, OutputPump), String> {
     if let Some(problem) = toolchain_problem() {
         return Err(problem);
     }
     std::fs::create_dir_all(&config.build_dir)
         .map_err(|e| format!("cannot create the engine build directory `{}`: {e}", config.build_dir.display()))?;
     let config_dir = config.build_dir.join("config");
-    let _ = std::fs::create_dir_all(&config_dir);
-    // SAFETY-free: set before the engine reads them, on this thread, before any other engine call.
-    unsafe {
-        std::env::set_var("EVCXR_TMPDIR", config.build_dir.join("work"));
-        std::env::set_var("EVCXR_CONFIG_DIR", &config_dir);
-        // `plumbline::render::show` then sends whole display bundles as marked lines.
-        std::env::set_var(plumbline::render::KERNEL_DISPLAY_ENV, "1");
-    }
+    std::fs::create_dir_all(&config_dir)
+        .map_err(|e| format!("cannot create the engine settings directory `{}`: {e}", config_dir.display()))?;
     let (eval_context, outputs) =
         evcxr::EvalContext::new().map_err(|e| format!("the evaluation engine did not start: {e}"))?;
-    let mut ctx = evcxr::CommandContext::with_eval_context(eval_context);
-    let (stdout, stderr) = (outputs.stdout, outputs.stderr);
-    for (name, channel) in [("stdout", stdout.clone()), ("stderr", stderr.clone())] {
-        let streams = streams.clone();
-        let signals = Arc::clone(signals);
-        let name: &'static str = if name == "stdout" { "stdout" } else { "stderr" };
-        std::thread::spawn(move || {
-            while let Ok(line) = channel.recv() {
-                if !signals.route(name, line, &streams) {
-                    break;
-                }
-            }
-        });
-    }
+    let mut engine = evcxr::CommandContext::with_eval_context(eval_context);
+    let pump = OutputPump::start(outputs.stdout, outputs.stderr, stray);
     let mut prelude: Vec<String> = Vec::new();
     if let Some(level) = &config.opt_level {
         prelude.push(format!(":opt {level}"));
@@ -471,19 +524,34 @@ fn start_engine(
         shared_library.display().to_string().replace('\\', "/")
     ));
     prelude.push("use plumbline::prelude::*;".into());
-    prelude.push(format!(
-        "std::panic::set_hook(Box::new(|info| {{ println!(\"EVCXR_BEGIN_CONTENT {PANIC_MIME}\\n{{}}\\nEVCXR_END_CONTENT\", info); }}));"
-    ));
+    // The `:dep` line compiles plumbline inside the engine the first time;
+    // its progress is what people wait for.
+    let run_prelude = |engine: &mut evcxr::CommandContext| -> Result<(), String> {
+        for command in &prelude {
+            engine.execute(command).map_err(|e| format!("preparing the session failed at `{command}`: {e}"))?;
+        }
+        Ok(())
+    };
+    let engine_target = config.build_dir.join("work").join("target");
+    watch_compilation(&engine_target, Arc::clone(&observer), || run_prelude(&mut engine))?;
+    observer(&Preparation::Loading);
+    install_cell_process_hooks(&mut engine)?;
     // A `?` in the prelude: the engine enables `?` in cells only after a first
     // compile error caused by one, and if that first `?` sits in a cell's final
     // expression the engine also drops that cell's rich display for plain
-    // `Debug` text. Paying that retry here keeps every user cell rich.
-    prelude.push("let plumbline_session_ready: bool = \"true\".parse::<bool>()?;".into());
-    for command in &prelude {
-        ctx.execute(command).map_err(|e| format!("preparing the session failed at `{command}`: {e}"))?;
-    }
-    if let Ok(mut slot) = interrupter.child.lock() {
-        *slot = Some(ctx.process_handle());
-    }
-    Ok((ctx, stdout, stderr))
+    // `Debug` text. Paying that retry here keeps every user cell rich. It also
+    // binds a variable, which warms the engine's type inference.
+    let warm = "let plumbline_session_ready: bool = \"true\".parse::<bool>()?;";
+    engine.execute(warm).map_err(|e| format!("preparing the session failed at `{warm}`: {e}"))?;
+    interrupter.set_process(engine.process_handle());
+    Ok((engine, pump))
+}
+
+/// Installs, in the cell process, the panic hook that reports a panic as
+/// [`PANIC_MIME`] content. Needed again whenever that process restarts.
+fn install_cell_process_hooks(engine: &mut evcxr::CommandContext) -> Result<(), String> {
+    let hook = format!(
+        "std::panic::set_hook(Box::new(|info| {{ println!(\"EVCXR_BEGIN_CONTENT {PANIC_MIME}\\n{{}}\\nEVCXR_END_CONTENT\", info); }}));"
+    );
+    engine.execute(&hook).map(|_| ()).map_err(|e| format!("installing the panic hook failed: {e}"))
 }

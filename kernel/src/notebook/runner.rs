@@ -12,8 +12,9 @@
 use super::document::{CellKind, Notebook};
 use super::inputs::AppliedInput;
 use super::record::{RunRecord, RunStatus, RUN_RECORD_SCHEMA, RUN_RECORD_SCHEMA_VERSION};
-use crate::eval::{bundle_json, display_bundle, CellError, EngineConfig, Session, StreamLine};
+use crate::eval::{bundle_json, display_command, CellError, DisplayCommand, EngineConfig, Session, StreamLine};
 use serde_json::{json, Value};
+use std::collections::HashMap;
 use std::io::Write;
 use std::time::{Duration, Instant};
 
@@ -47,6 +48,10 @@ pub struct RunOutcome {
 pub trait Progress {
     /// Cell `position` of `total` code cells (notebook cell `cell`) starts.
     fn cell_started(&mut self, position: usize, total: usize, cell: usize, first_line: &str, elapsed: Duration);
+
+    /// Whether to print the engine's preparation (its first build takes
+    /// minutes) as progress lines on standard error.
+    fn wants_engine_progress(&self) -> bool;
 }
 
 /// Progress lines on standard error: `[3/27  0:42] cell 5  let model = …`.
@@ -65,6 +70,10 @@ impl Progress for StderrProgress {
         let _ = writeln!(err, "[{position:>2}/{total}  {}] cell {cell:<3} {shown}", clock(elapsed));
         let _ = err.flush();
     }
+
+    fn wants_engine_progress(&self) -> bool {
+        true
+    }
 }
 
 /// Progress that reports nothing.
@@ -72,19 +81,43 @@ pub struct NoProgress;
 
 impl Progress for NoProgress {
     fn cell_started(&mut self, _: usize, _: usize, _: usize, _: &str, _: Duration) {}
+
+    fn wants_engine_progress(&self) -> bool {
+        false
+    }
 }
 
 fn first_code_line(source: &str) -> String {
     source.lines().map(str::trim).find(|l| !l.is_empty()).unwrap_or("").to_string()
 }
 
-/// Turns the output lines of one cell into nbformat outputs.
+/// Turns the output lines of one cell into nbformat outputs: streams merged,
+/// displays kept, an updated display replaced where it stands, a clear
+/// removing what came before.
 fn stream_outputs(lines: Vec<StreamLine>) -> Vec<Value> {
     let mut outputs: Vec<Value> = Vec::new();
+    let mut by_display_id: HashMap<String, usize> = HashMap::new();
     for line in lines {
-        if let Some(data) = display_bundle(&line.text) {
-            outputs.push(json!({ "output_type": "display_data", "data": data, "metadata": {} }));
-            continue;
+        match display_command(&line.text) {
+            Some(DisplayCommand::Show { data, display_id }) => {
+                if let Some(id) = display_id {
+                    by_display_id.insert(id, outputs.len());
+                }
+                outputs.push(json!({ "output_type": "display_data", "data": bundle_json(data), "metadata": {} }));
+                continue;
+            }
+            Some(DisplayCommand::Update { data, display_id }) => {
+                if let Some(&at) = by_display_id.get(&display_id) {
+                    outputs[at]["data"] = Value::Object(bundle_json(data));
+                }
+                continue;
+            }
+            Some(DisplayCommand::Clear { .. }) => {
+                outputs.clear();
+                by_display_id.clear();
+                continue;
+            }
+            None => {}
         }
         if let Some(last) = outputs.last_mut() {
             if last["output_type"] == "stream" && last["name"] == line.name {
@@ -109,8 +142,10 @@ pub fn execute(
 ) -> RunOutcome {
     let started = Instant::now();
     let started_at = chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true);
-    let (lines_tx, mut lines_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
-    let session = Session::start(config, lines_tx);
+    // Lines printed after their cell ended (by threads it started) join the next cell's output.
+    let (stray_tx, mut stray_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
+    let session =
+        Session::start(config, stray_tx, crate::eval::preparation::lines_on_stderr(progress.wants_engine_progress()));
     let code_cells: Vec<usize> = (0..notebook.len()).filter(|&i| notebook.kind(i) == CellKind::Code).collect();
     let mut outcome =
         RunOutcome { started_at, executed: 0, code_cells: code_cells.len(), elapsed: Duration::ZERO, failure: None };
@@ -127,12 +162,13 @@ pub fn execute(
         }
         progress.cell_started(position + 1, code_cells.len(), cell + 1, &first_code_line(&source), started.elapsed());
         execution_count += 1;
-        let result = session.execute(&source);
-        outcome.executed += 1;
         let mut lines = Vec::new();
-        while let Ok(line) = lines_rx.try_recv() {
+        while let Ok(line) = stray_rx.try_recv() {
             lines.push(line);
         }
+        let (cell_lines, result) = session.execute_to_end(&source);
+        lines.extend(cell_lines);
+        outcome.executed += 1;
         let mut outputs = stream_outputs(lines);
         if !result.data.is_empty() {
             let data = bundle_json(result.data);
@@ -174,10 +210,10 @@ mod tests {
     #[test]
     fn stream_lines_merge_and_display_lines_become_displays() {
         let line = |name: &'static str, text: &str| StreamLine { name, text: text.to_string() };
-        let display = format!(
-            "{}{{\"text/plain\":\"fit\",\"application/vnd.plumbline.fit+json\":\"{{\\\"a\\\":1}}\"}}\n",
-            plumbline::render::KERNEL_DISPLAY_MARKER
-        );
+        let mut data = std::collections::BTreeMap::new();
+        data.insert("text/plain".to_string(), "fit".to_string());
+        data.insert("application/vnd.plumbline.fit+json".to_string(), "{\"a\":1}".to_string());
+        let display = DisplayCommand::Show { data, display_id: None }.to_line() + "\n";
         let outputs = stream_outputs(vec![
             line("stdout", "a\n"),
             line("stdout", "b\n"),

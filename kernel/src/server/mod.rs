@@ -1,23 +1,39 @@
 //! The kernel's five sockets and the handling of every request.
 //!
-//! * heartbeat (REP): echoes each ping;
-//! * iopub (PUB): one publisher task sends every broadcast — status, inputs,
-//!   streams, displays, results, errors;
-//! * shell (ROUTER): requests handled in order; cells run one at a time;
+//! Who owns what:
+//! * heartbeat (REP): one task echoes each ping;
+//! * iopub (PUB): one publisher task owns the socket and sends every
+//!   broadcast in the order it was queued (status, inputs, streams, displays,
+//!   results, errors); at shutdown it sends what is queued, then ends;
+//! * shell (ROUTER): split in two. A reader task receives, verifies and
+//!   queues requests in arrival order; the shell loop (this function's own
+//!   task) owns the send half, handles the queue one request at a time and
+//!   runs cells one at a time;
 //! * control (ROUTER): its own task, so interrupt and shutdown never wait
 //!   behind a running cell;
 //! * stdin (ROUTER): bound; cells do not ask for input.
 //!
+//! The engine thread owns the evaluation engine (see `eval::Session`). A
+//! cell's output reaches iopub through that cell's own event stream, so it
+//! always carries the cell's request as parent and precedes its reply. Lines
+//! printed after their cell ended (by a thread the cell started) are
+//! published as children of the most recent cell.
+//!
 //! Every request is bracketed by `status: busy` and `status: idle` on iopub.
-//! A message whose signature does not verify is dropped and logged, never run.
+//! A message whose signature does not verify, or whose frames or header are
+//! malformed, is dropped and logged, never run; a request whose content has
+//! the wrong shape gets an error reply.
 
 mod handlers;
 mod history;
+pub mod requests;
 
-use crate::eval::{EngineConfig, Session, StreamLine};
+use crate::eval::{EngineConfig, Preparation, Session, StreamLine};
 use crate::wire::{new_header, ConnectionFile, Message, Signer};
 use serde_json::{json, Value};
-use std::sync::{Arc, Mutex};
+use std::collections::VecDeque;
+use std::sync::{Arc, Mutex, OnceLock};
+use std::time::Instant;
 use zeromq::{PubSocket, RepSocket, RouterSocket, Socket, SocketRecv, SocketSend, ZmqMessage};
 
 /// Why the kernel could not serve.
@@ -28,14 +44,29 @@ pub enum ServeError {
     Bind { endpoint: String, reason: String },
 }
 
+/// What the publisher task is asked to do.
+pub(crate) enum Outgoing {
+    /// Sign and send a broadcast.
+    Publish(Box<Message>),
+    /// Answer once everything queued before has been sent.
+    Flush(tokio::sync::oneshot::Sender<()>),
+}
+
 /// State shared by the request handlers.
 pub(crate) struct Shared {
     pub signer: Signer,
     pub session_id: String,
-    pub iopub: tokio::sync::mpsc::UnboundedSender<Message>,
+    pub iopub: tokio::sync::mpsc::UnboundedSender<Outgoing>,
     pub engine: Arc<Session>,
-    /// The request whose cell is running, so that output lines get it as parent.
-    pub current: Mutex<Option<Message>>,
+    /// The most recent execute request: parent of lines printed after their
+    /// cell ended. Output of a running cell never looks here.
+    pub latest_cell: Mutex<Option<Message>>,
+    /// Where the engine's preparation stands.
+    pub preparation: tokio::sync::watch::Receiver<Preparation>,
+    /// When this kernel started.
+    pub started: Instant,
+    /// `rustc --version`, asked once.
+    pub rustc_version: OnceLock<String>,
     pub history: Mutex<history::History>,
     pub execution_count: Mutex<u64>,
 }
@@ -55,7 +86,7 @@ impl Shared {
             },
         };
         message.identities = vec![format!("kernel.{}.{msg_type}", self.session_id).into_bytes()];
-        let _ = self.iopub.send(message);
+        let _ = self.iopub.send(Outgoing::Publish(Box::new(message)));
     }
 
     /// Publishes a status change.
@@ -80,7 +111,8 @@ async fn bind<S: Socket>(socket: &mut S, endpoint: String) -> Result<(), ServeEr
     socket.bind(&endpoint).await.map(|_| ()).map_err(|e| ServeError::Bind { endpoint, reason: e.to_string() })
 }
 
-/// Serves the protocol on the connection file's sockets until shutdown.
+/// Serves the protocol on the connection file's sockets until a shutdown
+/// request; then stops the cell process and flushes iopub before returning.
 pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
     let signer = Signer::new(&connection.key);
     let session_id = uuid::Uuid::new_v4().to_string();
@@ -95,13 +127,21 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
     bind(&mut iopub, connection.endpoint(connection.iopub_port)).await?;
     bind(&mut heartbeat, connection.endpoint(connection.hb_port)).await?;
 
-    // Publisher.
-    let (iopub_tx, mut iopub_rx) = tokio::sync::mpsc::unbounded_channel::<Message>();
+    // Publisher: sends in queue order; a flush is answered once everything
+    // queued before it has been sent.
+    let (iopub_tx, mut iopub_rx) = tokio::sync::mpsc::unbounded_channel::<Outgoing>();
     let publisher_signer = signer.clone();
     tokio::spawn(async move {
-        while let Some(message) = iopub_rx.recv().await {
-            if let Some(frames) = to_zmq(message.encode(&publisher_signer)) {
-                let _ = iopub.send(frames).await;
+        while let Some(outgoing) = iopub_rx.recv().await {
+            match outgoing {
+                Outgoing::Publish(message) => {
+                    if let Some(frames) = to_zmq(message.encode(&publisher_signer)) {
+                        let _ = iopub.send(frames).await;
+                    }
+                }
+                Outgoing::Flush(done) => {
+                    let _ = done.send(());
+                }
             }
         }
     });
@@ -115,30 +155,39 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
         }
     });
 
-    // The engine, with its output lines forwarded to iopub.
-    let (stream_tx, mut stream_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
-    let engine = Arc::new(Session::start(EngineConfig::from_environment(), stream_tx));
+    // The engine, preparing from now on; its progress goes to a watch channel.
+    let started = Instant::now();
+    let (preparation_tx, preparation_rx) = tokio::sync::watch::channel(Preparation::Starting);
+    let observer: Arc<crate::eval::PreparationObserver> = Arc::new(move |state: &Preparation| {
+        preparation_tx.send_replace(state.clone());
+    });
+    let (stray_tx, mut stray_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
+    let engine = Arc::new(Session::start(EngineConfig::from_environment(), stray_tx, observer));
     let shared = Arc::new(Shared {
         signer: signer.clone(),
         session_id,
         iopub: iopub_tx,
         engine,
-        current: Mutex::new(None),
+        latest_cell: Mutex::new(None),
+        preparation: preparation_rx,
+        started,
+        rustc_version: OnceLock::new(),
         history: Mutex::new(history::History::default()),
         execution_count: Mutex::new(0),
     });
     shared.status(None, "starting");
     shared.status(None, "idle");
 
-    let forwarder = shared.clone();
+    let stray_shared = Arc::downgrade(&shared);
     tokio::spawn(async move {
-        while let Some(line) = stream_rx.recv().await {
-            let parent = forwarder.current.lock().ok().and_then(|c| c.clone());
-            handlers::forward_output(&forwarder, parent.as_ref(), line);
+        while let Some(line) = stray_rx.recv().await {
+            let Some(shared) = stray_shared.upgrade() else { break };
+            let parent = shared.latest_cell.lock().ok().and_then(|c| c.clone());
+            handlers::forward_output(&shared, parent.as_ref(), line);
         }
     });
 
-    // SIGINT interrupts the running cell.
+    // SIGINT interrupts the running cell (and does nothing while idle).
     let interrupter = shared.engine.interrupter();
     tokio::spawn(async move {
         while tokio::signal::ctrl_c().await.is_ok() {
@@ -146,16 +195,25 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
         }
     });
 
+    // Either loop may end the kernel.
+    let (stop_tx, mut stop_rx) = tokio::sync::mpsc::channel::<()>(2);
+
     // Control, on its own task.
     let control_shared = shared.clone();
+    let control_stop = stop_tx.clone();
     tokio::spawn(async move {
         loop {
             let Ok(raw) = control.recv().await else { break };
             let Some(request) = handlers::decode(&control_shared, to_frames(raw)) else { continue };
-            for reply in handlers::control(&control_shared, &request).await {
+            let outcome = handlers::control(&control_shared, &request).await;
+            for reply in outcome.replies {
                 if let Some(frames) = to_zmq(reply.encode(&control_shared.signer)) {
                     let _ = control.send(frames).await;
                 }
+            }
+            if outcome.shutdown {
+                let _ = control_stop.send(()).await;
+                break;
             }
         }
     });
@@ -163,36 +221,73 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
     // Stdin is bound so that clients can connect; cells never request input.
     tokio::spawn(async move { while stdin.recv().await.is_ok() {} });
 
-    // Shell, in order. When a cell fails with stop_on_error, execute requests
-    // that were sent before that failure was answered (queued behind it) are
-    // aborted; requests sent afterwards run normally.
-    let mut failed_at: Option<chrono::DateTime<chrono::Utc>> = None;
-    loop {
-        let raw = match shell.recv().await {
-            Ok(raw) => raw,
-            Err(e) => {
-                eprintln!("plumbline kernel: shell socket closed: {e}");
-                break;
+    // Shell: a reader queues verified requests in arrival order.
+    let (mut shell_send, mut shell_recv) = shell.split();
+    let (queue_tx, mut queue) = tokio::sync::mpsc::unbounded_channel::<Message>();
+    let reader_shared = shared.clone();
+    tokio::spawn(async move {
+        loop {
+            match shell_recv.recv().await {
+                Ok(raw) => {
+                    if let Some(request) = handlers::decode(&reader_shared, to_frames(raw)) {
+                        if queue_tx.send(request).is_err() {
+                            break;
+                        }
+                    }
+                }
+                Err(e) => {
+                    eprintln!("plumbline kernel: shell socket closed: {e}");
+                    break;
+                }
             }
+        }
+    });
+
+    // The shell loop, in order. When a cell fails with stop_on_error, the
+    // execute requests already queued behind it (received while it ran) are
+    // aborted; requests received afterwards run normally. No clocks compared.
+    let mut behind_failure: VecDeque<Message> = VecDeque::new();
+    loop {
+        let (request, abort) = match behind_failure.pop_front() {
+            Some(request) => (request, true),
+            None => tokio::select! {
+                next = queue.recv() => match next {
+                    Some(request) => (request, false),
+                    None => break,
+                },
+                _ = stop_rx.recv() => break,
+            },
         };
-        let Some(request) = handlers::decode(&shared, to_frames(raw)) else { continue };
-        let sent =
-            chrono::DateTime::parse_from_rfc3339(&request.header.date).ok().map(|d| d.with_timezone(&chrono::Utc));
-        let queued_behind_failure = matches!((failed_at, sent), (Some(f), Some(s)) if s < f);
-        let abort = queued_behind_failure && request.header.msg_type == "execute_request";
-        let (replies, failed_with_stop) = if abort {
-            (vec![handlers::aborted(&shared, &request)], false)
+        let outcome = if abort && request.header.msg_type == "execute_request" {
+            handlers::ShellOutcome {
+                replies: vec![handlers::aborted(&shared, &request)],
+                abort_queued: false,
+                shutdown: false,
+            }
         } else {
             handlers::shell(&shared, &request).await
         };
-        if failed_with_stop {
-            failed_at = Some(chrono::Utc::now());
-        }
-        for reply in replies {
-            if let Some(frames) = to_zmq(reply.encode(&shared.signer)) {
-                let _ = shell.send(frames).await;
+        if outcome.abort_queued {
+            while let Ok(queued) = queue.try_recv() {
+                behind_failure.push_back(queued);
             }
         }
+        for reply in outcome.replies {
+            if let Some(frames) = to_zmq(reply.encode(&shared.signer)) {
+                let _ = shell_send.send(frames).await;
+            }
+        }
+        if outcome.shutdown {
+            break;
+        }
+    }
+
+    // Shutdown: stop the cell process, then wait until the publisher has
+    // sent everything queued.
+    shared.engine.terminate();
+    let (flushed_tx, flushed) = tokio::sync::oneshot::channel();
+    if shared.iopub.send(Outgoing::Flush(flushed_tx)).is_ok() {
+        let _ = flushed.await;
     }
     Ok(())
 }

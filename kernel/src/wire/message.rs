@@ -73,8 +73,10 @@ impl Message {
         let identities = frames[..split].to_vec();
         let signature = &frames[split + 1];
         let parts = [&frames[split + 2][..], &frames[split + 3][..], &frames[split + 4][..], &frames[split + 5][..]];
-        let header: Header = serde_json::from_slice(parts[0])
-            .map_err(|e| WireError::Malformed(format!("header is not valid JSON: {e}")))?;
+        // An object, not the fields as an array (which serde would also accept).
+        let header: Header = serde_json::from_slice::<serde_json::Map<String, Value>>(parts[0])
+            .and_then(|object| serde_json::from_value(Value::Object(object)))
+            .map_err(|e| WireError::Malformed(format!("header is not a valid header object: {e}")))?;
         if !signer.verify(signature, &parts) {
             return Err(WireError::BadSignature(header.msg_type));
         }
