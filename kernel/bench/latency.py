@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Kernel latency benchmark: prints figures, asserts nothing.
 
-Measures, each as median and worst of several runs:
+Measures, each as median and worst of several runs (figures in README, "The notebook kernel"):
   1. kernel start -> kernel_info reply;
   2. first cell using plumbline in a fresh kernel (engine cache already warm);
   3. warm trivial cells (`1 + 1`);

@@ -7,7 +7,7 @@ protocol 5.3 as published by the Jupyter project:
 * crash-proof cells: abort, stack overflow, and a kill from outside each give an
   error reply that names the lost variables; the next cell runs;
 * interrupts act on running cells only; `stop_on_error` aborts what was queued;
-* requests of the wrong shape get error replies; shutdown flushes iopub;
+* requests of the wrong shape get error replies;
 * display ids: a progress display updated in place, and `clear_output`.
 """
 import os
@@ -18,9 +18,9 @@ import pytest
 from jupyter_client.manager import start_new_kernel
 
 from conftest import install_kernelspec
+from kernel_messages import TIMEOUT, collect, kernel_time, run, stream_text
 
 install_kernelspec()
-TIMEOUT = 1800  # the first cell of a fresh engine directory compiles plumbline
 
 
 @pytest.fixture(scope="module")
@@ -31,37 +31,6 @@ def kernel():
     yield km, kc
     kc.stop_channels()
     km.shutdown_kernel(now=True)
-
-
-def run(kc, code, timeout=600, **options):
-    """Sends one execute request; returns (reply, iopub messages of that request until idle)."""
-    msg_id = kc.execute(code, **options)
-    return collect(kc, msg_id, timeout)
-
-
-def collect(kc, msg_id, timeout=600):
-    reply = kc.get_shell_msg(timeout=timeout)
-    while reply["parent_header"].get("msg_id") != msg_id:
-        reply = kc.get_shell_msg(timeout=timeout)
-    messages = []
-    while True:
-        message = kc.get_iopub_msg(timeout=60)
-        if message["parent_header"].get("msg_id") != msg_id:
-            continue
-        messages.append(message)
-        if message["msg_type"] == "status" and message["content"]["execution_state"] == "idle":
-            return reply, messages
-
-
-def stream_text(messages, name="stdout"):
-    return "".join(m["content"]["text"] for m in messages
-                   if m["msg_type"] == "stream" and m["content"]["name"] == name)
-
-
-def kernel_time(message):
-    """The kernel's send time of a message (header `date`, ISO 8601)."""
-    date = message["header"]["date"]
-    return date.timestamp() if hasattr(date, "timestamp") else date
 
 
 def test_ten_thousand_lines_arrive_in_order_before_the_reply(kernel):
@@ -204,47 +173,3 @@ def test_a_progress_display_is_updated_in_place(kernel):
     assert updates[-1]["content"]["data"]["text/plain"].startswith("Folds: 4 of 4 folds (100%)")
     kinds = [m["msg_type"] for m in messages]
     assert kinds.index("clear_output") > kinds.index("stream")
-
-
-def test_a_fresh_kernel_shows_its_preparation_then_runs_the_first_cell():
-    km, kc = start_new_kernel(kernel_name="plumbline", startup_timeout=120)
-    try:
-        reply, messages = run(kc, "21 * 2", timeout=TIMEOUT)
-        assert reply["content"]["status"] == "ok", reply["content"]
-        kinds = [m["msg_type"] for m in messages]
-        # The engine takes seconds to start, so the first cell waits and says so.
-        assert "display_data" in kinds, kinds
-        display_id = messages[kinds.index("display_data")]["content"]["transient"]["display_id"]
-        assert display_id.startswith("plumbline-engine-")
-        last_update = [m for m in messages if m["msg_type"] == "update_display_data"][-1]
-        assert "ready" in last_update["content"]["data"]["text/plain"]
-        assert kinds.index("execute_result") > kinds.index("display_data")
-    finally:
-        kc.stop_channels()
-        km.shutdown_kernel(now=True)
-
-
-def test_shutdown_flushes_iopub_and_ends_the_process():
-    km, kc = start_new_kernel(kernel_name="plumbline", startup_timeout=120)
-    try:
-        reply, _ = run(kc, 'println!("one cell");', timeout=TIMEOUT)
-        assert reply["content"]["status"] == "ok"
-        message = kc.session.msg("shutdown_request", {"restart": False})
-        kc.control_channel.send(message)
-        reply = kc.get_control_msg(timeout=30)
-        assert reply["msg_type"] == "shutdown_reply"
-        idle = None
-        deadline = time.monotonic() + 30
-        while idle is None and time.monotonic() < deadline:
-            m = kc.get_iopub_msg(timeout=30)
-            if m["parent_header"].get("msg_id") == message["header"]["msg_id"] and \
-                    m["msg_type"] == "status" and m["content"]["execution_state"] == "idle":
-                idle = m
-        assert idle is not None, "the shutdown request's idle status was not published"
-        process = km.provisioner.process
-        process.wait(timeout=30)
-        assert process.returncode == 0
-    finally:
-        kc.stop_channels()
-        if km.is_alive():
-            km.shutdown_kernel(now=True)

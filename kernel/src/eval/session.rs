@@ -352,7 +352,7 @@ fn engine_thread(
     for request in inbox {
         match request {
             Request::Execute { code, events } => {
-                let before: Vec<String> = engine.variables_and_types().map(|(n, _)| n.to_string()).collect();
+                let before = user_variables(&engine);
                 pump.begin(events.clone());
                 interrupter.set_running(true);
                 let result = engine.execute(&code);
@@ -379,6 +379,11 @@ fn engine_thread(
             }
         }
     }
+}
+
+/// Names of the variables the user's cells defined (the session's own left out).
+fn user_variables(engine: &evcxr::CommandContext) -> Vec<String> {
+    engine.variables_and_types().map(|(n, _)| n.to_string()).filter(|n| !n.starts_with(WARM_PREFIX)).collect()
 }
 
 /// The outcome of one cell from the engine's result and what the pump saw.
@@ -434,7 +439,7 @@ fn cell_outcome(
         }
         Err(evcxr::Error::SubprocessTerminated(reason)) => {
             let termination = Termination::classify(&reason, interrupted, signals.aborted);
-            let after: Vec<String> = engine.variables_and_types().map(|(n, _)| n.to_string()).collect();
+            let after = user_variables(engine);
             let lost: Vec<String> = before.iter().filter(|n| !after.contains(n)).cloned().collect();
             let kept: Vec<String> = before.iter().filter(|n| after.contains(n)).cloned().collect();
             let mut last_lines = signals.recent_stderr.clone();
@@ -523,35 +528,50 @@ fn start_engine(
         ":dep plumbline = {{ path = \"{}\", package = \"{SHARED_LIBRARY_PACKAGE}\" }}",
         shared_library.display().to_string().replace('\\', "/")
     ));
-    prelude.push("use plumbline::prelude::*;".into());
-    // The `:dep` line compiles plumbline inside the engine the first time;
-    // its progress is what people wait for.
-    let run_prelude = |engine: &mut evcxr::CommandContext| -> Result<(), String> {
+    // One cell (each cell costs a compile and a load):
+    // * the prelude `use`, and the panic hook (see `panic_hook_cell`);
+    // * a `?`: the engine enables `?` in cells only after a first compile
+    //   error caused by one, and if that first `?` sits in a cell's final
+    //   expression the engine also drops that cell's rich display for plain
+    //   `Debug` text. Paying that retry here keeps every user cell rich;
+    // * a variable whose type the engine must infer from plumbline's own
+    //   types: that loads plumbline and polars into the engine's type
+    //   inference now, not in the user's first cell.
+    let warm = format!(
+        "use plumbline::prelude::*;\n{}\nlet {WARM_PREFIX}ready: bool = \"true\".parse::<bool>()?;\n\
+         let {WARM_PREFIX}frame = Frame::from_dataframe(Default::default(), \"engine warm-up\");",
+        panic_hook_cell()
+    );
+    // The first time, these compile plumbline inside the engine; that
+    // progress is what people wait for.
+    let prepare = |engine: &mut evcxr::CommandContext| -> Result<(), String> {
         for command in &prelude {
             engine.execute(command).map_err(|e| format!("preparing the session failed at `{command}`: {e}"))?;
         }
+        observer(&Preparation::Loading);
+        engine.execute(&warm).map_err(|e| format!("preparing the session failed at the warm-up cell: {e}"))?;
         Ok(())
     };
     let engine_target = config.build_dir.join("work").join("target");
-    watch_compilation(&engine_target, Arc::clone(&observer), || run_prelude(&mut engine))?;
-    observer(&Preparation::Loading);
-    install_cell_process_hooks(&mut engine)?;
-    // A `?` in the prelude: the engine enables `?` in cells only after a first
-    // compile error caused by one, and if that first `?` sits in a cell's final
-    // expression the engine also drops that cell's rich display for plain
-    // `Debug` text. Paying that retry here keeps every user cell rich. It also
-    // binds a variable, which warms the engine's type inference.
-    let warm = "let plumbline_session_ready: bool = \"true\".parse::<bool>()?;";
-    engine.execute(warm).map_err(|e| format!("preparing the session failed at `{warm}`: {e}"))?;
+    watch_compilation(&engine_target, Arc::clone(&observer), || prepare(&mut engine))?;
     interrupter.set_process(engine.process_handle());
     Ok((engine, pump))
+}
+
+/// Prefix of the session's own variables (warm-up), left out of the lists
+/// of lost and kept variables people read.
+const WARM_PREFIX: &str = "plumbline_session_";
+
+/// The statement that makes the cell process report a panic as
+/// [`PANIC_MIME`] content.
+fn panic_hook_cell() -> String {
+    format!(
+        "std::panic::set_hook(Box::new(|info| {{ println!(\"EVCXR_BEGIN_CONTENT {PANIC_MIME}\\n{{}}\\nEVCXR_END_CONTENT\", info); }}));"
+    )
 }
 
 /// Installs, in the cell process, the panic hook that reports a panic as
 /// [`PANIC_MIME`] content. Needed again whenever that process restarts.
 fn install_cell_process_hooks(engine: &mut evcxr::CommandContext) -> Result<(), String> {
-    let hook = format!(
-        "std::panic::set_hook(Box::new(|info| {{ println!(\"EVCXR_BEGIN_CONTENT {PANIC_MIME}\\n{{}}\\nEVCXR_END_CONTENT\", info); }}));"
-    );
-    engine.execute(&hook).map(|_| ()).map_err(|e| format!("installing the panic hook failed: {e}"))
+    engine.execute(&panic_hook_cell()).map(|_| ()).map_err(|e| format!("installing the panic hook failed: {e}"))
 }

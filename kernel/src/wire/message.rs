@@ -178,4 +178,31 @@ mod tests {
         ];
         assert!(matches!(Message::decode(frames, &signer), Err(WireError::Malformed(_))));
     }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(2000))]
+
+        /// Any frames decode or are refused, never panic; what decodes
+        /// encodes and decodes to the same message (the fuzz target's
+        /// contract, bounded).
+        #[test]
+        fn any_frames_decode_or_are_refused(
+            frames in proptest::collection::vec(proptest::collection::vec(proptest::prelude::any::<u8>(), 0..48), 0..9),
+            json_parts in proptest::collection::vec("[{}\\[\\]\":a-z0-9,_ ]{0,40}", 4),
+            resign in proptest::prelude::any::<bool>(),
+        ) {
+            let signer = Signer::new("key");
+            let _ = Message::decode(frames, &signer);
+            // Frames shaped like a message, with random JSON-ish parts.
+            let parts: Vec<&[u8]> = json_parts.iter().map(|p| p.as_bytes()).collect();
+            let signature = if resign { signer.sign(&parts).into_bytes() } else { b"00".to_vec() };
+            let mut shaped = vec![DELIMITER.to_vec(), signature];
+            shaped.extend(json_parts.iter().map(|p| p.as_bytes().to_vec()));
+            if let Ok(message) = Message::decode(shaped, &signer) {
+                let again = Message::decode(message.encode(&signer), &signer).expect("re-encoded");
+                proptest::prop_assert_eq!(again.header, message.header);
+                proptest::prop_assert_eq!(again.content, message.content);
+            }
+        }
+    }
 }
