@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Runs every Plumbline test: Rust unit, integration, property, accuracy and
 # kernel-protocol tests, then the Python cross-checks (numpy/scipy/mpmath) and
-# the protocol conformance suite (jupyter_kernel_test, jupyter_client, nbclient).
+# the protocol conformance suite (jupyter_kernel_test, jupyter_client, nbclient)
+# and the browser test (JupyterLab in headless chromium through Playwright).
 # This is the command README.md names and .ci/run calls. Idempotent; needs only
 # a Rust toolchain and Python 3 (and installs Debian's chromium and postgresql
 # when root); starts a throwaway PostgreSQL server for the database tests.
@@ -12,7 +13,7 @@ source install/lib.sh
 require_rust
 require_python
 python_env
-step "installing the Python references (numpy, scipy, pytest, mpmath, pillow, jupyter_client, nbclient…)"
+step "installing the Python references and front ends (numpy, scipy, pytest, mpmath, pillow, jupyter_client, nbclient, JupyterLab, Playwright…)"
 "$PY" -m pip install --quiet --disable-pip-version-check -r tests/python/requirements.txt
 
 check_reference_data

@@ -8,7 +8,7 @@
 
 use libfuzzer_sys::fuzz_target;
 
-#[allow(dead_code)]
+#[allow(dead_code, unused_imports)]
 #[path = "../../src/wire/mod.rs"]
 mod wire;
 

@@ -40,7 +40,8 @@ impl Preparation {
             Self::Starting => format!("Starting the evaluation engine… ({})", clock(elapsed)),
             Self::Compiling { crates, current } => format!(
                 "Compiling plumbline for the evaluation engine — once per installation, several minutes: \
-                 {crates} crates compiled, now {current} ({})",
+                 {crates} {} compiled, now {current} ({})",
+                if *crates == 1 { "crate" } else { "crates" },
                 clock(elapsed)
             ),
             Self::Loading => format!("Loading plumbline into the evaluation engine… ({})", clock(elapsed)),
@@ -135,6 +136,9 @@ fn built_libraries(target_dir: &Path) -> (usize, Option<String>) {
         for entry in entries.flatten() {
             let name = entry.file_name().to_string_lossy().into_owned();
             let Some(stem) = library_stem(&name) else { continue };
+            if crate_of_stem(stem) == CELL_CRATE {
+                continue;
+            }
             if stems.insert(stem.to_string()) {
                 let modified = entry.metadata().and_then(|m| m.modified()).ok();
                 if let Some(time) = modified {
@@ -147,6 +151,9 @@ fn built_libraries(target_dir: &Path) -> (usize, Option<String>) {
     }
     (stems.len(), newest.map(|(_, name)| name))
 }
+
+/// The crate the engine compiles each cell into (not a dependency).
+const CELL_CRATE: &str = "ctx";
 
 /// `libpolars_core-0a1b2c` out of `libpolars_core-0a1b2c.rmeta` (or `.so`).
 fn library_stem(file: &str) -> Option<&str> {
