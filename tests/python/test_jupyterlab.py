@@ -114,9 +114,21 @@ def cell(page, index):
 
 
 def run_cell(page, index):
-    """Selects cell `index` and runs it with Shift+Enter."""
-    cell(page, index).locator(".jp-InputArea-editor").click()
-    page.keyboard.press("Shift+Enter")
+    """Selects cell `index` and runs it with Shift+Enter, pressing again if the
+    front end did not take the key (its prompt stays `[ ]:`)."""
+    prompt = cell(page, index).locator(".jp-InputPrompt")
+    for _ in range(5):
+        cell(page, index).locator(".jp-InputArea-editor").click()
+        page.keyboard.press("Shift+Enter")
+        try:
+            page.wait_for_function(
+                "(i) => { const p = document.querySelectorAll('.jp-Notebook .jp-Cell')[i]"
+                ".querySelector('.jp-InputPrompt'); return p && !/\\[\\s*\\]/.test(p.innerText); }",
+                arg=index, timeout=10_000)
+            return
+        except playwright_api.TimeoutError:
+            continue
+    pytest.fail(f"JupyterLab did not run cell {index + 1} (prompt: {prompt.inner_text()!r})", pytrace=False)
 
 
 def toolbar(page, command):
@@ -137,6 +149,8 @@ def test_a_study_notebook_in_jupyterlab(lab):
         page = browser.new_page(viewport={"width": 1400, "height": 1800})
         page.goto(f"{url}/lab/tree/study.ipynb?token={token}")
         page.wait_for_selector(".jp-Notebook .jp-Cell", timeout=120_000)
+        # The kernel is connected when the status bar names it as idle.
+        page.wait_for_selector(".jp-StatusBar-Widget:has-text('Plumbline (Rust) | Idle')", timeout=120_000)
         wait_idle(page)
 
         # Cells 1-4: the last one fails, as a `?` on bad input does.
