@@ -27,7 +27,7 @@ mod termination;
 
 pub use display::{display_command, DisplayCommand};
 pub use preparation::{Preparation, PreparationObserver};
-pub use runtime_relay::{relay_cell_process_output, CELL_ERROR_MARKER};
+pub use runtime_relay::relay_cell_process_output;
 pub use session::{
     export_engine_environment, CellError, CellEvent, CompleteOutcome, EngineConfig, ExecOutcome, Interrupter, Session,
     StreamLine,
