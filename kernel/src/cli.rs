@@ -402,8 +402,12 @@ pub enum TierByArg {
 #[derive(Debug, Args)]
 pub struct KernelArgs {
     /// The connection file written by the front end.
-    #[arg(long)]
-    pub connection_file: PathBuf,
+    #[arg(long, required_unless_present = "standby")]
+    pub connection_file: Option<PathBuf>,
+    /// Prepare an engine and wait for the next kernel to hand its connection
+    /// file over (started by kernels themselves; see README, "Standby kernels").
+    #[arg(long, hide = true, conflicts_with = "connection_file")]
+    pub standby: bool,
 }
 
 /// Arguments of `plumbline install`.

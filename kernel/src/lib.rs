@@ -13,10 +13,12 @@
 //! | [`wire`] | connection file, framing, HMAC signing |
 //! | [`server`] | the five sockets and every request |
 //! | [`eval`] | the evcxr session with `plumbline` preloaded |
+//! | [`standby`] | standby kernels: an engine prepared ahead for the next kernel |
 
 pub mod cli;
 pub mod commands;
 pub mod eval;
 pub mod notebook;
 pub mod server;
+pub mod standby;
 pub mod wire;

@@ -12,14 +12,28 @@ fn main() -> ExitCode {
     plumbline_kernel::eval::relay_cell_process_output();
     evcxr::runtime_hook();
     let cli = Cli::parse();
-    // Commands that start the engine put its settings into the environment
-    // now, while this process is still single-threaded.
+    // A kernel first offers its notebook to a standby kernel prepared ahead;
+    // if one takes it, this process only accompanies it.
+    if let Command::Kernel(args) = &cli.command {
+        if let Some(outcome) = commands::kernel::hand_over_to_standby(args) {
+            return finish(outcome);
+        }
+    }
+    let launch_environment = plumbline_kernel::standby::environment_now();
+    // Commands that start the engine claim a work folder of their own and put
+    // the engine's settings into the environment now, while this process is
+    // still single-threaded.
     if matches!(cli.command, Command::Kernel(_) | Command::Install(_) | Command::Run(_)) {
+        let build_dir = plumbline_kernel::eval::EngineConfig::from_environment().build_dir;
+        if let Err(e) = plumbline_kernel::eval::work_slots::claim_for_process(&build_dir) {
+            eprintln!("error: {e}");
+            return ExitCode::FAILURE;
+        }
         let config = plumbline_kernel::eval::EngineConfig::from_environment();
         plumbline_kernel::eval::export_engine_environment(&config);
     }
     let outcome = match cli.command {
-        Command::Kernel(args) => commands::kernel::run(&args),
+        Command::Kernel(args) => commands::kernel::run(&args, launch_environment),
         Command::Install(args) => commands::install::run(&args),
         Command::Fit(args) => commands::fit::run(&args),
         Command::Compare(args) => commands::compare::run(&args),
@@ -29,6 +43,11 @@ fn main() -> ExitCode {
         Command::Diff(args) => commands::diff::run(&args),
         Command::Accuracy(args) => commands::accuracy::run(&args),
     };
+    finish(outcome)
+}
+
+/// Prints a command's output (or its error) and gives the exit code.
+fn finish(outcome: Result<String, commands::CommandError>) -> ExitCode {
     match outcome {
         Ok(text) => {
             // A reader that closed the pipe early (`plumbline fit … | head`)

@@ -21,6 +21,9 @@ NIST = REFERENCE / "nist-strd"
 # compiled at optimisation level 0 (install/test.sh warms it first).
 os.environ.setdefault("PLUMBLINE_ENGINE_DIR", str(REPO / "target" / "engine-test"))
 os.environ.setdefault("PLUMBLINE_ENGINE_OPT", "0")
+# Standby kernels are off, so that each test's kernel prepares its own engine
+# as a fresh one does; test_kernel_standby.py turns them on for its kernels.
+os.environ["PLUMBLINE_STANDBY"] = "off"
 
 
 def require_nist(name):

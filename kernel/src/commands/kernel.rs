@@ -1,20 +1,163 @@
-//! `plumbline kernel --connection-file F`: what the kernelspec starts.
+//! `plumbline kernel --connection-file F`: what the kernelspec starts; and
+//! `plumbline kernel --standby`, the kernel prepared ahead for the next one
+//! (see `crate::standby`).
+//!
+//! The order of a kernel's start matters, and `main` keeps it:
+//! 1. [`hand_over_to_standby`]: offer `F` to a waiting standby, before this
+//!    process starts a thread or claims a work slot. If one takes it, this
+//!    process only accompanies it.
+//! 2. Otherwise `main` claims a work slot and sets the engine's environment
+//!    (single-threaded still), then [`run`] serves with an engine of its own.
 
 use super::CommandError;
 use crate::cli::KernelArgs;
+use crate::eval::EngineConfig;
+use crate::server::PreparedEngine;
+use crate::standby;
 use crate::wire::ConnectionFile;
+use std::collections::BTreeMap;
 
-/// Serves the notebook protocol until shutdown.
-pub fn run(args: &KernelArgs) -> Result<String, CommandError> {
-    let connection = ConnectionFile::read(&args.connection_file).map_err(|e| CommandError::Usage(e.to_string()))?;
+/// Offers the connection file to a waiting standby kernel; `Some` (the
+/// command's outcome) when one took it and has since ended.
+pub fn hand_over_to_standby(args: &KernelArgs) -> Option<Result<String, CommandError>> {
+    let connection_file = args.connection_file.as_ref()?;
+    if !standby::enabled() {
+        return None;
+    }
+    let build_dir = EngineConfig::from_environment().build_dir;
+    let adopted = standby::offer(&build_dir, connection_file)?;
+    // This kernel's engine is the standby's; the next kernel gets a new one.
+    standby::start_one(&build_dir);
+    Some(
+        adopted
+            .accompany()
+            .map(|()| String::new())
+            .map_err(|e| CommandError::Runtime(format!("lost the standby kernel: {e}"))),
+    )
+}
+
+/// Serves the notebook protocol until shutdown, with an engine of this
+/// process (`--connection-file`), or waits as a standby (`--standby`).
+/// `launch_environment` is the environment this process started with,
+/// before `main` set the engine's variables.
+pub fn run(args: &KernelArgs, launch_environment: BTreeMap<String, String>) -> Result<String, CommandError> {
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .worker_threads(2)
         .enable_all()
         .build()
         .map_err(|e| CommandError::Runtime(format!("cannot start the async runtime: {e}")))?;
-    let served = runtime.block_on(crate::server::serve(connection));
+    let served = match &args.connection_file {
+        Some(path) => {
+            let connection = ConnectionFile::read(path).map_err(|e| CommandError::Usage(e.to_string()))?;
+            runtime.block_on(async {
+                let engine = PreparedEngine::start();
+                // Once this engine is ready, prepare one for the next kernel.
+                let ready = engine.preparation_watch();
+                tokio::spawn(async move {
+                    if PreparedEngine::settled_in(ready).await.is_ok() {
+                        standby::start_one(&EngineConfig::from_environment().build_dir);
+                    }
+                });
+                crate::server::serve(connection, engine, None).await
+            })
+        }
+        None => runtime.block_on(wait_as_standby(launch_environment)),
+    };
     // Tasks still blocked on sockets or on the engine thread end with the process.
     runtime.shutdown_background();
     served.map_err(|e| CommandError::Runtime(e.to_string()))?;
     Ok(String::new())
+}
+
+/// The standby's life: prepare, wait for a launcher, serve its notebook.
+async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result<(), crate::server::ServeError> {
+    let config = EngineConfig::from_environment();
+    let Ok(Some(role)) = standby::WaitingRole::take(&config.build_dir) else {
+        eprintln!("plumbline standby: another standby kernel waits already; ending");
+        return Ok(());
+    };
+    let Some(slot) = crate::eval::work_slots::process_slot() else {
+        eprintln!("plumbline standby: no work slot claimed; ending");
+        return Ok(());
+    };
+    let program = match standby::ProgramIdentity::current() {
+        Ok(program) => program,
+        Err(e) => {
+            eprintln!("plumbline standby: cannot read this program's file: {e}; ending");
+            return Ok(());
+        }
+    };
+    let engine = PreparedEngine::start();
+    let mut listener = match standby::StandbyListener::bind(&config.build_dir, slot.index(), role) {
+        Ok(listener) => listener,
+        Err(e) => {
+            eprintln!("plumbline standby: cannot listen for kernels: {e}; ending");
+            engine.session.terminate();
+            return Ok(());
+        }
+    };
+    eprintln!("plumbline standby {}: preparing in {}", std::process::id(), config.work_dir.display());
+    let log_ready = engine.preparation_watch();
+    tokio::spawn(async move {
+        match PreparedEngine::settled_in(log_ready).await {
+            Ok(after) => eprintln!("plumbline standby: ready (prepared in {:.1} s)", after.as_secs_f64()),
+            Err(message) => eprintln!("plumbline standby: preparation failed: {message}"),
+        }
+    });
+    let handover = match listener.wait(&program, &launch_environment).await {
+        Ok(Some(handover)) => handover,
+        Ok(None) => {
+            eprintln!("plumbline standby: retiring (idle limit reached, or plumbline was reinstalled)");
+            engine.session.terminate();
+            return Ok(());
+        }
+        Err(e) => {
+            eprintln!("plumbline standby: the standby socket failed: {e}; ending");
+            engine.session.terminate();
+            return Ok(());
+        }
+    };
+    // No other launcher may reach this standby now.
+    drop(listener);
+    let request = handover.request;
+    eprintln!("plumbline standby: serving {}", request.connection_file.display());
+    let connection = match ConnectionFile::read(&request.connection_file) {
+        Ok(connection) => connection,
+        Err(e) => {
+            eprintln!("plumbline standby: {e}; ending");
+            engine.session.terminate();
+            return Ok(());
+        }
+    };
+    move_to(&engine, &request.working_directory);
+    // The launcher's line `interrupt` interrupts; its end ends this kernel.
+    let (ended_tx, ended_rx) = tokio::sync::oneshot::channel();
+    let interrupter = engine.session.interrupter();
+    tokio::spawn(async move {
+        use tokio::io::AsyncBufReadExt;
+        let mut lines = tokio::io::BufReader::new(handover.stream).lines();
+        while let Ok(Some(line)) = lines.next_line().await {
+            if line.trim() == "interrupt" {
+                interrupter.interrupt();
+            }
+        }
+        let _ = ended_tx.send(());
+    });
+    crate::server::serve(connection, engine, Some(ended_rx)).await
+}
+
+/// Moves this process, and the cell process of its engine, to the
+/// launcher's working directory (cells read relative paths from there). The
+/// cell process moves through a cell queued ahead of every notebook cell.
+fn move_to(engine: &PreparedEngine, directory: &std::path::Path) {
+    if std::env::current_dir().ok().as_deref() == Some(directory) {
+        return;
+    }
+    if let Err(e) = std::env::set_current_dir(directory) {
+        eprintln!("plumbline standby: cannot move to {}: {e}", directory.display());
+        return;
+    }
+    // A `{:?}` of a string is a valid Rust string literal.
+    let cell = format!("std::env::set_current_dir({:?}).ok();", directory.to_string_lossy());
+    let _events = engine.session.execute(&cell);
 }

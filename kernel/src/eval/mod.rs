@@ -15,6 +15,7 @@
 //! | `termination` | why the cell process ended, and what was lost |
 //! | [`preparation`] | progress of the engine's first build and start |
 //! | [`display`] | typed display commands from `plumbline::render` |
+//! | [`work_slots`] | one work folder per running engine, claimed by lock |
 
 pub mod completeness;
 pub mod diagnostics;
@@ -24,13 +25,14 @@ pub mod preparation;
 mod runtime_relay;
 mod session;
 mod termination;
+pub mod work_slots;
 
 pub use display::{display_command, DisplayCommand};
 pub use preparation::{Preparation, PreparationObserver};
 pub use runtime_relay::relay_cell_process_output;
 pub use session::{
     export_engine_environment, CellError, CellEvent, CompleteOutcome, EngineConfig, ExecOutcome, Interrupter, Session,
-    StreamLine,
+    StreamLine, ENGINE_VARIABLES,
 };
 
 use serde_json::{Map, Value};

@@ -24,6 +24,9 @@ pub enum Preparation {
         /// The crate being compiled now.
         current: String,
     },
+    /// Copying the first engine's build into this engine's own work folder
+    /// (once per work folder, see `work_slots`).
+    CopyingBuild,
     /// Loading `plumbline` and warming type inference.
     Loading,
     /// Ready for cells, after this long.
@@ -42,6 +45,10 @@ impl Preparation {
                 "Compiling plumbline for the evaluation engine — once per installation, several minutes: \
                  {crates} {} compiled, now {current} ({})",
                 if *crates == 1 { "crate" } else { "crates" },
+                clock(elapsed)
+            ),
+            Self::CopyingBuild => format!(
+                "Copying the evaluation engine's build for a second engine — once per engine folder… ({})",
                 clock(elapsed)
             ),
             Self::Loading => format!("Loading plumbline into the evaluation engine… ({})", clock(elapsed)),

@@ -30,6 +30,8 @@ pub struct EngineConfig {
     /// The engine's build directory (kept between kernels so the dependency
     /// build happens once).
     pub build_dir: PathBuf,
+    /// This engine's own work folder under `build_dir` (see `work_slots`).
+    pub work_dir: PathBuf,
     /// Optimisation level of cells and dependencies (`0`–`3`); `None` keeps the
     /// engine's default (2).
     pub opt_level: Option<String>,
@@ -39,7 +41,8 @@ impl EngineConfig {
     /// The defaults: the analysis crate this kernel was built from (or
     /// `$PLUMBLINE_ANALYSIS_PATH`), the build directory
     /// `$PLUMBLINE_ENGINE_DIR` or `~/.cache/plumbline/engine-<version>`, and
-    /// `$PLUMBLINE_ENGINE_OPT` as the optimisation level. Paths are absolute.
+    /// `$PLUMBLINE_ENGINE_OPT` as the optimisation level, and the work slot
+    /// this process claimed (`work` when it claimed none). Paths are absolute.
     pub fn from_environment() -> Self {
         let analysis_path = std::env::var_os("PLUMBLINE_ANALYSIS_PATH")
             .map(PathBuf::from)
@@ -55,9 +58,14 @@ impl EngineConfig {
         });
         let build_dir = absolute(build_dir);
         let opt_level = std::env::var("PLUMBLINE_ENGINE_OPT").ok().filter(|s| !s.is_empty());
-        Self { analysis_path, build_dir, opt_level }
+        let work_dir = super::work_slots::process_slot().map_or_else(|| build_dir.join("work"), |slot| slot.path());
+        Self { analysis_path, build_dir, work_dir, opt_level }
     }
 }
+
+/// The variables [`export_engine_environment`] sets: whatever a process
+/// inherited under these names is replaced by its own engine's settings.
+pub const ENGINE_VARIABLES: [&str; 3] = ["EVCXR_TMPDIR", "EVCXR_CONFIG_DIR", plumbline::render::KERNEL_DISPLAY_ENV];
 
 /// Puts the engine's settings into this process's environment, where the
 /// engine reads them when it starts and the cell process inherits them:
@@ -70,9 +78,10 @@ pub fn export_engine_environment(config: &EngineConfig) {
     // SAFETY: `main` calls this while the process is single-threaded (the
     // contract above), so no other thread reads the environment meanwhile.
     unsafe {
-        std::env::set_var("EVCXR_TMPDIR", config.build_dir.join("work"));
-        std::env::set_var("EVCXR_CONFIG_DIR", config.build_dir.join("config"));
-        std::env::set_var(plumbline::render::KERNEL_DISPLAY_ENV, "1");
+        let [tmpdir, config_dir, display] = ENGINE_VARIABLES;
+        std::env::set_var(tmpdir, &config.work_dir);
+        std::env::set_var(config_dir, config.build_dir.join("config"));
+        std::env::set_var(display, "1");
     }
 }
 
@@ -515,6 +524,10 @@ fn start_engine(
     let config_dir = config.build_dir.join("config");
     std::fs::create_dir_all(&config_dir)
         .map_err(|e| format!("cannot create the engine settings directory `{}`: {e}", config_dir.display()))?;
+    if let Some(slot) = super::work_slots::process_slot().filter(|slot| slot.needs_copy()) {
+        observer(&Preparation::CopyingBuild);
+        slot.copy_primary_build().map_err(|e| e.to_string())?;
+    }
     let (eval_context, outputs) =
         evcxr::EvalContext::new().map_err(|e| format!("the evaluation engine did not start: {e}"))?;
     let mut engine = evcxr::CommandContext::with_eval_context(eval_context);
@@ -552,7 +565,7 @@ fn start_engine(
         engine.execute(&warm).map_err(|e| format!("preparing the session failed at the warm-up cell: {e}"))?;
         Ok(())
     };
-    let engine_target = config.build_dir.join("work").join("target");
+    let engine_target = config.work_dir.join("target");
     watch_compilation(&engine_target, Arc::clone(&observer), || prepare(&mut engine))?;
     interrupter.set_process(engine.process_handle());
     Ok((engine, pump))

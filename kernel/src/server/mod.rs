@@ -68,7 +68,7 @@ pub(crate) struct Shared {
     pub latest_cell: Mutex<Option<Message>>,
     /// Where the engine's preparation stands.
     pub preparation: tokio::sync::watch::Receiver<Preparation>,
-    /// When this kernel started.
+    /// When the engine started preparing.
     pub started: Instant,
     /// `rustc --version`, asked once.
     pub rustc_version: OnceLock<String>,
@@ -116,9 +116,59 @@ async fn bind<S: Socket>(socket: &mut S, endpoint: String) -> Result<(), ServeEr
     socket.bind(&endpoint).await.map(|_| ()).map_err(|e| ServeError::Bind { endpoint, reason: e.to_string() })
 }
 
-/// Serves the protocol on the connection file's sockets until a shutdown
-/// request; then stops the cell process and flushes iopub before returning.
-pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
+/// An engine session, preparing or ready, with the channels the server reads.
+pub struct PreparedEngine {
+    /// The session (its engine thread prepares from the start).
+    pub session: Arc<Session>,
+    /// Where the preparation stands.
+    preparation: tokio::sync::watch::Receiver<Preparation>,
+    /// Lines printed while no cell runs.
+    stray: tokio::sync::mpsc::UnboundedReceiver<StreamLine>,
+    /// When the engine started.
+    started: Instant,
+}
+
+impl PreparedEngine {
+    /// Starts the engine thread with the settings of this process
+    /// ([`EngineConfig::from_environment`]); it prepares from now on.
+    pub fn start() -> Self {
+        let (preparation_tx, preparation) = tokio::sync::watch::channel(Preparation::Starting);
+        let observer: Arc<crate::eval::PreparationObserver> = Arc::new(move |state: &Preparation| {
+            preparation_tx.send_replace(state.clone());
+        });
+        let (stray_tx, stray) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
+        let session = Arc::new(Session::start(EngineConfig::from_environment(), stray_tx, observer));
+        Self { session, preparation, stray, started: Instant::now() }
+    }
+
+    /// A receiver of the preparation's progress, for [`Self::settled_in`].
+    pub fn preparation_watch(&self) -> tokio::sync::watch::Receiver<Preparation> {
+        self.preparation.clone()
+    }
+
+    /// Waits until the preparation seen by `watch` is over: how long it
+    /// took, or why it failed.
+    pub async fn settled_in(
+        mut watch: tokio::sync::watch::Receiver<Preparation>,
+    ) -> Result<std::time::Duration, String> {
+        let state = watch.wait_for(Preparation::is_settled).await.map_err(|e| e.to_string())?.clone();
+        match state {
+            Preparation::Ready(after) => Ok(after),
+            Preparation::Failed(message) => Err(message),
+            other => Err(format!("the preparation stopped at {other:?}")),
+        }
+    }
+}
+
+/// Serves the protocol on the connection file's sockets with `engine` until
+/// a shutdown request, or until `ended_elsewhere` fires (a standby's
+/// launcher went away); then stops the cell process and flushes iopub
+/// before returning.
+pub async fn serve(
+    connection: ConnectionFile,
+    engine: PreparedEngine,
+    ended_elsewhere: Option<tokio::sync::oneshot::Receiver<()>>,
+) -> Result<(), ServeError> {
     let signer = Signer::new(&connection.key);
     let session_id = uuid::Uuid::new_v4().to_string();
     let mut shell = RouterSocket::new();
@@ -160,14 +210,7 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
         }
     });
 
-    // The engine, preparing from now on; its progress goes to a watch channel.
-    let started = Instant::now();
-    let (preparation_tx, preparation_rx) = tokio::sync::watch::channel(Preparation::Starting);
-    let observer: Arc<crate::eval::PreparationObserver> = Arc::new(move |state: &Preparation| {
-        preparation_tx.send_replace(state.clone());
-    });
-    let (stray_tx, mut stray_rx) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
-    let engine = Arc::new(Session::start(EngineConfig::from_environment(), stray_tx, observer));
+    let PreparedEngine { session: engine, preparation: preparation_rx, stray: mut stray_rx, started } = engine;
     let shared = Arc::new(Shared {
         signer: signer.clone(),
         session_id,
@@ -200,8 +243,18 @@ pub async fn serve(connection: ConnectionFile) -> Result<(), ServeError> {
         }
     });
 
-    // Either loop may end the kernel.
+    // Either loop may end the kernel, and so may the end of a launcher.
     let (stop_tx, mut stop_rx) = tokio::sync::mpsc::channel::<()>(2);
+    if let Some(ended) = ended_elsewhere {
+        let stop = stop_tx.clone();
+        let engine = shared.engine.clone();
+        tokio::spawn(async move {
+            if ended.await.is_ok() {
+                engine.terminate();
+                let _ = stop.send(()).await;
+            }
+        });
+    }
 
     // Control, on its own task.
     let control_shared = shared.clone();
