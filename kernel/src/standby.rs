@@ -6,7 +6,8 @@
 //! behind `plumbline` (polars and ~360 crates), which it does again in every
 //! new process. None of it can be saved to disk; it can be done ahead.
 //!
-//! So a kernel, once its own engine is ready, starts one **standby kernel**:
+//! So a kernel, once its engine is ready and its first cell answered (or 30 s
+//! passed without one), starts one **standby kernel**:
 //! `plumbline kernel --standby`, a kernel process with no connection file,
 //! which claims a work slot of its own (`eval::work_slots`), prepares its
 //! engine and waits, for at most `PLUMBLINE_STANDBY_IDLE_MINUTES` (30), on a
@@ -177,8 +178,12 @@ pub struct WaitingRole {
 impl WaitingRole {
     /// Takes the role; `Ok(None)` when another standby holds it.
     pub fn take(build_dir: &Path) -> std::io::Result<Option<Self>> {
+        use std::os::unix::fs::PermissionsExt;
         let dir = standby_dir(build_dir);
         std::fs::create_dir_all(&dir)?;
+        // Only this user may reach a standby (a hand-over carries the
+        // notebook's signing key, through the connection file's path).
+        std::fs::set_permissions(&dir, std::fs::Permissions::from_mode(0o700))?;
         let lock = File::options().create(true).truncate(false).write(true).open(dir.join("waiting.lock"))?;
         match lock.try_lock() {
             Ok(()) => Ok(Some(Self { _lock: lock })),

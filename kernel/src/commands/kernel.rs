@@ -12,7 +12,7 @@
 use super::CommandError;
 use crate::cli::KernelArgs;
 use crate::eval::EngineConfig;
-use crate::server::PreparedEngine;
+use crate::server::{PreparedEngine, ServeHooks};
 use crate::standby;
 use crate::wire::ConnectionFile;
 use std::collections::BTreeMap;
@@ -26,8 +26,6 @@ pub fn hand_over_to_standby(args: &KernelArgs) -> Option<Result<String, CommandE
     }
     let build_dir = EngineConfig::from_environment().build_dir;
     let adopted = standby::offer(&build_dir, connection_file)?;
-    // This kernel's engine is the standby's; the next kernel gets a new one.
-    standby::start_one(&build_dir);
     Some(
         adopted
             .accompany()
@@ -51,14 +49,10 @@ pub fn run(args: &KernelArgs, launch_environment: BTreeMap<String, String>) -> R
             let connection = ConnectionFile::read(path).map_err(|e| CommandError::Usage(e.to_string()))?;
             runtime.block_on(async {
                 let engine = PreparedEngine::start();
-                // Once this engine is ready, prepare one for the next kernel.
-                let ready = engine.preparation_watch();
-                tokio::spawn(async move {
-                    if PreparedEngine::settled_in(ready).await.is_ok() {
-                        standby::start_one(&EngineConfig::from_environment().build_dir);
-                    }
-                });
-                crate::server::serve(connection, engine, None).await
+                let (answered_tx, answered) = tokio::sync::oneshot::channel();
+                start_next_standby_later(&engine, answered);
+                let hooks = ServeHooks { first_cell_answered: Some(answered_tx), ..ServeHooks::default() };
+                crate::server::serve(connection, engine, hooks).await
             })
         }
         None => runtime.block_on(wait_as_standby(launch_environment)),
@@ -97,14 +91,28 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
         }
     };
     eprintln!("plumbline standby {}: preparing in {}", std::process::id(), config.work_dir.display());
-    let log_ready = engine.preparation_watch();
-    tokio::spawn(async move {
-        match PreparedEngine::settled_in(log_ready).await {
-            Ok(after) => eprintln!("plumbline standby: ready (prepared in {:.1} s)", after.as_secs_f64()),
-            Err(message) => eprintln!("plumbline standby: preparation failed: {message}"),
+    let preparation = engine.preparation_watch();
+    let prepared = async move {
+        match PreparedEngine::settled_in(preparation).await {
+            Ok(after) => {
+                eprintln!("plumbline standby: ready (prepared in {:.1} s)", after.as_secs_f64());
+                // Ready: wait on, for as long as the listener does.
+                std::future::pending::<String>().await
+            }
+            Err(message) => message,
         }
-    });
-    let handover = match listener.wait(&program, &launch_environment).await {
+    };
+    let waited = tokio::select! {
+        waited = listener.wait(&program, &launch_environment) => waited,
+        // A standby whose engine failed serves no one: the next kernel
+        // should try a fresh engine of its own.
+        message = prepared => {
+            eprintln!("plumbline standby: preparation failed: {message}; ending");
+            engine.session.terminate();
+            return Ok(());
+        }
+    };
+    let handover = match waited {
         Ok(Some(handover)) => handover,
         Ok(None) => {
             eprintln!("plumbline standby: retiring (idle limit reached, or plumbline was reinstalled)");
@@ -143,7 +151,29 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
         }
         let _ = ended_tx.send(());
     });
-    crate::server::serve(connection, engine, Some(ended_rx)).await
+    let (answered_tx, answered) = tokio::sync::oneshot::channel();
+    start_next_standby_later(&engine, answered);
+    let hooks = ServeHooks { ended_elsewhere: Some(ended_rx), first_cell_answered: Some(answered_tx) };
+    crate::server::serve(connection, engine, hooks).await
+}
+
+/// How long after its engine is ready a kernel whose first cell has not
+/// come yet starts the next standby anyway: 30 s.
+const STANDBY_START_WITHOUT_A_CELL: std::time::Duration = std::time::Duration::from_secs(30);
+
+/// Starts the standby for the next kernel once this kernel's engine is ready
+/// and its first cell was answered (or [`STANDBY_START_WITHOUT_A_CELL`]
+/// passed without one): preparing a standby takes a core for most of a
+/// minute, which the analyst's first cell should not have to share.
+fn start_next_standby_later(engine: &PreparedEngine, first_cell_answered: tokio::sync::oneshot::Receiver<()>) {
+    let ready = engine.preparation_watch();
+    tokio::spawn(async move {
+        if PreparedEngine::settled_in(ready).await.is_err() {
+            return;
+        }
+        let _ = tokio::time::timeout(STANDBY_START_WITHOUT_A_CELL, first_cell_answered).await;
+        standby::start_one(&EngineConfig::from_environment().build_dir);
+    });
 }
 
 /// Moves this process, and the cell process of its engine, to the

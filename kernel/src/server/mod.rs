@@ -160,15 +160,21 @@ impl PreparedEngine {
     }
 }
 
+/// What a caller of [`serve`] hears and says besides the protocol.
+#[derive(Default)]
+pub struct ServeHooks {
+    /// When it fires, the kernel ends as on a shutdown request (a standby's
+    /// launcher went away).
+    pub ended_elsewhere: Option<tokio::sync::oneshot::Receiver<()>>,
+    /// Told once, when the first execute request has been answered.
+    pub first_cell_answered: Option<tokio::sync::oneshot::Sender<()>>,
+}
+
 /// Serves the protocol on the connection file's sockets with `engine` until
-/// a shutdown request, or until `ended_elsewhere` fires (a standby's
-/// launcher went away); then stops the cell process and flushes iopub
-/// before returning.
-pub async fn serve(
-    connection: ConnectionFile,
-    engine: PreparedEngine,
-    ended_elsewhere: Option<tokio::sync::oneshot::Receiver<()>>,
-) -> Result<(), ServeError> {
+/// a shutdown request (or `hooks.ended_elsewhere`); then stops the cell
+/// process and flushes iopub before returning.
+pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: ServeHooks) -> Result<(), ServeError> {
+    let ServeHooks { ended_elsewhere, mut first_cell_answered } = hooks;
     let signer = Signer::new(&connection.key);
     let session_id = uuid::Uuid::new_v4().to_string();
     let mut shell = RouterSocket::new();
@@ -335,6 +341,11 @@ pub async fn serve(
         for reply in outcome.replies {
             if let Some(frames) = to_zmq(reply.encode(&shared.signer)) {
                 let _ = shell_send.send(frames).await;
+            }
+        }
+        if request.header.msg_type == "execute_request" {
+            if let Some(told) = first_cell_answered.take() {
+                let _ = told.send(());
             }
         }
         if outcome.shutdown {
