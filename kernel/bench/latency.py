@@ -18,13 +18,15 @@ Usage (after `plumbline install`, or with the test kernelspec):
 import argparse
 import os
 import pathlib
-import signal
 import statistics
+import sys
 import time
 
 from jupyter_client.manager import start_new_kernel
 
 REPO = pathlib.Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(REPO / "tests" / "python"))
+from kernel_messages import end_standbys  # noqa: E402
 SALES = REPO / "notebooks-demo" / "data" / "sales.csv"
 
 
@@ -57,17 +59,6 @@ def wait_for_ready_standby(log):
         if time.monotonic() > deadline:
             raise SystemExit(f"no standby kernel became ready (log: {log})")
         time.sleep(0.5)
-
-
-def end_standbys(engine):
-    for proc in pathlib.Path("/proc").iterdir():
-        try:
-            argv = (proc / "cmdline").read_bytes().split(b"\0")
-            environ = (proc / "environ").read_bytes().split(b"\0")
-        except OSError:
-            continue
-        if b"--standby" in argv and f"PLUMBLINE_ENGINE_DIR={engine}".encode() in environ:
-            os.kill(int(proc.name), signal.SIGTERM)
 
 
 def one_kernel(args, info, first, trivial, fits, env):

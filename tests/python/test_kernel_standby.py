@@ -15,14 +15,13 @@ for its own kernels and ends every standby of the test engine directory afterwar
 import os
 import pathlib
 import shutil
-import signal
 import time
 
 import pytest
 from jupyter_client.manager import KernelManager
 
 from conftest import REPO, install_kernelspec
-from kernel_messages import TIMEOUT, run
+from kernel_messages import TIMEOUT, end_standbys, run
 
 install_kernelspec()
 
@@ -30,30 +29,6 @@ ENGINE = pathlib.Path(os.environ["PLUMBLINE_ENGINE_DIR"])
 LOG = ENGINE / "standby" / "standby.log"
 SALES = REPO / "notebooks-demo" / "data" / "sales.csv"
 ENV = dict(os.environ, PLUMBLINE_STANDBY="on", PLUMBLINE_STANDBY_IDLE_MINUTES="15")
-
-
-def standby_processes():
-    """Pids of `plumbline kernel --standby` processes of the test engine directory."""
-    found = []
-    for proc in pathlib.Path("/proc").iterdir():
-        if not proc.name.isdigit():
-            continue
-        try:
-            argv = (proc / "cmdline").read_bytes().split(b"\0")
-            environ = (proc / "environ").read_bytes().split(b"\0")
-        except OSError:
-            continue
-        if b"--standby" in argv and f"PLUMBLINE_ENGINE_DIR={ENGINE}".encode() in environ:
-            found.append(int(proc.name))
-    return found
-
-
-def end_standbys():
-    for pid in standby_processes():
-        try:
-            os.kill(pid, signal.SIGKILL)
-        except ProcessLookupError:
-            pass
 
 
 def alive(pid):
@@ -96,10 +71,10 @@ def serving_pid(kc):
 
 @pytest.fixture(autouse=True)
 def no_standby_left_behind():
-    end_standbys()
+    end_standbys(ENGINE)
     LOG.unlink(missing_ok=True)
     yield
-    end_standbys()
+    end_standbys(ENGINE)
 
 
 def test_the_next_kernel_takes_over_a_prepared_standby_and_ends_with_its_launcher(tmp_path):
