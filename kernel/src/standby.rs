@@ -332,6 +332,8 @@ pub struct StandbyListener {
 pub struct Handover {
     /// The request (connection file, working directory).
     pub request: HandoverRequest,
+    /// The connection file, read and checked before the standby said yes.
+    pub connection: crate::wire::ConnectionFile,
     /// The launcher's stream: `interrupt` lines, then its end.
     pub stream: tokio::net::UnixStream,
 }
@@ -345,8 +347,9 @@ impl StandbyListener {
         Ok(Self { listener: tokio::net::UnixListener::bind(&path)?, path, role: Some(role) })
     }
 
-    /// Waits for a launcher this standby fits (see [`judge`]), answering
-    /// every other one with its reason. `Ok(None)` when the standby should
+    /// Waits for a launcher this standby fits (see [`judge`]) and whose
+    /// connection file it can read, answering every other one with its
+    /// reason (the launcher then serves by itself and reports the problem). `Ok(None)` when the standby should
     /// end: stale, or no launcher came within [`idle_limit`]. The waiting
     /// role is given up before the launcher hears it was taken, so that the
     /// launcher can start the next standby at once.
@@ -370,8 +373,12 @@ impl StandbyListener {
             let mut stream = reader.into_inner();
             let (reply, outcome) = match serde_json::from_str::<HandoverRequest>(&line) {
                 Err(e) => (HandoverReply::Declined { reason: format!("not a hand-over request: {e}") }, None),
-                Ok(request) => match judge(&request, program, environment) {
-                    Ok(()) => (HandoverReply::Taken { pid: std::process::id() }, Some(Ok(request))),
+                Ok(request) => match judge(&request, program, environment).and_then(|()| {
+                    crate::wire::ConnectionFile::read(&request.connection_file).map_err(|e| (e.to_string(), false))
+                }) {
+                    Ok(connection) => {
+                        (HandoverReply::Taken { pid: std::process::id() }, Some(Ok((request, connection))))
+                    }
                     Err((reason, stale)) => (HandoverReply::Declined { reason }, stale.then_some(Err(()))),
                 },
             };
@@ -382,7 +389,9 @@ impl StandbyListener {
             text.push('\n');
             let sent = stream.write_all(text.as_bytes()).await;
             match outcome {
-                Some(Ok(request)) if sent.is_ok() => return Ok(Some(Handover { request, stream })),
+                Some(Ok((request, connection))) if sent.is_ok() => {
+                    return Ok(Some(Handover { request, connection, stream }))
+                }
                 Some(Err(())) => return Ok(None),
                 _ => continue,
             }
@@ -440,5 +449,50 @@ mod tests {
         let text = serde_json::to_string(&taken).expect("json");
         assert_eq!(text, r#"{"outcome":"taken","pid":7}"#);
         assert_eq!(serde_json::from_str::<HandoverReply>(&text).expect("read back"), taken);
+    }
+
+    fn connection_file(dir: &Path) -> PathBuf {
+        let path = dir.join("kernel-1.json");
+        let text = r#"{"transport": "tcp", "ip": "127.0.0.1", "shell_port": 1, "iopub_port": 2, "stdin_port": 3,
+                       "control_port": 4, "hb_port": 5, "key": "k", "signature_scheme": "hmac-sha256"}"#;
+        std::fs::write(&path, text).expect("connection file");
+        path
+    }
+
+    #[test]
+    fn a_launcher_hands_its_connection_file_to_a_listening_standby() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let connection = connection_file(dir.path());
+        let runtime = tokio::runtime::Runtime::new().expect("runtime");
+        let role = WaitingRole::take(dir.path()).expect("lock").expect("free");
+        assert!(!WaitingRole::is_free(dir.path()), "one standby waits at a time");
+        let mut listener = runtime.block_on(async { StandbyListener::bind(dir.path(), 3, role) }).expect("bind");
+        let (build_dir, offered) = (dir.path().to_path_buf(), connection.clone());
+        let launcher = std::thread::spawn(move || offer(&build_dir, &offered).map(|adopted| adopted.pid));
+        let program = ProgramIdentity::current().expect("program");
+        let handover = runtime.block_on(listener.wait(&program, &environment_now())).expect("socket").expect("taken");
+        assert_eq!(launcher.join().expect("launcher"), Some(std::process::id()));
+        assert_eq!(handover.request.connection_file, connection);
+        assert_eq!(handover.connection.shell_port, 1);
+        assert!(WaitingRole::is_free(dir.path()), "the role is given up at the hand-over");
+    }
+
+    #[test]
+    fn a_standby_declines_a_launcher_with_another_environment_and_waits_on() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let connection = connection_file(dir.path());
+        let runtime = tokio::runtime::Runtime::new().expect("runtime");
+        let role = WaitingRole::take(dir.path()).expect("lock").expect("free");
+        let mut listener = runtime.block_on(async { StandbyListener::bind(dir.path(), 4, role) }).expect("bind");
+        let build_dir = dir.path().to_path_buf();
+        let launcher = std::thread::spawn(move || offer(&build_dir, &connection).is_some());
+        let program = ProgramIdentity::current().expect("program");
+        let mut started_elsewhere = environment_now();
+        started_elsewhere.insert("PGHOST".into(), "another-server".into());
+        let waited = runtime.block_on(async {
+            tokio::time::timeout(Duration::from_secs(3), listener.wait(&program, &started_elsewhere)).await
+        });
+        assert!(waited.is_err(), "the standby still waits after declining");
+        assert!(!launcher.join().expect("launcher"), "the launcher serves by itself");
     }
 }

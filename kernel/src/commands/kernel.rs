@@ -127,23 +127,15 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
     };
     // No other launcher may reach this standby now.
     drop(listener);
-    let request = handover.request;
+    let standby::Handover { request, connection, stream } = handover;
     eprintln!("plumbline standby: serving {}", request.connection_file.display());
-    let connection = match ConnectionFile::read(&request.connection_file) {
-        Ok(connection) => connection,
-        Err(e) => {
-            eprintln!("plumbline standby: {e}; ending");
-            engine.session.terminate();
-            return Ok(());
-        }
-    };
     move_to(&engine, &request.working_directory);
     // The launcher's line `interrupt` interrupts; its end ends this kernel.
     let (ended_tx, ended_rx) = tokio::sync::oneshot::channel();
     let interrupter = engine.session.interrupter();
     tokio::spawn(async move {
         use tokio::io::AsyncBufReadExt;
-        let mut lines = tokio::io::BufReader::new(handover.stream).lines();
+        let mut lines = tokio::io::BufReader::new(stream).lines();
         while let Ok(Some(line)) = lines.next_line().await {
             if line.trim() == "interrupt" {
                 interrupter.interrupt();
