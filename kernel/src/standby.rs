@@ -459,14 +459,27 @@ mod tests {
         path
     }
 
-    #[test]
-    fn a_launcher_hands_its_connection_file_to_a_listening_standby() {
+    /// A build directory with a connection file, and a standby listening in it.
+    struct Scene {
+        dir: tempfile::TempDir,
+        connection: PathBuf,
+        runtime: tokio::runtime::Runtime,
+        listener: StandbyListener,
+    }
+
+    fn listening_standby() -> Scene {
         let dir = tempfile::tempdir().expect("temp dir");
         let connection = connection_file(dir.path());
         let runtime = tokio::runtime::Runtime::new().expect("runtime");
         let role = WaitingRole::take(dir.path()).expect("lock").expect("free");
         assert!(!WaitingRole::is_free(dir.path()), "one standby waits at a time");
-        let mut listener = runtime.block_on(async { StandbyListener::bind(dir.path(), 3, role) }).expect("bind");
+        let listener = runtime.block_on(async { StandbyListener::bind(dir.path(), 3, role) }).expect("bind");
+        Scene { dir, connection, runtime, listener }
+    }
+
+    #[test]
+    fn a_launcher_hands_its_connection_file_to_a_listening_standby() {
+        let Scene { dir, connection, runtime, mut listener } = listening_standby();
         let (build_dir, offered) = (dir.path().to_path_buf(), connection.clone());
         let launcher = std::thread::spawn(move || offer(&build_dir, &offered).map(|adopted| adopted.pid));
         let program = ProgramIdentity::current().expect("program");
@@ -479,11 +492,7 @@ mod tests {
 
     #[test]
     fn a_standby_declines_a_launcher_with_another_environment_and_waits_on() {
-        let dir = tempfile::tempdir().expect("temp dir");
-        let connection = connection_file(dir.path());
-        let runtime = tokio::runtime::Runtime::new().expect("runtime");
-        let role = WaitingRole::take(dir.path()).expect("lock").expect("free");
-        let mut listener = runtime.block_on(async { StandbyListener::bind(dir.path(), 4, role) }).expect("bind");
+        let Scene { dir, connection, runtime, mut listener } = listening_standby();
         let build_dir = dir.path().to_path_buf();
         let launcher = std::thread::spawn(move || offer(&build_dir, &connection).is_some());
         let program = ProgramIdentity::current().expect("program");
