@@ -30,6 +30,9 @@ cargo build --workspace --all-targets --locked
 # (at optimisation level 0 to keep CI short), shared by every kernel test.
 export PLUMBLINE_ENGINE_DIR="$PWD/target/engine-test"
 export PLUMBLINE_ENGINE_OPT=0
+# No standby kernels in the background of the tests (test_kernel_standby.py
+# turns them on for its own kernels).
+export PLUMBLINE_STANDBY=off
 step "warming the evaluation engine (compiles plumbline inside the engine once)"
 ./target/debug/plumbline install --prefix target/kernelspec
 

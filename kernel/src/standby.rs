@@ -26,10 +26,12 @@
 //! file (path, size, modification time) and the same environment, apart
 //! from the variables a front end sets per launch (`JPY_*`, `PWD`, …). A
 //! different environment could change what cells compute (a database
-//! address, say), so it is declined and the launcher prepares an engine of
-//! its own; a stale program (a new install) also retires the standby. The
-//! working directory is the launcher's: the standby moves there, and so do
-//! its cells.
+//! address, say), so the launcher is declined and prepares an engine of its
+//! own — and the standby ends, because the environment kernels are started
+//! with has changed (a new install, a front end started from another shell):
+//! the kernel that was declined starts the next standby, in the new
+//! environment. The working directory is the launcher's: the standby moves
+//! there, and so do its cells.
 //!
 //! Set `PLUMBLINE_STANDBY=off` to start no standby kernels (a waiting one
 //! holds the engine's memory, about 1.6 GB).
@@ -148,22 +150,22 @@ pub fn environment_now() -> BTreeMap<String, String> {
 }
 
 /// Decides whether a standby started with `own_program` and `own_environment`
-/// takes over a launcher's request: `Ok(())`, or the reason it declines and
-/// whether the standby is stale (a different program: it should end).
+/// fits a launcher's request: `Ok(())`, or the reason it does not (then the
+/// standby is of no use to the kernels started now, and ends).
 pub fn judge(
     request: &HandoverRequest,
     own_program: &ProgramIdentity,
     own_environment: &BTreeMap<String, String>,
-) -> Result<(), (String, bool)> {
+) -> Result<(), String> {
     if request.version != HANDOVER_VERSION {
-        return Err((format!("hand-over version {} (standby speaks {HANDOVER_VERSION})", request.version), true));
+        return Err(format!("hand-over version {} (the standby speaks {HANDOVER_VERSION})", request.version));
     }
     if &request.program != own_program {
-        return Err(("the standby runs another build of plumbline".to_string(), true));
+        return Err("the standby runs another build of plumbline".to_string());
     }
     let differences = environment_differences(own_environment, &request.environment);
     if !differences.is_empty() {
-        return Err((format!("the environment differs in {}", differences.join(", ")), false));
+        return Err(format!("the environment differs in {}", differences.join(", ")));
     }
     Ok(())
 }
@@ -348,11 +350,11 @@ impl StandbyListener {
     }
 
     /// Waits for a launcher this standby fits (see [`judge`]) and whose
-    /// connection file it can read, answering every other one with its
-    /// reason (the launcher then serves by itself and reports the problem). `Ok(None)` when the standby should
-    /// end: stale, or no launcher came within [`idle_limit`]. The waiting
-    /// role is given up before the launcher hears it was taken, so that the
-    /// launcher can start the next standby at once.
+    /// connection file it can read; the launcher is told `Taken`, or why not
+    /// (then it serves by itself and reports the problem). `Ok(None)` when the
+    /// standby should end: it did not fit a launcher, or none came within
+    /// [`idle_limit`]. The waiting role is given up before a launcher hears
+    /// `Taken`, so that it can start the next standby at once.
     pub async fn wait(
         &mut self,
         program: &ProgramIdentity,
@@ -371,32 +373,47 @@ impl StandbyListener {
                 continue;
             }
             let mut stream = reader.into_inner();
-            let (reply, outcome) = match serde_json::from_str::<HandoverRequest>(&line) {
-                Err(e) => (HandoverReply::Declined { reason: format!("not a hand-over request: {e}") }, None),
-                Ok(request) => match judge(&request, program, environment).and_then(|()| {
-                    crate::wire::ConnectionFile::read(&request.connection_file).map_err(|e| (e.to_string(), false))
-                }) {
-                    Ok(connection) => {
-                        (HandoverReply::Taken { pid: std::process::id() }, Some(Ok((request, connection))))
-                    }
-                    Err((reason, stale)) => (HandoverReply::Declined { reason }, stale.then_some(Err(()))),
+            let verdict = match serde_json::from_str::<HandoverRequest>(&line) {
+                Err(e) => Verdict::Refused(format!("not a hand-over request: {e}")),
+                Ok(request) => match judge(&request, program, environment) {
+                    Err(reason) => Verdict::Unfit(reason),
+                    Ok(()) => match crate::wire::ConnectionFile::read(&request.connection_file) {
+                        Err(e) => Verdict::Refused(e.to_string()),
+                        Ok(connection) => Verdict::Taken(Box::new((request, connection))),
+                    },
                 },
             };
-            if matches!(reply, HandoverReply::Taken { .. }) {
-                self.role = None;
-            }
+            let reply = match &verdict {
+                Verdict::Taken(_) => {
+                    self.role = None;
+                    HandoverReply::Taken { pid: std::process::id() }
+                }
+                Verdict::Unfit(reason) | Verdict::Refused(reason) => HandoverReply::Declined { reason: reason.clone() },
+            };
             let mut text = serde_json::to_string(&reply).map_err(std::io::Error::other)?;
             text.push('\n');
             let sent = stream.write_all(text.as_bytes()).await;
-            match outcome {
-                Some(Ok((request, connection))) if sent.is_ok() => {
-                    return Ok(Some(Handover { request, connection, stream }))
+            match verdict {
+                Verdict::Taken(taken) if sent.is_ok() => {
+                    let (request, connection) = *taken;
+                    return Ok(Some(Handover { request, connection, stream }));
                 }
-                Some(Err(())) => return Ok(None),
+                Verdict::Unfit(_) => return Ok(None),
                 _ => continue,
             }
         }
     }
+}
+
+/// A standby's answer to one request.
+enum Verdict {
+    /// It serves this launcher.
+    Taken(Box<(HandoverRequest, crate::wire::ConnectionFile)>),
+    /// It does not fit this launcher's program or environment (and ends).
+    Unfit(String),
+    /// The request was malformed or its connection file unreadable: the
+    /// launcher's problem; the standby waits on.
+    Refused(String),
 }
 
 impl Drop for StandbyListener {
@@ -431,16 +448,16 @@ mod tests {
     }
 
     #[test]
-    fn a_standby_takes_a_matching_launcher_declines_others_and_retires_when_stale() {
+    fn a_standby_fits_only_the_same_program_and_environment() {
         let program = ProgramIdentity::current().expect("own program");
         let env = environment(&[("HOME", "/h")]);
         assert_eq!(judge(&request(&program, env.clone()), &program, &env), Ok(()));
         let other_env = environment(&[("HOME", "/elsewhere")]);
-        let (reason, stale) = judge(&request(&program, other_env), &program, &env).expect_err("declined");
-        assert!(reason.contains("HOME") && !stale, "{reason}");
+        let reason = judge(&request(&program, other_env), &program, &env).expect_err("declined");
+        assert!(reason.contains("HOME"), "{reason}");
         let newer = ProgramIdentity { length: program.length + 1, ..program.clone() };
-        let (_, stale) = judge(&request(&newer, env.clone()), &program, &env).expect_err("declined");
-        assert!(stale, "another build retires the standby");
+        let reason = judge(&request(&newer, env.clone()), &program, &env).expect_err("declined");
+        assert!(reason.contains("another build"), "{reason}");
     }
 
     #[test]
@@ -491,17 +508,29 @@ mod tests {
     }
 
     #[test]
-    fn a_standby_declines_a_launcher_with_another_environment_and_waits_on() {
-        let Scene { dir, connection, runtime, mut listener } = listening_standby();
-        let build_dir = dir.path().to_path_buf();
+    fn a_standby_declines_a_launcher_with_another_environment_and_ends() {
+        let Scene { dir: _dir, connection, runtime, mut listener } = listening_standby();
+        let build_dir = _dir.path().to_path_buf();
         let launcher = std::thread::spawn(move || offer(&build_dir, &connection).is_some());
         let program = ProgramIdentity::current().expect("program");
         let mut started_elsewhere = environment_now();
         started_elsewhere.insert("PGHOST".into(), "another-server".into());
+        let waited = runtime.block_on(listener.wait(&program, &started_elsewhere)).expect("socket");
+        assert!(waited.is_none(), "a standby that does not fit the kernels started now ends");
+        assert!(!launcher.join().expect("launcher"), "the launcher serves by itself");
+    }
+
+    #[test]
+    fn a_standby_refuses_an_unreadable_connection_file_and_waits_on() {
+        let Scene { dir, runtime, mut listener, .. } = listening_standby();
+        let build_dir = dir.path().to_path_buf();
+        let missing = dir.path().join("no-such-kernel.json");
+        let launcher = std::thread::spawn(move || offer(&build_dir, &missing).is_some());
+        let program = ProgramIdentity::current().expect("program");
         let waited = runtime.block_on(async {
-            tokio::time::timeout(Duration::from_secs(3), listener.wait(&program, &started_elsewhere)).await
+            tokio::time::timeout(Duration::from_secs(3), listener.wait(&program, &environment_now())).await
         });
-        assert!(waited.is_err(), "the standby still waits after declining");
+        assert!(waited.is_err(), "the standby still waits");
         assert!(!launcher.join().expect("launcher"), "the launcher serves by itself");
     }
 }

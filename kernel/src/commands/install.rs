@@ -70,6 +70,13 @@ pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
             return Err(CommandError::Runtime(format!("the engine warm-up failed: {}", error.traceback.join("\n"))));
         }
         out.push_str(&format!("engine cache ready in {} (delete it to rebuild)\n", config.build_dir.display()));
+        if crate::standby::enabled() {
+            crate::standby::start_one(&config.build_dir);
+            out.push_str(
+                "a standby kernel is preparing in the background for the first notebook \
+                 (it ends after 30 idle minutes; PLUMBLINE_STANDBY=off starts none)\n",
+            );
+        }
     }
     Ok(out)
 }

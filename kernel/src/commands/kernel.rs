@@ -115,7 +115,7 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
     let handover = match waited {
         Ok(Some(handover)) => handover,
         Ok(None) => {
-            eprintln!("plumbline standby: retiring (idle limit reached, or plumbline was reinstalled)");
+            eprintln!("plumbline standby: ending (idle limit reached, or it did not fit the kernel started now)");
             engine.session.terminate();
             return Ok(());
         }
