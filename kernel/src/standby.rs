@@ -1,7 +1,7 @@
 //! Standby kernels: an engine prepared before anyone asks for it.
 //!
 //! Preparing the evaluation engine costs a fresh kernel most of its first
-//! cell: about 40 s on the 2-core test machine, nearly all of it the
+//! cell: about 30 s on the 2-core test machine, nearly all of it the
 //! engine's type inference building name tables for the whole crate graph
 //! behind `plumbline` (polars and ~360 crates), which it does again in every
 //! new process. None of it can be saved to disk; it can be done ahead.
@@ -19,8 +19,9 @@
 //! started stays as its **launcher**: it forwards SIGINT as an interrupt and
 //! exits when the standby ends; when the launcher dies, the standby shuts
 //! down. If no standby waits, or the one waiting does not fit (below), the
-//! kernel starts its own engine as before. Either way one new standby is
-//! started for the next kernel, so at most one waits at a time.
+//! kernel starts its own engine as before. Either way, the kernel starts the
+//! standby for the next one (`commands::kernel`), and at most one waits at a
+//! time.
 //!
 //! A standby takes over only a launcher that matches it: the same program
 //! file (path, size, modification time) and the same environment, apart
