@@ -96,6 +96,8 @@ async fn start() -> Kernel {
         .arg(&file)
         .env("PLUMBLINE_ENGINE_DIR", engine_dir())
         .env("PLUMBLINE_ENGINE_OPT", std::env::var("PLUMBLINE_ENGINE_OPT").unwrap_or_else(|_| "0".into()))
+        // This kernel prepares its own engine and leaves no standby behind.
+        .env("PLUMBLINE_STANDBY", "off")
         .spawn()
         .expect("start the kernel");
     tokio::time::sleep(Duration::from_millis(500)).await;
