@@ -24,12 +24,14 @@ fn main() -> ExitCode {
     // the engine's settings into the environment now, while this process is
     // still single-threaded.
     if matches!(cli.command, Command::Kernel(_) | Command::Install(_) | Command::Run(_)) {
-        let build_dir = plumbline_kernel::eval::EngineConfig::from_environment().build_dir;
-        if let Err(e) = plumbline_kernel::eval::work_slots::claim_for_process(&build_dir) {
-            eprintln!("error: {e}");
-            return ExitCode::FAILURE;
+        let mut config = plumbline_kernel::eval::EngineConfig::from_environment();
+        match plumbline_kernel::eval::work_slots::claim_for_process(&config.build_dir) {
+            Ok(slot) => config.work_dir = slot.path(),
+            Err(e) => {
+                eprintln!("error: {e}");
+                return ExitCode::FAILURE;
+            }
         }
-        let config = plumbline_kernel::eval::EngineConfig::from_environment();
         plumbline_kernel::eval::export_engine_environment(&config);
     }
     let outcome = match cli.command {
