@@ -72,10 +72,11 @@ pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
         out.push_str(&format!("engine cache ready in {} (delete it to rebuild)\n", config.build_dir.display()));
         if crate::standby::enabled() {
             crate::standby::start_one(&config.build_dir);
-            out.push_str(
+            out.push_str(&format!(
                 "a standby kernel is preparing in the background for the first notebook \
-                 (it ends after 30 idle minutes; PLUMBLINE_STANDBY=off starts none)\n",
-            );
+                 (it ends after {} idle minutes; PLUMBLINE_STANDBY=off starts none)\n",
+                crate::standby::idle_limit().as_secs_f64() / 60.0
+            ));
         }
     }
     Ok(out)
