@@ -80,6 +80,6 @@ pub mod prelude {
     pub use crate::inference::{Coefficient, FitStatistics, FitSummary};
     pub use crate::model::{ModelSpec, NamedPoint, TargetTransform, Term, Transform};
     pub use crate::predict::{Prediction, Predictions};
-    pub use crate::render::{clear_output, show, show_updatable, update, LiveProgress, Report};
+    pub use crate::render::{clear_output, show, show_updatable, update, CellValue, LiveProgress, Report};
     pub use crate::{Error, Result};
 }

@@ -3,6 +3,7 @@
 use clap::Parser;
 use plumbline_kernel::cli::{Cli, Command};
 use plumbline_kernel::commands;
+use plumbline_kernel::eval::EngineConfig;
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
@@ -12,10 +13,12 @@ fn main() -> ExitCode {
     plumbline_kernel::eval::relay_cell_process_output();
     evcxr::runtime_hook();
     let cli = Cli::parse();
+    // The engine's settings are read here, once, and passed down.
+    let config = EngineConfig::from_environment();
     // A kernel first offers its notebook to a standby kernel prepared ahead;
     // if one takes it, this process only accompanies it.
     if let Command::Kernel(args) = &cli.command {
-        if let Some(outcome) = commands::kernel::hand_over_to_standby(args) {
+        if let Some(outcome) = commands::kernel::hand_over_to_standby(args, &config.build_dir) {
             return finish(outcome);
         }
     }
@@ -23,25 +26,27 @@ fn main() -> ExitCode {
     // Commands that start the engine claim a work folder of their own and put
     // the engine's settings into the environment now, while this process is
     // still single-threaded.
-    if matches!(cli.command, Command::Kernel(_) | Command::Install(_) | Command::Run(_)) {
-        let mut config = plumbline_kernel::eval::EngineConfig::from_environment();
-        match plumbline_kernel::eval::work_slots::claim_for_process(&config.build_dir) {
-            Ok(slot) => config.work_dir = slot.path(),
+    let config = if matches!(cli.command, Command::Kernel(_) | Command::Install(_) | Command::Run(_)) {
+        let config = match plumbline_kernel::eval::work_slots::claim_for_process(&config.build_dir) {
+            Ok(slot) => config.in_slot(slot),
             Err(e) => {
                 eprintln!("error: {e}");
                 return ExitCode::FAILURE;
             }
-        }
+        };
         plumbline_kernel::eval::export_engine_environment(&config);
-    }
+        config
+    } else {
+        config
+    };
     let outcome = match cli.command {
-        Command::Kernel(args) => commands::kernel::run(&args, launch_environment),
-        Command::Install(args) => commands::install::run(&args),
+        Command::Kernel(args) => commands::kernel::run(&args, config, launch_environment),
+        Command::Install(args) => commands::install::run(&args, config),
         Command::Fit(args) => commands::fit::run(&args),
         Command::Compare(args) => commands::compare::run(&args),
         Command::Ratio(args) => commands::ratio::run(&args),
         Command::Value(args) => commands::value::run(&args),
-        Command::Run(args) => commands::run::run(&args),
+        Command::Run(args) => commands::run::run(&args, config),
         Command::Diff(args) => commands::diff::run(&args),
         Command::Accuracy(args) => commands::accuracy::run(&args),
     };

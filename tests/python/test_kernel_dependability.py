@@ -10,6 +10,7 @@ protocol 5.3 as published by the Jupyter project:
 * requests of the wrong shape get error replies;
 * display ids: a progress display updated in place, and `clear_output`.
 """
+import json
 import os
 import signal
 import time
@@ -173,3 +174,58 @@ def test_a_progress_display_is_updated_in_place(kernel):
     assert updates[-1]["content"]["data"]["text/plain"].startswith("Folds: 4 of 4 folds (100%)")
     kinds = [m["msg_type"] for m in messages]
     assert kinds.index("clear_output") > kinds.index("stream")
+
+
+# Each kind of last value a cell may end in, with the text/plain the kernel shows
+# for it (Rust's own `Debug` formatting, as documented in the standard library).
+LAST_VALUES = [
+    ("1 + 1", "2"),
+    ('format!("{}", 3)', '"3"'),
+    ("vec![1.5, 2.0]", "[1.5, 2.0]"),
+    ("Some(7_u8)", "Some(7)"),
+    ('"12".parse::<i32>()', "Ok(12)"),
+    ("(1, 'a')", "(1, 'a')"),
+    ("let z = 41 + 1;", None),
+]
+
+
+@pytest.mark.parametrize("code,shown", LAST_VALUES)
+def test_a_cell_is_built_once_whatever_its_last_value(kernel, code, shown):
+    """The engine's phases for the cell (our reply field `plumbline_engine_phases`) show one
+    build: no second build for `Debug` text ("Fallback"), whatever the last value's type."""
+    _, kc = kernel
+    reply, messages = run(kc, code)
+    assert reply["content"]["status"] == "ok", reply["content"]
+    phases = [p["name"] for p in reply["content"]["plumbline_engine_phases"]]
+    builds = [name for name in phases if name not in ("Execution", "Type inference")]
+    assert builds == ["Final compile"], phases
+    # Type inference runs only for a cell that defines variables (our engine patch).
+    assert ("Type inference" in phases) == code.startswith("let "), phases
+    results = [m for m in messages if m["msg_type"] == "execute_result"]
+    if shown is None:
+        assert results == []
+        reply, messages = run(kc, "z")
+        assert next(m for m in messages if m["msg_type"] == "execute_result")["content"]["data"]["text/plain"] == "42"
+    else:
+        assert results[0]["content"]["data"]["text/plain"] == shown
+
+
+def test_our_results_are_built_once_and_shown_richly(kernel):
+    _, kc = kernel
+    sales = os.path.abspath(os.path.join(os.path.dirname(__file__), "..", "..", "notebooks-demo", "data", "sales.csv"))
+    reply, _ = run(kc, f"let sales = load({json.dumps(sales)}).unwrap();")
+    assert reply["content"]["status"] == "ok", reply["content"]
+    fit_cell = ('fit(&sales, &ModelSpec::new("sale_price").log_target().term(Term::numeric("living_area").log())'
+                '.numeric("age").category("district")).unwrap()')
+    for code, rich in [(fit_cell + ".report(0.95)", "text/html"), (fit_cell + ".statistics().r_squared", None),
+                       ("sales", "text/html")]:
+        reply, messages = run(kc, code)
+        assert reply["content"]["status"] == "ok", reply["content"]
+        phases = [p["name"] for p in reply["content"]["plumbline_engine_phases"]]
+        assert [name for name in phases if name not in ("Execution", "Type inference")] == ["Final compile"], \
+            (code, phases)
+        data = next(m for m in messages if m["msg_type"] == "execute_result")["content"]["data"]
+        if rich:
+            assert rich in data, (code, sorted(data))
+        else:
+            assert 0.5 < float(data["text/plain"]) < 1.0, data

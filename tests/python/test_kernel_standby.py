@@ -5,8 +5,10 @@ A kernel whose engine is ready starts a standby kernel that prepares an engine a
 the next kernel a front end starts hands its connection file over, and the standby
 serves it. Checked here: the kernel that took over answers, runs its cells in the
 launcher's working directory (a relative path), is a different process from the one
-the front end started, keeps variables; a shutdown ends both processes; and when the
-launcher is killed, the standby serving it ends too. First-cell times are printed,
+the front end started, keeps variables; a launcher started in another desktop setting
+(other LANG, TERM, SHELL) is taken over and its cells see the launcher's values; a
+shutdown ends both processes; when the launcher is killed, the standby serving it ends
+too; and a launcher with another engine setting (PLUMBLINE_ENGINE_OPT) is declined. First-cell times are printed,
 never asserted (the benchmark is kernel/bench/latency.py).
 
 The rest of the suite runs with standbys off (conftest.py); this module turns them on
@@ -15,12 +17,14 @@ for its own kernels and ends every standby of the test engine directory afterwar
 import os
 import pathlib
 import shutil
+import subprocess
 import time
 
 import pytest
+from jupyter_client.connect import write_connection_file
 from jupyter_client.manager import KernelManager
 
-from conftest import REPO, install_kernelspec
+from conftest import REPO, install_kernelspec, plumbline_binary
 from kernel_messages import TIMEOUT, end_standbys, run
 
 install_kernelspec()
@@ -51,9 +55,9 @@ def wait_for_ready_standby():
     wait_until(lambda: LOG.exists() and "ready" in LOG.read_text(), f"a ready standby (log: {LOG})", 1200)
 
 
-def start_kernel(cwd):
+def start_kernel(cwd, env=ENV):
     km = KernelManager(kernel_name="plumbline")
-    km.start_kernel(env=ENV, cwd=str(cwd))
+    km.start_kernel(env=env, cwd=str(cwd))
     kc = km.client()
     kc.start_channels()
     kc.wait_for_ready(timeout=120)
@@ -92,11 +96,13 @@ def test_the_next_kernel_takes_over_a_prepared_standby_and_ends_with_its_launche
         kc.stop_channels()
         km.shutdown_kernel(now=False)
 
-    # The second kernel, in another folder, is served by the standby.
+    # The second kernel, in another folder and started from another desktop
+    # setting, is served by the standby.
     second_dir = tmp_path / "second"
     second_dir.mkdir()
     shutil.copy(SALES, second_dir / "sales.csv")
-    km, kc = start_kernel(second_dir)
+    elsewhere = dict(ENV, LANG="de_DE.UTF-8", TERM="dumb", SHELL="/bin/zsh-of-another-desktop")
+    km, kc = start_kernel(second_dir, elsewhere)
     launcher = km.provisioner.process
     try:
         start = time.monotonic()
@@ -111,6 +117,11 @@ def test_the_next_kernel_takes_over_a_prepared_standby_and_ends_with_its_launche
         assert reply["content"]["status"] == "ok"
         reply, messages = run(kc, "kept + 1", timeout=TIMEOUT)
         assert next(m for m in messages if m["msg_type"] == "execute_result")["content"]["data"]["text/plain"] == "42"
+        reply, messages = run(kc, 'format!("{}|{}|{}", std::env::var("LANG").unwrap_or_default(), '
+                                  'std::env::var("TERM").unwrap_or_default(), std::env::var("SHELL").unwrap_or_default())',
+                              timeout=TIMEOUT)
+        seen = next(m for m in messages if m["msg_type"] == "execute_result")["content"]["data"]["text/plain"]
+        assert seen == '"de_DE.UTF-8|dumb|/bin/zsh-of-another-desktop"', "cells see the launcher's variables"
     finally:
         kc.stop_channels()
         km.shutdown_kernel(now=False)
@@ -129,3 +140,30 @@ def test_the_next_kernel_takes_over_a_prepared_standby_and_ends_with_its_launche
     finally:
         kc.stop_channels()
         km.cleanup_resources()
+
+
+def test_a_launcher_with_another_engine_setting_is_declined(tmp_path):
+    """The optimisation level shapes the engine's build: a standby prepared at one
+    level must not serve a kernel started for another (it declines and ends)."""
+    km, kc = start_kernel(tmp_path)
+    try:
+        run(kc, "1 + 1", timeout=TIMEOUT)
+        wait_for_ready_standby()
+    finally:
+        kc.stop_channels()
+        km.shutdown_kernel(now=False)
+    connection = tmp_path / "kernel-declined.json"
+    write_connection_file(str(connection))
+    other_level = dict(ENV, PLUMBLINE_ENGINE_OPT="1")
+    launcher = subprocess.Popen([str(plumbline_binary()), "kernel", "--connection-file", str(connection)],
+                                env=other_level, cwd=tmp_path, stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
+                                stderr=subprocess.PIPE, text=True)
+    try:
+        # The offer comes before anything else the launcher does.
+        lines = [launcher.stderr.readline() for _ in range(3)]
+        declined = [line for line in lines if "declined" in line]
+        assert declined and "PLUMBLINE_ENGINE_OPT" in declined[0], lines
+    finally:
+        launcher.kill()
+        launcher.wait()
+    wait_until(lambda: "ending" in LOG.read_text(), "the declined standby to end", 60)

@@ -22,7 +22,10 @@ mod text;
 mod valuation_checks;
 
 pub use accuracy_table::accuracy_table;
-pub use bundle::{emit, MimeBundle, Report, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME, RATIO_JSON_MIME};
+pub use bundle::{
+    emit, CellValue, MimeBundle, Report, ShownInCells, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME,
+    RATIO_JSON_MIME,
+};
 pub use diagnostics_text::{
     collinearity_text, comparison_text, cross_validation_text, flags_text, nested_text, tests_text,
 };
@@ -39,3 +42,30 @@ pub use prose::VALUATION_CAUTION;
 pub use ratio_report::{ratio_html, ratio_text};
 pub use result_reports::AssumptionTests;
 pub use text::{assembled_fit_text, fit_text, predictions_text};
+
+// Every `Report` type of this crate, shown richly as a cell's last value.
+crate::shown_in_cells!(
+    Explained<'_>,
+    crate::diagnose::SpatialCheck,
+    crate::value::TierStudy,
+    crate::value::ValueAccuracy,
+    crate::value::HoldoutAccuracy,
+    crate::value::ValueRoll,
+    crate::value::SalesChasingCheck,
+    crate::value::RatioStudy,
+    FitReport<'_>,
+    crate::fit::Fit,
+    crate::plot::Svg,
+    crate::compare::NestedTest,
+    crate::compare::Comparison,
+    crate::compare::CrossValidationResult,
+    AssumptionTests,
+    crate::diagnose::Collinearity,
+    crate::diagnose::RowFlags,
+    crate::predict::Predictions,
+    crate::data::Frame,
+    ProfileReport,
+    crate::data::Screen,
+    LiveProgress,
+    crate::drift::DriftReport,
+);

@@ -32,7 +32,7 @@ fn kernels_dir(args: &InstallArgs) -> Result<PathBuf, CommandError> {
 }
 
 /// Runs `plumbline install`.
-pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
+pub fn run(args: &InstallArgs, config: EngineConfig) -> Result<String, CommandError> {
     let dir = kernels_dir(args)?.join(KERNEL_NAME);
     let io = |what: &str, e: std::io::Error| CommandError::Runtime(format!("{what} `{}`: {e}", dir.display()));
     if args.uninstall {
@@ -58,7 +58,6 @@ pub fn run(args: &InstallArgs) -> Result<String, CommandError> {
     }
     let mut out = format!("installed the Plumbline kernelspec in {}\n", dir.display());
     if !args.no_warm {
-        let config = EngineConfig::from_environment();
         eprintln!(
             "warming the evaluation engine in {} (the first time compiles plumbline and its dependencies; minutes)…",
             config.build_dir.display()

@@ -16,16 +16,16 @@ use crate::server::{PreparedEngine, ServeHooks};
 use crate::standby;
 use crate::wire::ConnectionFile;
 use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
 
 /// Offers the connection file to a waiting standby kernel; `Some` (the
 /// command's outcome) when one took it and has since ended.
-pub fn hand_over_to_standby(args: &KernelArgs) -> Option<Result<String, CommandError>> {
+pub fn hand_over_to_standby(args: &KernelArgs, build_dir: &Path) -> Option<Result<String, CommandError>> {
     let connection_file = args.connection_file.as_ref()?;
     if !standby::enabled() {
         return None;
     }
-    let build_dir = EngineConfig::from_environment().build_dir;
-    let adopted = standby::offer(&build_dir, connection_file)?;
+    let adopted = standby::offer(build_dir, connection_file)?;
     Some(
         adopted
             .accompany()
@@ -36,9 +36,14 @@ pub fn hand_over_to_standby(args: &KernelArgs) -> Option<Result<String, CommandE
 
 /// Serves the notebook protocol until shutdown, with an engine of this
 /// process (`--connection-file`), or waits as a standby (`--standby`).
-/// `launch_environment` is the environment this process started with,
-/// before `main` set the engine's variables.
-pub fn run(args: &KernelArgs, launch_environment: BTreeMap<String, String>) -> Result<String, CommandError> {
+/// `config` holds the work slot `main` claimed; `launch_environment` is the
+/// environment this process started with, before `main` set the engine's
+/// variables.
+pub fn run(
+    args: &KernelArgs,
+    config: EngineConfig,
+    launch_environment: BTreeMap<String, String>,
+) -> Result<String, CommandError> {
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .worker_threads(2)
         .enable_all()
@@ -48,14 +53,15 @@ pub fn run(args: &KernelArgs, launch_environment: BTreeMap<String, String>) -> R
         Some(path) => {
             let connection = ConnectionFile::read(path).map_err(|e| CommandError::Usage(e.to_string()))?;
             runtime.block_on(async {
-                let engine = PreparedEngine::start();
+                let build_dir = config.build_dir.clone();
+                let engine = PreparedEngine::start(config);
                 let (answered_tx, answered) = tokio::sync::oneshot::channel();
-                start_next_standby_later(&engine, answered);
+                start_next_standby_later(&engine, answered, build_dir);
                 let hooks = ServeHooks { first_cell_answered: Some(answered_tx), ..ServeHooks::default() };
                 crate::server::serve(connection, engine, hooks).await
             })
         }
-        None => runtime.block_on(wait_as_standby(launch_environment)),
+        None => runtime.block_on(wait_as_standby(config, launch_environment)),
     };
     // Tasks still blocked on sockets or on the engine thread end with the process.
     runtime.shutdown_background();
@@ -64,13 +70,15 @@ pub fn run(args: &KernelArgs, launch_environment: BTreeMap<String, String>) -> R
 }
 
 /// The standby's life: prepare, wait for a launcher, serve its notebook.
-async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result<(), crate::server::ServeError> {
-    let config = EngineConfig::from_environment();
+async fn wait_as_standby(
+    config: EngineConfig,
+    launch_environment: BTreeMap<String, String>,
+) -> Result<(), crate::server::ServeError> {
     let Ok(Some(role)) = standby::WaitingRole::take(&config.build_dir) else {
         eprintln!("plumbline standby: another standby kernel waits already; ending");
         return Ok(());
     };
-    let Some(slot) = crate::eval::work_slots::process_slot() else {
+    let Some(slot) = config.slot() else {
         eprintln!("plumbline standby: no work slot claimed; ending");
         return Ok(());
     };
@@ -81,8 +89,10 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
             return Ok(());
         }
     };
-    let engine = PreparedEngine::start();
-    let mut listener = match standby::StandbyListener::bind(&config.build_dir, slot.index(), role) {
+    let build_dir = config.build_dir.clone();
+    let work_dir = config.work_dir.clone();
+    let engine = PreparedEngine::start(config);
+    let mut listener = match standby::StandbyListener::bind(&build_dir, slot.index(), role) {
         Ok(listener) => listener,
         Err(e) => {
             eprintln!("plumbline standby: cannot listen for kernels: {e}; ending");
@@ -90,7 +100,7 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
             return Ok(());
         }
     };
-    eprintln!("plumbline standby {}: preparing in {}", std::process::id(), config.work_dir.display());
+    eprintln!("plumbline standby {}: preparing in {}", std::process::id(), work_dir.display());
     let preparation = engine.preparation_watch();
     let prepared = async move {
         match PreparedEngine::settled_in(preparation).await {
@@ -129,7 +139,7 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
     drop(listener);
     let standby::Handover { request, connection, stream } = handover;
     eprintln!("plumbline standby: serving {}", request.connection_file.display());
-    move_to(&engine, &request.working_directory);
+    take_launchers_setting(&engine, &request, &launch_environment);
     // The launcher's line `interrupt` interrupts; its end ends this kernel.
     let (ended_tx, ended_rx) = tokio::sync::oneshot::channel();
     let interrupter = engine.session.interrupter();
@@ -144,7 +154,7 @@ async fn wait_as_standby(launch_environment: BTreeMap<String, String>) -> Result
         let _ = ended_tx.send(());
     });
     let (answered_tx, answered) = tokio::sync::oneshot::channel();
-    start_next_standby_later(&engine, answered);
+    start_next_standby_later(&engine, answered, build_dir);
     let hooks = ServeHooks { ended_elsewhere: Some(ended_rx), first_cell_answered: Some(answered_tx) };
     crate::server::serve(connection, engine, hooks).await
 }
@@ -157,29 +167,40 @@ const STANDBY_START_WITHOUT_A_CELL: std::time::Duration = std::time::Duration::f
 /// and its first cell was answered (or [`STANDBY_START_WITHOUT_A_CELL`]
 /// passed without one): preparing a standby takes a core for most of a
 /// minute, which the analyst's first cell should not have to share.
-fn start_next_standby_later(engine: &PreparedEngine, first_cell_answered: tokio::sync::oneshot::Receiver<()>) {
+fn start_next_standby_later(
+    engine: &PreparedEngine,
+    first_cell_answered: tokio::sync::oneshot::Receiver<()>,
+    build_dir: PathBuf,
+) {
     let ready = engine.preparation_watch();
     tokio::spawn(async move {
         if PreparedEngine::settled_in(ready).await.is_err() {
             return;
         }
         let _ = tokio::time::timeout(STANDBY_START_WITHOUT_A_CELL, first_cell_answered).await;
-        standby::start_one(&EngineConfig::from_environment().build_dir);
+        standby::start_one(&build_dir);
     });
 }
 
-/// Moves this process, and the cell process of its engine, to the
-/// launcher's working directory (cells read relative paths from there). The
-/// cell process moves through a cell queued ahead of every notebook cell.
-fn move_to(engine: &PreparedEngine, directory: &std::path::Path) {
-    if std::env::current_dir().ok().as_deref() == Some(directory) {
-        return;
-    }
+/// Moves this process to the launcher's working directory, and has the
+/// cell process take the launcher's working directory and the environment
+/// variables cells may read (`standby::environment`): cells then run as
+/// they would have in a kernel of the launcher's own. The cell process
+/// takes them through the engine session, ahead of every notebook cell and
+/// again after each restart of that process.
+fn take_launchers_setting(
+    engine: &PreparedEngine,
+    request: &standby::HandoverRequest,
+    own_environment: &BTreeMap<String, String>,
+) {
+    let directory = &request.working_directory;
     if let Err(e) = std::env::set_current_dir(directory) {
         eprintln!("plumbline standby: cannot move to {}: {e}", directory.display());
-        return;
     }
-    // A `{:?}` of a string is a valid Rust string literal.
-    let cell = format!("std::env::set_current_dir({:?}).ok();", directory.to_string_lossy());
-    let _events = engine.session.execute(&cell);
+    let environment = standby::launcher_setting(own_environment, &request.environment);
+    if !environment.is_empty() {
+        let names: Vec<&str> = environment.iter().map(|(name, _)| name.as_str()).collect();
+        eprintln!("plumbline standby: cells take the launcher's {}", names.join(", "));
+    }
+    engine.session.adopt_launcher(directory.clone(), environment);
 }

@@ -31,7 +31,7 @@ fn same_file(a: &Path, b: &Path) -> bool {
 }
 
 /// Runs `plumbline run`.
-pub fn run(args: &RunArgs) -> Result<String, CommandError> {
+pub fn run(args: &RunArgs, config: EngineConfig) -> Result<String, CommandError> {
     let notebook_path = absolute(&args.notebook)?;
     let output = match (&args.output, args.in_place) {
         (_, true) => notebook_path.clone(),
@@ -54,9 +54,8 @@ pub fn run(args: &RunArgs) -> Result<String, CommandError> {
         .map_err(|e| CommandError::Run(e.to_string()))?;
     let applied = apply(&mut notebook, &assignments).map_err(|e| CommandError::Run(e.to_string()))?;
 
-    let mut config = EngineConfig::from_environment();
-    config.build_dir = absolute(&config.build_dir)?;
-    config.analysis_path = absolute(&config.analysis_path)?;
+    // `config`'s paths are absolute (`EngineConfig::from_environment`), so
+    // moving to the notebook's folder leaves them pointing where they did.
     if let Some(folder) = notebook_path.parent() {
         std::env::set_current_dir(folder).map_err(|e| {
             CommandError::Run(format!("cannot enter the notebook's folder `{}`: {e}", folder.display()))

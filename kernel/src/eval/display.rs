@@ -5,7 +5,7 @@
 //! protocol uses for it (`display_data`, `update_display_data`,
 //! `clear_output`), so the kernel and the runner agree.
 
-use super::bundle_json;
+use super::cell::bundle_json;
 pub use plumbline::render::DisplayCommand;
 use serde_json::{json, Value};
 

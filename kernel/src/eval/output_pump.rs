@@ -15,8 +15,8 @@
 //! cell's `Finished` event. So every line a cell printed precedes its
 //! `Finished` event, by construction and without waiting on a clock.
 
+use super::cell::{CellEvent, StreamLine};
 use super::runtime_relay::{CELL_ABORT_MARKER, CELL_ERROR_MARKER, STDERR_LINE_MARKER};
-use super::session::{CellEvent, StreamLine};
 use crossbeam_channel::{select, Receiver, Sender};
 use tokio::sync::mpsc::UnboundedSender;
 

@@ -6,7 +6,7 @@
 //! Variables lived in that process and are gone; functions, types, `use`
 //! lines and dependencies live in the engine and are kept.
 
-use super::session::CellError;
+use super::cell::CellError;
 
 /// How the cell process ended.
 #[derive(Debug, Clone, PartialEq, Eq)]

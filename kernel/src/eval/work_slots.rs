@@ -174,11 +174,6 @@ pub fn claim_for_process(build_dir: &Path) -> Result<&'static WorkSlot, SlotErro
     Ok(PROCESS_SLOT.get_or_init(|| slot))
 }
 
-/// The slot this process claimed, if any.
-pub fn process_slot() -> Option<&'static WorkSlot> {
-    PROCESS_SLOT.get()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

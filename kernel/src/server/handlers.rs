@@ -295,6 +295,9 @@ pub(crate) async fn control(shared: &Arc<Shared>, request: &Message) -> ControlO
     ControlOutcome { replies: reply.into_iter().collect(), shutdown }
 }
 
+/// The `execute_reply` field with the cell's engine phases (`[{name, seconds}]`).
+pub const ENGINE_PHASES_FIELD: &str = "plumbline_engine_phases";
+
 /// Runs one cell; returns the reply and whether the cell failed.
 ///
 /// Everything the cell prints is published, in order and as a child of
@@ -322,6 +325,9 @@ async fn execute(shared: &Arc<Shared>, request: &Message, cell: &ExecuteRequest)
         *latest = Some(request.clone());
     }
     let outcome = if code.trim().is_empty() { ExecOutcome::default() } else { run_cell(shared, request, code).await };
+    // Where the engine's time went (see `eval::EnginePhase`): a field of our
+    // own in the reply, which front ends ignore.
+    let phases = json!(outcome.phases);
     if let Some(error) = outcome.error {
         let content = json!({ "ename": error.ename, "evalue": error.evalue, "traceback": error.traceback });
         shared.publish(Some(request), "error", content.clone());
@@ -329,6 +335,7 @@ async fn execute(shared: &Arc<Shared>, request: &Message, cell: &ExecuteRequest)
         if let Some(object) = reply.as_object_mut() {
             object.insert("status".into(), json!("error"));
             object.insert("execution_count".into(), json!(count));
+            object.insert(ENGINE_PHASES_FIELD.into(), phases);
         }
         return (request.child("execute_reply", reply), true);
     }
@@ -365,8 +372,11 @@ async fn execute(shared: &Arc<Shared>, request: &Message, cell: &ExecuteRequest)
         };
         user_expressions.insert(name.clone(), value);
     }
-    let reply =
+    let mut reply =
         json!({ "status": "ok", "execution_count": count, "user_expressions": user_expressions, "payload": [] });
+    if let Some(object) = reply.as_object_mut() {
+        object.insert(ENGINE_PHASES_FIELD.into(), phases);
+    }
     (request.child("execute_reply", reply), false)
 }
 

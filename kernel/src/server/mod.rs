@@ -129,15 +129,14 @@ pub struct PreparedEngine {
 }
 
 impl PreparedEngine {
-    /// Starts the engine thread with the settings of this process
-    /// ([`EngineConfig::from_environment`]); it prepares from now on.
-    pub fn start() -> Self {
+    /// Starts the engine thread with `config`; it prepares from now on.
+    pub fn start(config: EngineConfig) -> Self {
         let (preparation_tx, preparation) = tokio::sync::watch::channel(Preparation::Starting);
         let observer: Arc<crate::eval::PreparationObserver> = Arc::new(move |state: &Preparation| {
             preparation_tx.send_replace(state.clone());
         });
         let (stray_tx, stray) = tokio::sync::mpsc::unbounded_channel::<StreamLine>();
-        let session = Arc::new(Session::start(EngineConfig::from_environment(), stray_tx, observer));
+        let session = Arc::new(Session::start(config, stray_tx, observer));
         Self { session, preparation, stray, started: Instant::now() }
     }
 

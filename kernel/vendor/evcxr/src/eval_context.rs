@@ -706,8 +706,22 @@ impl EvalContext {
         callbacks: &mut EvalCallbacks,
     ) -> Result<EvalOutputs, Error> {
         self.write_cargo_toml(state)?;
-        let analysis_code = state.analysis_code(user_code.clone());
-        if let Err(errors) = self.fix_variable_types(state, analysis_code) {
+        // Plumbline patch (PLUMBLINE-PATCH.md, 1): type inference reports only the
+        // variables of the cell's top-level `let` statements, so a cell without one
+        // skips it; the time it takes is a phase of its own.
+        let defines_variables = code_info
+            .nodes
+            .iter()
+            .any(|node| ast::LetStmt::can_cast(node.kind()));
+        let inferred = if defines_variables {
+            let analysis_code = state.analysis_code(user_code.clone());
+            let inferred = self.fix_variable_types(state, analysis_code);
+            phases.phase_complete("Type inference");
+            inferred
+        } else {
+            Ok(())
+        };
+        if let Err(errors) = inferred {
             let mut check_res = self.check(user_code.clone(), state.clone(), code_info)?;
             if !check_res.is_empty() {
                 // Do one round of trying to fix errors, otherwise code like the following can end
