@@ -125,7 +125,7 @@ def one_kernel(args, figures, first_key, env, warm=True):
             for _ in range(args.cells):
                 took, phases = timed(kc, code)
                 figures[name].append(took)
-                figures["builds " + name].append(sum(1 for p in phases if p["name"] != "Execution"))
+                figures["builds " + name].append(sum(1 for p in phases if p["name"] not in ("Execution", "Type inference")))
                 for p in phases:
                     figures["phase " + p["name"]].append(p["seconds"])
         done = sum(args.cells for _ in WARM_KINDS)

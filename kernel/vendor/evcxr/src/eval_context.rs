@@ -228,6 +228,15 @@ impl Config {
         if self.allow_static_linking && self.cache_bytes == 0 {
             if let Some(sccache) = &self.sccache {
                 command.env("RUSTC_WRAPPER", sccache);
+            } else if command_name == "build" {
+                // Plumbline patch (PLUMBLINE-PATCH.md, 2): the cell crate's rustc
+                // invocation is recorded, so that later cells can skip cargo.
+                command.env("RUSTC_WORKSPACE_WRAPPER", &self.subprocess_path);
+                command.env(runtime::WRAP_RUSTC_ENV, "1");
+                command.env(
+                    crate::module::RECORD_RUSTC_ENV,
+                    self.crate_dir().join(crate::module::RECORDED_RUSTC_FILE),
+                );
             }
         } else {
             command.env("RUSTC_WRAPPER", &self.subprocess_path);

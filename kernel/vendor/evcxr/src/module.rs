@@ -123,6 +123,94 @@ fn rename_or_copy_so_file(src: &Path, dest: &Path) -> Result<(), Error> {
 pub(crate) struct Module {
     build_num: i32,
     last_allow_static: Option<bool>,
+    /// Plumbline patch (PLUMBLINE-PATCH.md, 2): the cell crate's rustc
+    /// invocation from the last cargo build, and what it is valid for.
+    direct_rustc: Option<DirectRustc>,
+}
+
+/// Where the rustc wrapper records the cell crate's invocation (an env var
+/// naming a file in the crate directory).
+pub(crate) const RECORD_RUSTC_ENV: &str = "EVCXR_RECORD_CTX_RUSTC";
+pub(crate) const RECORDED_RUSTC_FILE: &str = ".evcxr-ctx-rustc.json";
+
+/// The rustc invocation cargo made for the cell crate: program, arguments,
+/// environment and working directory, exactly as the wrapper received them.
+#[derive(serde::Serialize, serde::Deserialize, Clone, PartialEq, Debug)]
+struct RecordedRustc {
+    program: String,
+    args: Vec<String>,
+    env: Vec<(String, String)>,
+    cwd: String,
+}
+
+/// A recorded invocation and the inputs it was recorded for. It is used
+/// instead of cargo only while all of them are unchanged: the manifest and
+/// cargo configuration the cell crate is built with, the cargo command's own
+/// arguments and environment, and the files of the crates it links
+/// (`--extern`), by size and modification time.
+struct DirectRustc {
+    recorded: RecordedRustc,
+    inputs: String,
+    externs: Vec<(PathBuf, Option<(u64, std::time::SystemTime)>)>,
+}
+
+impl DirectRustc {
+    fn extern_files(recorded: &RecordedRustc) -> Vec<(PathBuf, Option<(u64, std::time::SystemTime)>)> {
+        let mut files = Vec::new();
+        let mut args = recorded.args.iter();
+        while let Some(arg) = args.next() {
+            if arg == "--extern"
+                && let Some((_, path)) = args.next().and_then(|e| e.split_once('='))
+            {
+                let path = PathBuf::from(path);
+                let stamp = fs::metadata(&path)
+                    .ok()
+                    .and_then(|m| Some((m.len(), m.modified().ok()?)));
+                files.push((path, stamp));
+            }
+        }
+        files
+    }
+
+    fn still_valid(&self, inputs: &str) -> bool {
+        let externs = Self::extern_files(&self.recorded);
+        self.inputs == inputs && externs == self.externs && externs.iter().all(|(_, s)| s.is_some())
+    }
+
+    fn command(&self) -> Command {
+        let mut command = Command::new(&self.recorded.program);
+        command
+            .args(&self.recorded.args)
+            .env_clear()
+            .envs(self.recorded.env.iter().map(|(k, v)| (k, v)))
+            .current_dir(&self.recorded.cwd);
+        command
+    }
+
+    /// The shared object rustc writes (`--out-dir` / `lib<crate>.so`).
+    fn output(&self) -> Option<PathBuf> {
+        let mut args = self.recorded.args.iter();
+        while let Some(arg) = args.next() {
+            if arg == "--out-dir" {
+                return args
+                    .next()
+                    .map(|dir| PathBuf::from(dir).join(shared_object_name_from_crate_name(CRATE_NAME)));
+            }
+        }
+        None
+    }
+}
+
+/// What a recorded invocation depends on besides the extern files: the
+/// manifest, the cargo configuration, and the cargo command line with its
+/// environment.
+fn direct_rustc_inputs(command: &Command, config: &Config) -> String {
+    let read = |path: PathBuf| fs::read_to_string(path).unwrap_or_default();
+    let mut inputs = read(config.crate_dir().join("Cargo.toml"));
+    inputs.push_str(&read(config.crate_dir().join(".cargo").join("config.toml")));
+    inputs.push_str(&format!("{:?}", command.get_args().collect::<Vec<_>>()));
+    inputs.push_str(&format!("{:?}", command.get_envs().collect::<Vec<_>>()));
+    inputs
 }
 
 const CRATE_NAME: &str = "ctx";
@@ -132,6 +220,7 @@ impl Module {
         Ok(Module {
             build_num: 0,
             last_allow_static: None,
+            direct_rustc: None,
         })
     }
 
@@ -198,18 +287,42 @@ impl Module {
             Err(error) => return Err(error.into()),
         }
 
-        let cargo_output = run_cargo(command, code_block)?;
-        if config.time_passes {
-            let output = String::from_utf8_lossy(&cargo_output.stderr);
-            eprintln!("{output}");
-        }
-
-        let so_file = match fs::read_to_string(&so_path_file) {
-            Ok(path) => PathBuf::from(path),
-            Err(error) if error.kind() == std::io::ErrorKind::NotFound => {
-                compiled_so_path(&cargo_output.stdout)?
+        // Plumbline patch (PLUMBLINE-PATCH.md, 2): while nothing cargo would
+        // look at has changed, run the cell crate's recorded rustc invocation
+        // instead of cargo, which spends about 0.2 s per build checking ~400
+        // dependencies that cannot have changed.
+        let inputs = direct_rustc_inputs(&command, config);
+        let direct = self
+            .direct_rustc
+            .as_ref()
+            .filter(|direct| direct.still_valid(&inputs))
+            .and_then(|direct| Some((direct.command(), direct.output()?)));
+        let so_file = if let Some((rustc, output)) = direct {
+            run_rustc(rustc, code_block)?;
+            output
+        } else {
+            let record = config.crate_dir().join(RECORDED_RUSTC_FILE);
+            let _ = fs::remove_file(&record);
+            let cargo_output = run_cargo(command, code_block)?;
+            if config.time_passes {
+                let output = String::from_utf8_lossy(&cargo_output.stderr);
+                eprintln!("{output}");
             }
-            Err(error) => return Err(error.into()),
+            self.direct_rustc = fs::read_to_string(&record)
+                .ok()
+                .and_then(|text| serde_json::from_str::<RecordedRustc>(&text).ok())
+                .map(|recorded| DirectRustc {
+                    externs: DirectRustc::extern_files(&recorded),
+                    recorded,
+                    inputs,
+                });
+            match fs::read_to_string(&so_path_file) {
+                Ok(path) => PathBuf::from(path),
+                Err(error) if error.kind() == std::io::ErrorKind::NotFound => {
+                    compiled_so_path(&cargo_output.stdout)?
+                }
+                Err(error) => return Err(error.into()),
+            }
         };
 
         let copied_so_file = so_file.with_file_name(shared_object_name_from_crate_name(&format!(
@@ -312,6 +425,7 @@ pub(crate) fn wrap_rustc() {
 
 pub(crate) fn wrap_rustc_helper() -> Result<i32> {
     let mut command = rustc_command()?;
+    record_ctx_rustc(&command)?;
 
     let cache_result = cache::access_cache(&command)?;
     if matches!(cache_result, CacheResult::Hit) {
@@ -334,6 +448,64 @@ pub(crate) fn wrap_rustc_helper() -> Result<i32> {
     }
 
     Ok(output.status.code().unwrap_or(-1))
+}
+
+/// Plumbline patch (PLUMBLINE-PATCH.md, 2): when cargo asked for it (the cell
+/// crate's build, through `RUSTC_WORKSPACE_WRAPPER`), writes this rustc
+/// invocation where [`RECORD_RUSTC_ENV`] says, for `Module::compile` to rerun.
+fn record_ctx_rustc(command: &Command) -> Result<()> {
+    let Some(path) = std::env::var_os(RECORD_RUSTC_ENV) else {
+        return Ok(());
+    };
+    let args: Option<Vec<String>> = command
+        .get_args()
+        .map(|a| a.to_str().map(str::to_owned))
+        .collect();
+    let (Some(args), Some(program), Ok(cwd)) = (
+        args,
+        command.get_program().to_str().map(str::to_owned),
+        std::env::current_dir(),
+    ) else {
+        return Ok(());
+    };
+    if !args.windows(2).any(|w| w[0] == "--crate-name" && w[1] == CRATE_NAME) {
+        return Ok(());
+    }
+    let env: Option<Vec<(String, String)>> = std::env::vars_os()
+        .filter(|(k, _)| k != RECORD_RUSTC_ENV && k != crate::runtime::WRAP_RUSTC_ENV)
+        .map(|(k, v)| Some((k.into_string().ok()?, v.into_string().ok()?)))
+        .collect();
+    let (Some(env), Some(cwd)) = (env, cwd.to_str().map(str::to_owned)) else {
+        return Ok(());
+    };
+    let recorded = RecordedRustc {
+        program,
+        args,
+        env,
+        cwd,
+    };
+    fs::write(path, serde_json::to_vec(&recorded)?)?;
+    Ok(())
+}
+
+/// Runs the cell crate's rustc invocation directly; compile errors come back
+/// as cargo's would (rustc writes the same JSON diagnostics on stderr).
+fn run_rustc(mut command: Command, code_block: &CodeBlock) -> Result<(), Error> {
+    let output = match command.output() {
+        Ok(output) => output,
+        Err(err) => bail!("Error running rustc: {}", err),
+    };
+    if output.status.success() {
+        return Ok(());
+    }
+    let (errors, _) = errors_from_cargo_output(&output, code_block);
+    if errors.is_empty() {
+        bail!(Error::Message(format!(
+            "Compilation failed, but no parsable errors were found. STDERR:\n{}",
+            String::from_utf8_lossy(&output.stderr)
+        )));
+    }
+    bail!(Error::CompilationErrors(errors));
 }
 
 fn report_execution_so(command: &Command) -> Result<()> {
