@@ -4,6 +4,7 @@
 //! a [`MimeBundle`] by the single display trait [`Report`].
 
 mod accuracy_table;
+#[macro_use]
 mod bundle;
 mod diagnostics_text;
 mod drift_report;
@@ -44,7 +45,7 @@ pub use result_reports::AssumptionTests;
 pub use text::{assembled_fit_text, fit_text, predictions_text};
 
 // Every `Report` type of this crate, shown richly as a cell's last value.
-crate::shown_in_cells!(
+shown_in_cells!(
     Explained<'_>,
     crate::diagnose::SpatialCheck,
     crate::value::TierStudy,

@@ -37,7 +37,7 @@
 //! standby, in the new setting.
 //!
 //! Set `PLUMBLINE_STANDBY=off` to start no standby kernels (a waiting one
-//! holds the engine's memory, about 1.6 GB).
+//! holds the engine's memory, a peak of about 2.3 GB).
 //!
 //! The hand-over is one JSON line each way ([`HandoverRequest`],
 //! [`HandoverReply`], version [`HANDOVER_VERSION`]); afterwards the launcher
