@@ -214,8 +214,8 @@ impl RustAnalyzer {
             ..CargoConfig::default()
         };
         let workspace = ProjectWorkspace::load(manifest, &config, &|_| {})?;
-        let load = workspace
-            .to_roots()
+        let roots = workspace.to_roots();
+        let load = roots
             .iter()
             .map(|root| {
                 ra_vfs::loader::Entry::Directories(ra_vfs::loader::Directories {
@@ -263,11 +263,35 @@ impl RustAnalyzer {
             }
             change.change_file(file_id, new_contents);
         }
+        // Plumbline patch (PLUMBLINE-PATCH.md, 3): one source root per package
+        // root, and those not on the local filesystem (registry crates, the
+        // standard library) as libraries. A library's files get high durability,
+        // so after a cell changes `src/lib.rs` the type inference does not
+        // re-verify what it derived from ~400 dependencies' sources.
+        let mut file_sets = ra_vfs::file_set::FileSetConfig::builder();
+        for root in &roots {
+            file_sets.add_file_set(
+                root.include
+                    .iter()
+                    .cloned()
+                    .map(ra_vfs::VfsPath::from)
+                    .collect(),
+            );
+        }
         change.set_roots(
-            ra_vfs::file_set::FileSetConfig::default()
+            file_sets
+                .build()
                 .partition(&self.vfs)
                 .into_iter()
-                .map(SourceRoot::new_local)
+                .enumerate()
+                .map(|(index, file_set)| {
+                    // The last set holds the files under no root.
+                    if roots.get(index).is_some_and(|root| !root.is_local) {
+                        SourceRoot::new_library(file_set)
+                    } else {
+                        SourceRoot::new_local(file_set)
+                    }
+                })
                 .collect(),
         );
         let (crate_graph, _) = workspace.to_crate_graph(
