@@ -96,14 +96,21 @@ pub trait CellValue {
 }
 
 impl<T: std::fmt::Debug + ?Sized> CellValue for T {
+    // Compiled into every cell that ends in such a value, so it does no more
+    // than format; the writing is `emit_plain_text`, compiled once here.
     fn evcxr_display(&self) {
-        if std::any::type_name::<T>() == "()" {
-            return;
+        if std::any::type_name::<T>() != "()" {
+            emit_plain_text(&format!("{self:?}"));
         }
-        let mut bundle = MimeBundle::default();
-        bundle.entries.insert("text/plain".to_string(), format!("{self:?}"));
-        emit(&bundle);
     }
+}
+
+/// Writes `text` as the engine's `text/plain` content block (the one
+/// rendering a value without a [`Report`] has).
+pub fn emit_plain_text(text: &str) {
+    let mut out = std::io::stdout().lock();
+    write_block(&mut out, "text/plain", text);
+    let _ = out.flush();
 }
 
 /// Writes a bundle as engine content blocks (`EVCXR_BEGIN_CONTENT mime` …
@@ -111,7 +118,12 @@ impl<T: std::fmt::Debug + ?Sized> CellValue for T {
 pub fn emit(bundle: &MimeBundle) {
     let mut out = std::io::stdout().lock();
     for (mime, content) in &bundle.entries {
-        let _ = write!(out, "EVCXR_BEGIN_CONTENT {mime}\n{content}\nEVCXR_END_CONTENT\n");
+        write_block(&mut out, mime, content);
     }
     let _ = out.flush();
+}
+
+/// One engine content block: `EVCXR_BEGIN_CONTENT mime`, the content, `EVCXR_END_CONTENT`.
+fn write_block(out: &mut impl Write, mime: &str, content: &str) {
+    let _ = write!(out, "EVCXR_BEGIN_CONTENT {mime}\n{content}\nEVCXR_END_CONTENT\n");
 }
