@@ -20,8 +20,9 @@
 //! | price tiers | [`Versioned`]`<`[`TierStudy`]`>` | `plumbline.price-tiers` | 1 | [`crate::schema::PRICE_TIERS_JSON_MIME`] |
 //! | value accuracy | [`Versioned`]`<`[`ValueAccuracy`]`>` | `plumbline.value-accuracy` | 1 | [`crate::schema::VALUE_ACCURACY_JSON_MIME`] |
 //! | holdout accuracy | [`Versioned`]`<`[`HoldoutAccuracy`]`>` | `plumbline.holdout-accuracy` | 1 | [`crate::schema::HOLDOUT_ACCURACY_JSON_MIME`] |
-//! | value roll | [`Versioned`]`<`[`ValueRoll`]`>` | `plumbline.value-roll` | 1 | [`crate::schema::VALUE_ROLL_JSON_MIME`] |
+//! | value roll | [`Versioned`]`<`[`ValueRoll`]`>` | `plumbline.value-roll` | 2 | [`crate::schema::VALUE_ROLL_JSON_MIME`] |
 //! | sales-chasing check | [`Versioned`]`<`[`SalesChasingCheck`]`>` | `plumbline.sales-chasing` | 1 | [`crate::schema::SALES_CHASING_JSON_MIME`] |
+//! | models by group | [`Versioned`]`<`[`StratifiedSummary`]`>` | `plumbline.stratified-fit` | 1 | [`crate::schema::STRATIFIED_FIT_JSON_MIME`] |
 //!
 //! The later documents share one wrapper, [`Versioned`], whose name and
 //! version come from the body type's [`DocumentKind`]; [`read_document`] reads
@@ -38,8 +39,9 @@ use crate::inference::FitSummary;
 use crate::predict::Predictions;
 use crate::schema::{
     HOLDOUT_ACCURACY_JSON_MIME, PRICE_TIERS_JSON_MIME, SALES_CHASING_JSON_MIME, SPATIAL_CHECK_JSON_MIME,
-    VALUE_ACCURACY_JSON_MIME, VALUE_ROLL_JSON_MIME,
+    STRATIFIED_FIT_JSON_MIME, VALUE_ACCURACY_JSON_MIME, VALUE_ROLL_JSON_MIME,
 };
+use crate::strata::StratifiedSummary;
 use crate::value::{HoldoutAccuracy, RatioStudy, SalesChasingCheck, TierStudy, ValueAccuracy, ValueRoll};
 use serde::de::DeserializeOwned;
 use serde::{Deserialize, Serialize};
@@ -280,8 +282,10 @@ document_kind!(SpatialCheck, "plumbline.spatial-check", 1, SPATIAL_CHECK_JSON_MI
 document_kind!(TierStudy, "plumbline.price-tiers", 1, PRICE_TIERS_JSON_MIME, "price-tiers");
 document_kind!(ValueAccuracy, "plumbline.value-accuracy", 1, VALUE_ACCURACY_JSON_MIME, "value-accuracy");
 document_kind!(HoldoutAccuracy, "plumbline.holdout-accuracy", 1, HOLDOUT_ACCURACY_JSON_MIME, "holdout-accuracy");
-document_kind!(ValueRoll, "plumbline.value-roll", 1, VALUE_ROLL_JSON_MIME, "value-roll");
+// Value roll 2: a parcel without a value may say why (`not_valued`); version 1 reads unchanged.
+document_kind!(ValueRoll, "plumbline.value-roll", 2, VALUE_ROLL_JSON_MIME, "value-roll");
 document_kind!(SalesChasingCheck, "plumbline.sales-chasing", 1, SALES_CHASING_JSON_MIME, "sales-chasing");
+document_kind!(StratifiedSummary, "plumbline.stratified-fit", 1, STRATIFIED_FIT_JSON_MIME, "stratified-fit");
 
 /// Serializes a document as compact JSON.
 pub fn to_json<T: Serialize>(document: &T, what: &'static str) -> Result<String> {

@@ -17,7 +17,10 @@
 //!   crossed the range (inside → outside or back), overall and per group;
 //! * when both runs carry a value roll ([`ValueRoll`], every parcel's value),
 //!   the sales-chasing check of [`crate::value::sales_chasing_check`]: sold
-//!   against unsold parcels' value changes.
+//!   against unsold parcels' value changes;
+//! * for models by group ([`StratifiedSummary`], one model per market area),
+//!   each group's fit drift as above, the groups that gained or lost their
+//!   model, and the equality tests' p-values old → new.
 //!
 //! The ranges are those recorded in the ratio-study documents themselves (see
 //! [`crate::value::standards`]; recalled from memory, verify before use).
@@ -26,7 +29,8 @@ use crate::documents::{read_document, read_fit, read_ratio_study, FitDocument, R
 use crate::error::{Error, Result};
 use crate::fit::Fit;
 use crate::inference::FitSummary;
-use crate::schema::{FIT_JSON_MIME, RATIO_JSON_MIME, VALUE_ROLL_JSON_MIME};
+use crate::schema::{FIT_JSON_MIME, RATIO_JSON_MIME, STRATIFIED_FIT_JSON_MIME, VALUE_ROLL_JSON_MIME};
+use crate::strata::StratifiedSummary;
 use crate::value::{sales_chasing_check, RatioOptions, RatioStatistics, RatioStudy, SalesChasingCheck, ValueRoll};
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
@@ -34,8 +38,9 @@ use serde_json::Value;
 /// `schema` of the drift report.
 pub const DRIFT_SCHEMA: &str = "plumbline.drift";
 /// Version of [`DriftReport`]. 1 is the first versioned form; 2 adds
-/// `sales_chasing` and `sales_chasing_not_run`.
-pub const DRIFT_SCHEMA_VERSION: u32 = 2;
+/// `sales_chasing` and `sales_chasing_not_run`; 3 adds `by_group` (models by
+/// group) and `unpaired_by_group`.
+pub const DRIFT_SCHEMA_VERSION: u32 = 3;
 
 /// The machine-readable results one run produced, in the order it produced them.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
@@ -48,6 +53,8 @@ pub struct RunResults {
     pub ratio_studies: Vec<RatioStudyDocument>,
     /// Value rolls (every parcel's value).
     pub value_rolls: Vec<ValueRoll>,
+    /// Sets of models by group (one model per market area).
+    pub stratified_fits: Vec<StratifiedSummary>,
 }
 
 impl RunResults {
@@ -63,7 +70,7 @@ impl RunResults {
     /// type — malformed, a field missing, a newer schema version — is an
     /// error naming this run's source.
     pub fn add_document(&mut self, mime: &str, document: &Value) -> Result<bool> {
-        if mime != FIT_JSON_MIME && mime != RATIO_JSON_MIME && mime != VALUE_ROLL_JSON_MIME {
+        if ![FIT_JSON_MIME, RATIO_JSON_MIME, VALUE_ROLL_JSON_MIME, STRATIFIED_FIT_JSON_MIME].contains(&mime) {
             return Ok(false);
         }
         let parsed = match document {
@@ -77,6 +84,8 @@ impl RunResults {
             self.fits.push(read_fit(parsed, &self.source)?);
         } else if mime == VALUE_ROLL_JSON_MIME {
             self.value_rolls.push(read_document::<ValueRoll>(parsed, &self.source)?.body);
+        } else if mime == STRATIFIED_FIT_JSON_MIME {
+            self.stratified_fits.push(read_document::<StratifiedSummary>(parsed, &self.source)?.body);
         } else {
             self.ratio_studies.push(read_ratio_study(parsed, &self.source)?);
         }
@@ -97,7 +106,10 @@ impl RunResults {
 
     /// True when the run holds no result [`drift`] can compare.
     pub fn is_empty(&self) -> bool {
-        self.fits.is_empty() && self.ratio_studies.is_empty() && self.value_rolls.is_empty()
+        self.fits.is_empty()
+            && self.ratio_studies.is_empty()
+            && self.value_rolls.is_empty()
+            && self.stratified_fits.is_empty()
     }
 }
 
@@ -212,12 +224,84 @@ pub struct DriftReport {
     /// roll (e.g. no parcel sold between them).
     #[serde(default)]
     pub sales_chasing_not_run: Option<String>,
+    /// One entry per paired set of models by group (version 3).
+    #[serde(default)]
+    pub by_group: Vec<StratifiedDrift>,
+    /// Sets of models by group present in only one run (version 3).
+    #[serde(default)]
+    pub unpaired_by_group: usize,
+}
+
+/// What happened to one group between two runs of models by group.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+#[serde(rename_all = "snake_case", tag = "change")]
+pub enum GroupChange {
+    /// Fitted in both runs; the fits are compared.
+    Compared {
+        /// The group's fit drift.
+        drift: FitDrift,
+    },
+    /// The group has a model now but had none (or did not occur) before.
+    ModelGained {
+        /// Why it had none before (`None`: it did not occur).
+        before: Option<String>,
+    },
+    /// The group had a model but has none now (or does not occur).
+    ModelLost {
+        /// Why it has none now (`None`: it does not occur).
+        now: Option<String>,
+    },
+    /// Without a model in both runs.
+    NeverFitted {
+        /// Why it has none now.
+        now: Option<String>,
+    },
+}
+
+/// One group across two runs.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct GroupDrift {
+    /// The group's value in the grouping column.
+    pub group: String,
+    /// What happened to it.
+    #[serde(flatten)]
+    pub change: GroupChange,
+}
+
+/// The drift between two sets of models by group.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct StratifiedDrift {
+    /// The grouping column (the new run's).
+    pub grouped_by: String,
+    /// The target as modelled.
+    pub target: String,
+    /// Every group of either run, in label order.
+    pub groups: Vec<GroupDrift>,
+    /// The pooled model's drift, when both runs have one.
+    pub pooled: Option<FitDrift>,
+    /// Each equality test's p-value, old → new (by hypothesis).
+    pub tests: Vec<StatisticDrift>,
 }
 
 impl DriftReport {
     /// Coefficients (over every fit) whose new estimate left the old interval.
     pub fn moved_coefficients(&self) -> impl Iterator<Item = &CoefficientDrift> {
         self.fits.iter().flat_map(|f| f.coefficients.iter().filter(|c| c.moved))
+    }
+
+    /// Coefficients of the models by group whose new estimate left the old interval.
+    pub fn moved_group_coefficients(&self) -> impl Iterator<Item = (&str, &CoefficientDrift)> {
+        self.by_group.iter().flat_map(|set| {
+            set.groups.iter().flat_map(|g| match &g.change {
+                GroupChange::Compared { drift } => {
+                    drift.coefficients.iter().filter(|c| c.moved).map(|c| (g.group.as_str(), c)).collect()
+                }
+                _ => Vec::new(),
+            })
+        })
     }
 
     /// Ratio-study statistics (over every study) that crossed their range.
@@ -248,7 +332,48 @@ pub fn drift(old: &RunResults, new: &RunResults) -> DriftReport {
         unpaired_ratio_studies: old.ratio_studies.len().abs_diff(new.ratio_studies.len()),
         sales_chasing: chasing.as_ref().and_then(|c| c.as_ref().ok()).cloned(),
         sales_chasing_not_run: chasing.and_then(|c| c.err()).map(|e| e.to_string()),
+        by_group: old.stratified_fits.iter().zip(&new.stratified_fits).map(|(a, b)| compare_by_group(a, b)).collect(),
+        unpaired_by_group: old.stratified_fits.len().abs_diff(new.stratified_fits.len()),
     }
+}
+
+/// Compares two sets of models by group, group by group (paired by label).
+pub fn compare_by_group(old: &StratifiedSummary, new: &StratifiedSummary) -> StratifiedDrift {
+    let mut labels: Vec<&str> = old.strata.iter().chain(&new.strata).map(|s| s.group.as_str()).collect();
+    labels.sort_unstable();
+    labels.dedup();
+    let groups = labels
+        .into_iter()
+        .map(|label| {
+            let before = old.strata.iter().find(|s| s.group == label);
+            let after = new.strata.iter().find(|s| s.group == label);
+            let change = match (before.and_then(|s| s.fit.as_ref()), after.and_then(|s| s.fit.as_ref())) {
+                (Some(a), Some(b)) => GroupChange::Compared {
+                    drift: compare_fits(&FitDocument::from(a.clone()), &FitDocument::from(b.clone())),
+                },
+                (None, Some(_)) => GroupChange::ModelGained { before: before.and_then(|s| s.not_fitted.clone()) },
+                (Some(_), None) => GroupChange::ModelLost { now: after.and_then(|s| s.not_fitted.clone()) },
+                (None, None) => GroupChange::NeverFitted { now: after.and_then(|s| s.not_fitted.clone()) },
+            };
+            GroupDrift { group: label.to_string(), change }
+        })
+        .collect();
+    let pooled = match (&old.pooled, &new.pooled) {
+        (Some(a), Some(b)) => Some(compare_fits(&FitDocument::from(a.clone()), &FitDocument::from(b.clone()))),
+        _ => None,
+    };
+    let mut tests: Vec<StatisticDrift> = Vec::new();
+    for test in old.tests.iter().chain(&new.tests) {
+        let name = test.hypothesis.words().to_string();
+        if tests.iter().any(|t| t.statistic == name) {
+            continue;
+        }
+        let p = |set: &StratifiedSummary| {
+            set.tests.iter().find(|t| t.hypothesis == test.hypothesis).and_then(|t| t.p_value)
+        };
+        tests.push(StatisticDrift { statistic: name, old: p(old), new: p(new) });
+    }
+    StratifiedDrift { grouped_by: new.grouped_by.clone(), target: new.target.clone(), groups, pooled, tests }
 }
 
 /// A coefficient's `(estimate, interval low, interval high)` by term.

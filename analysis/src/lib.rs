@@ -32,6 +32,7 @@
 //! | [`spatial`] | spatial weights between parcels and Moran's I |
 //! | [`compare`] | nested tests, side-by-side tables, cross-validation, holdout splits |
 //! | [`value`] | ratio studies, price tiers, value accuracy, sales-chasing check, sale-date adjustment, model values and the value roll |
+//! | [`strata`] | one model per market area (or any grouping column), the pooled models, the F tests of equal coefficients, valuing by group |
 //! | [`documents`] | the JSON documents we write, as types, and how each is read back |
 //! | [`drift`] | what moved between two runs of a study |
 //! | [`render`] | every human-readable report |
@@ -58,6 +59,7 @@ pub mod render;
 pub mod schema;
 pub mod spatial;
 pub mod stats;
+pub mod strata;
 pub mod value;
 
 pub use error::{Error, Result};
@@ -81,5 +83,6 @@ pub mod prelude {
     pub use crate::model::{ModelSpec, NamedPoint, TargetTransform, Term, Transform};
     pub use crate::predict::{Prediction, Predictions};
     pub use crate::render::{clear_output, show, show_updatable, update, CellValue, LiveProgress, Report};
+    pub use crate::strata::{fit_batches_by, fit_by, fit_by_with, StratifiedFit};
     pub use crate::{Error, Result};
 }

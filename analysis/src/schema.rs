@@ -20,6 +20,8 @@ pub const VALUE_ACCURACY_JSON_MIME: &str = "application/vnd.plumbline.value-accu
 pub const HOLDOUT_ACCURACY_JSON_MIME: &str = "application/vnd.plumbline.holdout-accuracy+json";
 /// MIME type of a value roll (every parcel's value from one run).
 pub const VALUE_ROLL_JSON_MIME: &str = "application/vnd.plumbline.value-roll+json";
+/// MIME type of a set of models fitted within each group of a column.
+pub const STRATIFIED_FIT_JSON_MIME: &str = "application/vnd.plumbline.stratified-fit+json";
 /// MIME type of the sales-chasing check between two runs.
 pub const SALES_CHASING_JSON_MIME: &str = "application/vnd.plumbline.sales-chasing+json";
 

@@ -169,6 +169,12 @@ pub struct FitArgs {
     /// no row-level results (--predict, --diagnose, --influence, --spatial-check).
     #[arg(long, value_name = "N")]
     pub batch_rows: Option<usize>,
+    /// Fit the model separately within each group of this column (a market
+    /// area, say), beside the pooled model, with the F tests of whether the
+    /// groups need models of their own. A group too small to fit is listed
+    /// with its reason. JSON output is the `plumbline.stratified-fit` document.
+    #[arg(long, value_name = "COL")]
+    pub by: Option<String>,
 }
 
 /// Flags of the spatial check of a fit's residuals (Moran's I).

@@ -18,6 +18,7 @@ use plumbline::documents::{
     read_comparison, read_fit, read_ratio_study, ComparisonDocument, FitDocument, RatioStudyDocument,
 };
 use plumbline::drift::DriftReport;
+use plumbline::strata::StratifiedSummary;
 use plumbline::value::{HoldoutAccuracy, SalesChasingCheck, TierStudy, ValueAccuracy, ValueRoll};
 use plumbline_kernel::cli::{Cli, Command};
 use plumbline_kernel::commands::{compare, fit, ratio, CommandError};
@@ -38,6 +39,7 @@ fn generated_schemas() -> Vec<(&'static str, schemars::Schema)> {
         ("holdout-accuracy.schema.json", schemars::schema_for!(Versioned<HoldoutAccuracy>)),
         ("value-roll.schema.json", schemars::schema_for!(Versioned<ValueRoll>)),
         ("sales-chasing.schema.json", schemars::schema_for!(Versioned<SalesChasingCheck>)),
+        ("stratified-fit.schema.json", schemars::schema_for!(Versioned<StratifiedSummary>)),
     ]
 }
 
@@ -222,4 +224,85 @@ fn the_valuation_check_documents_read_back_through_their_types() {
     let document = read_ratio_study(serde_json::from_str(&text).expect("JSON"), "test").expect("ratio document");
     assert_eq!(document.tiers.expect("tiers").tiers.len(), 4);
     assert_eq!(document.accuracy.expect("accuracy").within_10, 1.0);
+}
+
+/// Writes `sales` with the rows of `district` cut to its first `keep` rows
+/// (the demo generator's sales; the cut makes one market area too small).
+fn sales_with_small_district(dir: &std::path::Path, name: &str, district: &str, keep: usize) -> String {
+    let text = std::fs::read_to_string(repo_root().join("notebooks-demo/data/sales.csv")).expect("demo sales");
+    let mut lines = text.lines();
+    let mut out = format!("{}\n", lines.next().expect("header"));
+    let mut kept = 0;
+    for line in lines {
+        if line.split(',').nth(9) == Some(district) {
+            if kept == keep {
+                continue;
+            }
+            kept += 1;
+        }
+        out.push_str(line);
+        out.push('\n');
+    }
+    plumbline_tests::write_file(dir, name, &out).display().to_string()
+}
+
+/// The models-by-group document reads back through its type unchanged, and
+/// `plumbline diff` of two runs reports each market area's movement: the
+/// areas compared, and the one whose model was lost with the reason.
+#[test]
+fn the_stratified_document_reads_back_and_diff_reports_each_area() {
+    use plumbline::documents::read_document;
+    use plumbline::drift::GroupChange;
+    let dir = plumbline_tests::scratch_dir("stratified-documents");
+    let fit_by = |data: &str| {
+        run(&[
+            "fit",
+            data,
+            "--target",
+            "sale_price",
+            "--log-target",
+            "--log",
+            "living_area",
+            "--terms",
+            "age,quality",
+            "--by",
+            "district",
+            "--format",
+            "json",
+        ])
+        .expect("fit --by")
+    };
+    let full = repo_root().join("notebooks-demo/data/sales.csv").display().to_string();
+    let text = fit_by(&full);
+    let raw: serde_json::Value = serde_json::from_str(&text).expect("JSON");
+    assert_eq!(raw["schema"], "plumbline.stratified-fit");
+    let document = read_document::<StratifiedSummary>(raw.clone(), "the test").expect("reads as its type");
+    assert_eq!(serde_json::to_value(&document).expect("serializes"), raw);
+    assert_eq!(document.body.strata.len(), 6);
+    assert_eq!(document.body.tests.len(), 2);
+
+    let old = plumbline_tests::write_file(&dir, "old.json", &text);
+    let small = sales_with_small_district(&dir, "new-sales.csv", "Pellowick", 3);
+    let new = plumbline_tests::write_file(&dir, "new.json", &fit_by(&small));
+    let cli = Cli::try_parse_from([
+        "plumbline",
+        "diff",
+        old.to_str().expect("utf8"),
+        new.to_str().expect("utf8"),
+        "--format",
+        "json",
+    ])
+    .expect("diff arguments");
+    let Command::Diff(args) = cli.command else { panic!("diff") };
+    let report: DriftReport =
+        serde_json::from_str(&plumbline_kernel::commands::diff::run(&args).expect("diff")).expect("drift JSON");
+    let set = report.by_group.first().expect("the models by group are paired");
+    assert_eq!(set.groups.len(), 6);
+    let pellowick = set.groups.iter().find(|g| g.group == "Pellowick").expect("Pellowick");
+    match &pellowick.change {
+        GroupChange::ModelLost { now: Some(reason) } => assert!(reason.contains('3'), "{reason}"),
+        other => panic!("Pellowick lost its model, got {other:?}"),
+    }
+    let compared = set.groups.iter().filter(|g| matches!(g.change, GroupChange::Compared { .. })).count();
+    assert_eq!(compared, 5, "the other five areas are compared");
 }

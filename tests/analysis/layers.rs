@@ -29,6 +29,8 @@ const LAYERS: &[&[&str]] = &[
     &["inference"],
     // Uses of a fit, side by side.
     &["predict", "diagnose", "compare", "value", "accuracy"],
+    // Models by group: per-group fits, pooled models, equality tests, valuing by group.
+    &["strata"],
     // Charts, and the documents we write (each read back through its type).
     &["plot", "documents"],
     // What moved between two runs, read from their documents.

@@ -14,6 +14,7 @@
 //! | [`residuals_by_group`] | the miss by location group, boxes and medians |
 //! | [`influence_by_value`] | Cook's distance by model value, 4/n line, influential sales named |
 //! | [`coefficient_intervals`] | estimates with intervals, sorted, zero line |
+//! | [`coefficient_by_group`] | one coefficient in each group's model with its interval, the pooled model's as a band |
 //! | [`histogram`] | histogram with a kernel density curve |
 //! | [`correlation_heatmap`] | correlation matrix of numeric columns |
 //! | [`residual_map`] | every fitted sale at its place, coloured by its miss, location groups labelled |
@@ -26,6 +27,7 @@
 mod canvas;
 mod charts_distribution;
 mod charts_fit;
+mod charts_groups;
 mod charts_place;
 mod charts_residual;
 mod review;
@@ -35,6 +37,7 @@ mod theme;
 
 pub use charts_distribution::{correlation_heatmap, histogram};
 pub use charts_fit::{coefficient_intervals, fit_line};
+pub use charts_groups::coefficient_by_group;
 pub use charts_place::{ratio_by_price, residual_map};
 pub use charts_residual::MAX_GROUPS_SHOWN;
 pub use review::{ReviewOptions, DEFAULT_LABELLED};

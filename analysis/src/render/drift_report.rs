@@ -8,7 +8,7 @@ use super::html::{card_end, card_start, escape, table, CAUTION, NOTE, SUBTLE};
 use super::numbers::{format_count, format_trimmed};
 use super::prose::VALUATION_CAUTION;
 use crate::documents::to_json;
-use crate::drift::{CoefficientDrift, DataStamp, DriftReport, FitDrift, ThresholdDrift};
+use crate::drift::{CoefficientDrift, DataStamp, DriftReport, FitDrift, GroupChange, StratifiedDrift, ThresholdDrift};
 
 fn number(v: Option<f64>) -> String {
     v.map(|x| format_trimmed(x, 5)).unwrap_or_else(|| "—".into())
@@ -77,10 +77,101 @@ fn threshold_label(t: &ThresholdDrift) -> String {
     }
 }
 
+/// The statistic `name` of a fit drift, old → new.
+fn statistic_pair(f: &FitDrift, name: &str) -> (Option<f64>, Option<f64>) {
+    f.statistics.iter().find(|s| s.statistic == name).map_or((None, None), |s| (s.old, s.new))
+}
+
+/// What happened to one group, in words (the compared case: its figures).
+fn group_change_words(change: &GroupChange) -> String {
+    let reason = |r: &Option<String>| r.as_ref().map(|r| format!(" ({r})")).unwrap_or_default();
+    match change {
+        GroupChange::Compared { drift } => {
+            let (n_old, n_new) = statistic_pair(drift, "n_obs");
+            let (r_old, r_new) = statistic_pair(drift, "r_squared");
+            let moved = drift.coefficients.iter().filter(|c| c.moved).count();
+            format!(
+                "sales used {} → {}; R² {} → {}; {moved} coefficient(s) outside their old interval",
+                number(n_old),
+                number(n_new),
+                number(r_old),
+                number(r_new)
+            )
+        }
+        GroupChange::ModelGained { before } => format!("model gained; before: no model{}", reason(before)),
+        GroupChange::ModelLost { now } => format!("MODEL LOST; now: no model{}", reason(now)),
+        GroupChange::NeverFitted { now } => format!("no model in either run{}", reason(now)),
+    }
+}
+
+/// One set of models by group across the runs, as text.
+fn group_drift_text(index: usize, set: &StratifiedDrift) -> String {
+    let mut out = format!("\nModels by {} {} — {}\n", set.grouped_by, index + 1, set.target);
+    let width = set.groups.iter().map(|g| g.group.chars().count()).max().unwrap_or(6).clamp(8, 28);
+    for g in &set.groups {
+        out.push_str(&format!("  {:<width$} {}\n", g.group, group_change_words(&g.change)));
+        if let GroupChange::Compared { drift } = &g.change {
+            for c in drift.coefficients.iter().filter(|c| c.moved) {
+                let (term, old, new) = moved_line(c);
+                out.push_str(&format!("  {:<width$}   {term}: {old} → {new}\n", ""));
+            }
+        }
+    }
+    if let Some(pooled) = &set.pooled {
+        out.push_str(&format!(
+            "  {:<width$} {}\n",
+            "(pooled)",
+            group_change_words(&GroupChange::Compared { drift: pooled.clone() })
+        ));
+    }
+    for t in &set.tests {
+        out.push_str(&format!("  test, {}: p {} → {}\n", t.statistic, number(t.old), number(t.new)));
+    }
+    out
+}
+
+/// One set of models by group across the runs, as HTML.
+fn group_drift_html(index: usize, set: &StratifiedDrift) -> String {
+    let mut out = format!(
+        "<div style=\"margin-top:8px\"><b>Models by {} {} — {}</b></div>\n",
+        escape(&set.grouped_by),
+        index + 1,
+        escape(&set.target)
+    );
+    let mut rows: Vec<Vec<String>> = Vec::new();
+    for g in &set.groups {
+        let words = escape(&group_change_words(&g.change));
+        let words = match g.change {
+            GroupChange::ModelLost { .. } => format!("<b style=\"color:#c24e2f\">{words}</b>"),
+            _ => words,
+        };
+        rows.push(vec![escape(&g.group), words]);
+        if let GroupChange::Compared { drift } = &g.change {
+            for c in drift.coefficients.iter().filter(|c| c.moved) {
+                let (term, old, new) = moved_line(c);
+                rows.push(vec![
+                    String::new(),
+                    format!("<b style=\"color:#c24e2f\">{}</b> {} → {}", escape(&term), escape(&old), escape(&new)),
+                ]);
+            }
+        }
+    }
+    table(&mut out, &[&set.grouped_by, "what moved"], &[false, false], &rows);
+    for t in &set.tests {
+        out.push_str(&format!(
+            "<div style=\"{SUBTLE}\">test, {}: p {} → {}</div>\n",
+            escape(&t.statistic),
+            number(t.old),
+            number(t.new)
+        ));
+    }
+    out
+}
+
 /// The report as aligned text.
 pub fn drift_text(report: &DriftReport) -> String {
     let mut out = format!("Drift from {}\n        to {}\n", report.old, report.new);
-    let moved_total = report.moved_coefficients().count();
+    let moved_total = report.moved_coefficients().count() + report.moved_group_coefficients().count();
     let crossed_total = report.crossed_thresholds().count();
     out.push_str(&format!(
         "  {} coefficient(s) outside their old interval; {} ratio-study statistic(s) crossed their range\n",
@@ -137,6 +228,15 @@ pub fn drift_text(report: &DriftReport) -> String {
             out.push_str(&format!("  ranges: {}\n", r.standard));
         }
     }
+    for (i, set) in report.by_group.iter().enumerate() {
+        out.push_str(&group_drift_text(i, set));
+    }
+    if report.unpaired_by_group > 0 {
+        out.push_str(&format!(
+            "\n{} set(s) of models by group appear in only one of the runs and were not compared.\n",
+            report.unpaired_by_group
+        ));
+    }
     if report.unpaired_fits > 0 {
         out.push_str(&format!(
             "\n{} fit(s) appear in only one of the runs and were not compared.\n",
@@ -168,7 +268,7 @@ pub fn drift_html(report: &DriftReport) -> String {
         escape(&report.old),
         escape(&report.new)
     ));
-    let moved_total = report.moved_coefficients().count();
+    let moved_total = report.moved_coefficients().count() + report.moved_group_coefficients().count();
     let crossed_total = report.crossed_thresholds().count();
     if moved_total + crossed_total > 0 {
         out.push_str(&format!(
@@ -241,6 +341,9 @@ pub fn drift_html(report: &DriftReport) -> String {
         if !r.standard.is_empty() {
             out.push_str(&format!("<div style=\"{SUBTLE}\">Ranges: {}</div>\n", escape(&r.standard)));
         }
+    }
+    for (i, set) in report.by_group.iter().enumerate() {
+        out.push_str(&group_drift_html(i, set));
     }
     out.push_str(&format!("<div style=\"{CAUTION}\">{}</div>\n", escape(VALUATION_CAUTION)));
     if let Some(reason) = &report.sales_chasing_not_run {

@@ -19,6 +19,7 @@ mod numbers;
 mod prose;
 mod ratio_report;
 mod result_reports;
+mod strata_report;
 mod text;
 mod valuation_checks;
 
@@ -42,6 +43,7 @@ pub use numbers::{format_column, format_p_value, format_significant, format_trim
 pub use prose::VALUATION_CAUTION;
 pub use ratio_report::{ratio_html, ratio_text};
 pub use result_reports::AssumptionTests;
+pub use strata_report::{stratified_html, stratified_text};
 pub use text::{assembled_fit_text, fit_text, predictions_text};
 
 // Every `Report` type of this crate, shown richly as a cell's last value.
@@ -69,4 +71,6 @@ shown_in_cells!(
     crate::data::Screen,
     LiveProgress,
     crate::drift::DriftReport,
+    crate::strata::StratifiedFit,
+    crate::strata::StratifiedSummary,
 );

@@ -32,6 +32,10 @@ pub struct RollParcel {
     pub value: Option<f64>,
     /// The parcel's latest sale in the run's sales, if it sold.
     pub sale: Option<RollSale>,
+    /// Why the parcel has no value, when it has none (value-roll version 2;
+    /// absent in version 1 documents).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub not_valued: Option<String>,
 }
 
 /// Every parcel's value from one run.
@@ -122,7 +126,8 @@ pub fn value_roll(
                 row + 1
             )));
         }
-        out.push(RollParcel { id: id.clone(), value, sale: None });
+        let not_valued = value.is_none().then(|| "a term value is missing".to_string());
+        out.push(RollParcel { id: id.clone(), value, sale: None, not_valued });
     }
     Ok(ValueRoll {
         valuation_date,

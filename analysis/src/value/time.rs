@@ -22,13 +22,22 @@ pub fn model_values(fit: &Fit, frame: &Frame, retransform: Retransform) -> Resul
     let predictions = fit.predict(frame, 0.95)?;
     let mut values = vec![None; frame.height()];
     for p in &predictions.rows {
-        values[p.row - 1] = Some(match (retransform, p.median_original, p.mean_original) {
-            (Retransform::Median, Some(m), _) => m,
-            (Retransform::SmearingMean, _, Some(m)) => m,
-            _ => p.estimate,
-        });
+        values[p.row - 1] = Some(retransform.value_of(p));
     }
     Ok(values)
+}
+
+impl Retransform {
+    /// A prediction's value on the target's original scale: for a logged
+    /// target the median or the smearing mean as chosen, otherwise the
+    /// estimate itself.
+    pub fn value_of(self, prediction: &crate::predict::Prediction) -> f64 {
+        match (self, prediction.median_original, prediction.mean_original) {
+            (Retransform::Median, Some(m), _) => m,
+            (Retransform::SmearingMean, _, Some(m)) => m,
+            _ => prediction.estimate,
+        }
+    }
 }
 
 /// A point on a model's time axis: a date, for a model whose time trend is a

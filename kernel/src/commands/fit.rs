@@ -3,7 +3,7 @@
 use super::CommandError;
 use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg, SourceFlags, SpatialFlags};
 use plumbline::diagnose::SpatialOptions;
-use plumbline::documents::{to_pretty_json, FitDiagnostics, FitDocument};
+use plumbline::documents::{to_pretty_json, FitDiagnostics, FitDocument, Versioned};
 use plumbline::prelude::*;
 use std::collections::BTreeMap;
 
@@ -270,7 +270,10 @@ fn spatial_options(flags: &SpatialFlags) -> Result<Option<SpatialOptions>, Comma
 /// Runs `plumbline fit`; returns the report to print. Nothing is printed
 /// unless every step succeeded, so a failure never leaves partial JSON.
 pub fn run(args: &FitArgs) -> Result<String, CommandError> {
-    if let Some(batch_rows) = args.batch_rows.or_else(|| args.data.is_dir().then_some(DEFAULT_BATCH_ROWS)) {
+    if let Some(column) = &args.by {
+        return run_by_group(args, column);
+    }
+    if let Some(batch_rows) = batch_rows(args) {
         return run_in_batches(args, batch_rows);
     }
     let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
@@ -345,6 +348,52 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
     }
 }
 
+/// Batch rows when the flags ask for a fit in batches (`--batch-rows`, or a directory).
+pub fn batch_rows(args: &FitArgs) -> Option<usize> {
+    args.batch_rows.or_else(|| args.data.is_dir().then_some(DEFAULT_BATCH_ROWS))
+}
+
+/// The models by group the flags describe (`--by COL`), in memory or in batches.
+pub fn fit_by_group(args: &FitArgs, column: &str) -> Result<StratifiedFit, CommandError> {
+    let refused = [
+        (args.predict.is_some(), "--predict"),
+        (args.diagnose, "--diagnose"),
+        (args.influence, "--influence"),
+        (args.spatial.spatial_check.is_some(), "--spatial-check"),
+    ];
+    if let Some((_, flag)) = refused.iter().find(|(given, _)| *given) {
+        return Err(CommandError::Usage(format!(
+            "{flag} applies to one model; with --by, fit the group of interest alone (filter its rows) for {flag}"
+        )));
+    }
+    let spec = model_spec(args)?;
+    let options = fit_options(args);
+    Ok(match batch_rows(args) {
+        Some(rows) => {
+            refuse_in_memory_flags(args)?;
+            plumbline::strata::fit_batches_by(&args.data, &spec, &options, rows, non_finite_rule(&args.input)?, column)?
+        }
+        None => {
+            let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
+            plumbline::strata::fit_by_with(&frame, &spec, column, &options)?
+        }
+    })
+}
+
+/// `plumbline fit --by COL`: the models by group as text, HTML or the
+/// `plumbline.stratified-fit` document.
+fn run_by_group(args: &FitArgs, column: &str) -> Result<String, CommandError> {
+    let summary = fit_by_group(args, column)?.summary(args.level)?;
+    Ok(match args.format {
+        Format::Text => plumbline::render::stratified_text(&summary),
+        Format::Html => plumbline::render::html::page(
+            &format!("Models by {column}"),
+            &[plumbline::render::stratified_html(&summary)],
+        ),
+        Format::Json => to_pretty_json(&Versioned::new(summary), "stratified-fit document")?,
+    })
+}
+
 /// Rows per batch when a directory is fitted without `--batch-rows`: about
 /// 8 bytes × columns × 10⁶ of numbers per batch (160 MB at 20 columns).
 const DEFAULT_BATCH_ROWS: usize = 1_000_000;
@@ -356,6 +405,31 @@ fn run_in_batches(args: &FitArgs, batch_rows: usize) -> Result<String, CommandEr
         (args.diagnose, "--diagnose"),
         (args.influence, "--influence"),
         (args.spatial.spatial_check.is_some(), "--spatial-check"),
+    ];
+    if let Some((_, flag)) = refused.iter().find(|(given, _)| *given) {
+        return Err(CommandError::Usage(format!(
+            "{flag} needs the data in memory, but this fit reads it in batches (--batch-rows, or a directory); \
+             load a single file without --batch-rows, or leave the flag out"
+        )));
+    }
+    refuse_in_memory_flags(args)?;
+    if args.format == Format::Html {
+        return Err(CommandError::Usage(
+            "a fit read in batches is reported as text or JSON (--format text|json)".into(),
+        ));
+    }
+    let spec = model_spec(args)?;
+    let fit =
+        plumbline::fit::fit_batches(&args.data, &spec, &fit_options(args), batch_rows, non_finite_rule(&args.input)?)?;
+    match args.format {
+        Format::Json => Ok(to_pretty_json(&FitDocument::from(fit.summary(args.level)?), "fit document")?),
+        _ => Ok(plumbline::render::assembled_fit_text(&fit, args.level)?),
+    }
+}
+
+/// Refuses the source and text-file flags a reader of batches cannot honour.
+fn refuse_in_memory_flags(args: &FitArgs) -> Result<(), CommandError> {
+    let refused = [
         (
             args.source.query.is_some() || args.source.table.is_some() || args.source.sheet.is_some(),
             "--query/--table/--sheet",
@@ -369,22 +443,11 @@ fn run_in_batches(args: &FitArgs, batch_rows: usize) -> Result<String, CommandEr
             "the text-file flags (--delimiter, --null, --column-type, --date-format, --encoding)",
         ),
     ];
-    if let Some((_, flag)) = refused.iter().find(|(given, _)| *given) {
-        return Err(CommandError::Usage(format!(
+    match refused.iter().find(|(given, _)| *given) {
+        Some((_, flag)) => Err(CommandError::Usage(format!(
             "{flag} needs the data in memory, but this fit reads it in batches (--batch-rows, or a directory); \
              load a single file without --batch-rows, or leave the flag out"
-        )));
-    }
-    if args.format == Format::Html {
-        return Err(CommandError::Usage(
-            "a fit read in batches is reported as text or JSON (--format text|json)".into(),
-        ));
-    }
-    let spec = model_spec(args)?;
-    let fit =
-        plumbline::fit::fit_batches(&args.data, &spec, &fit_options(args), batch_rows, non_finite_rule(&args.input)?)?;
-    match args.format {
-        Format::Json => Ok(to_pretty_json(&FitDocument::from(fit.summary(args.level)?), "fit document")?),
-        _ => Ok(plumbline::render::assembled_fit_text(&fit, args.level)?),
+        ))),
+        None => Ok(()),
     }
 }

@@ -7,7 +7,7 @@
 //! every parcel was valued: a failure leaves no half-written file. Progress
 //! goes to standard error, one line per batch.
 
-use super::fit::{fit_options, load_with_flags, model_spec};
+use super::fit::{batch_rows, fit_by_group, fit_options, load_with_flags, model_spec};
 use super::CommandError;
 use crate::cli::ValueArgs;
 use plumbline::data::RowBatches;
@@ -18,24 +18,69 @@ use plumbline::polars::prelude::{Column, DataFrame, ParquetWriter};
 use plumbline::prelude::*;
 use std::path::Path;
 
-/// A fitted model, in memory or assembled from batches.
+/// A fitted model, in memory or assembled from batches, or one per group
+/// (`--by`).
 enum Model {
     InMemory(Box<Fit>),
     Assembled(Box<AssembledFit>),
+    ByGroup(Box<StratifiedFit>),
+}
+
+/// One batch valued: each row's prediction or why it has none, and with
+/// `--by` each row's group.
+struct BatchValues {
+    predictions: Vec<Option<Prediction>>,
+    not_valued: Vec<Option<String>>,
+    groups: Option<Vec<Option<String>>>,
 }
 
 impl Model {
-    fn predict(&self, frame: &Frame, level: f64) -> plumbline::Result<Predictions> {
-        match self {
-            Model::InMemory(fit) => fit.predict(frame, level),
-            Model::Assembled(fit) => fit.predict(frame, level),
-        }
+    fn value(&self, frame: &Frame, level: f64) -> plumbline::Result<BatchValues> {
+        let single = |predictions: Predictions| {
+            let mut by_row: Vec<Option<Prediction>> = vec![None; frame.height()];
+            let mut not_valued: Vec<Option<String>> = vec![None; frame.height()];
+            for p in predictions.rows {
+                let row = p.row - 1;
+                by_row[row] = Some(p);
+            }
+            for row in predictions.skipped_rows {
+                not_valued[row - 1] = Some("a term value is missing".to_string());
+            }
+            BatchValues { predictions: by_row, not_valued, groups: None }
+        };
+        Ok(match self {
+            Model::InMemory(fit) => single(fit.predict(frame, level)?),
+            Model::Assembled(fit) => single(fit.predict(frame, level)?),
+            Model::ByGroup(set) => {
+                let valued = set.predict(frame, level)?;
+                let mut values = BatchValues {
+                    predictions: Vec::with_capacity(valued.rows.len()),
+                    not_valued: Vec::with_capacity(valued.rows.len()),
+                    groups: Some(Vec::with_capacity(valued.rows.len())),
+                };
+                for row in valued.rows {
+                    values.predictions.push(row.prediction);
+                    values.not_valued.push(row.not_valued);
+                    values.groups.get_or_insert_with(Vec::new).push(row.group);
+                }
+                values
+            }
+        })
     }
 
     fn spec(&self) -> &ModelSpec {
         match self {
             Model::InMemory(fit) => fit.spec(),
             Model::Assembled(fit) => &fit.recipe.spec,
+            Model::ByGroup(set) => set.spec(),
+        }
+    }
+
+    /// The columns a parcel file must hold besides the terms'.
+    fn group_column(&self) -> Option<&str> {
+        match self {
+            Model::ByGroup(set) => Some(set.column()),
+            _ => None,
         }
     }
 }
@@ -45,13 +90,13 @@ pub fn run(args: &ValueArgs) -> Result<String, CommandError> {
     let kind = OutputKind::of(&args.out)?;
     let spec = model_spec(&args.fit)?;
     let options = fit_options(&args.fit);
-    let batched = args.fit.batch_rows.or_else(|| args.fit.data.is_dir().then_some(1_000_000));
-    let model = match batched {
-        Some(rows) => {
+    let model = match (&args.fit.by, batch_rows(&args.fit)) {
+        (Some(column), _) => Model::ByGroup(Box::new(fit_by_group(&args.fit, column)?)),
+        (None, Some(rows)) => {
             let rule = args.fit.input.non_finite.parse().map_err(CommandError::Usage)?;
             Model::Assembled(Box::new(fit_batches(&args.fit.data, &spec, &options, rows, rule)?))
         }
-        None => {
+        (None, None) => {
             let frame = load_with_flags(&args.fit.data, &args.fit.input, Some(&args.fit.source))?;
             Model::InMemory(Box::new(fit_with(&frame, &spec, &options)?))
         }
@@ -62,6 +107,11 @@ pub fn run(args: &ValueArgs) -> Result<String, CommandError> {
             labels.push(id.clone());
         }
     }
+    if let Some(column) = model.group_column() {
+        if !labels.iter().any(|c| c == column) {
+            labels.push(column.to_string());
+        }
+    }
     let parcels = RowBatches::open(&args.parcels, &numbers, &labels, args.parcel_batch_rows)?;
     let log_target = model.spec().target_transform() == TargetTransform::Log;
 
@@ -70,17 +120,17 @@ pub fn run(args: &ValueArgs) -> Result<String, CommandError> {
         let mut sink = Sink::create(kind, &temporary, log_target)?;
         let (mut valued, mut skipped, mut row_offset) = (0usize, 0usize, 0usize);
         parcels.for_each_batch(|batch| {
-            let predictions = model.predict(batch, args.fit.level)?;
+            let values = model.value(batch, args.fit.level)?;
             let ids = match &args.fit.id {
                 Some(column) => Some(batch.label_column(column)?),
                 None => None,
             };
-            let table = ValueTable::of_batch(batch.height(), row_offset, &predictions, ids);
-            valued += predictions.rows.len();
-            skipped += predictions.skipped_rows.len();
+            let table = ValueTable::of_batch(row_offset, values, ids);
+            valued += table.estimate.iter().filter(|v| v.is_some()).count();
+            skipped += table.estimate.iter().filter(|v| v.is_none()).count();
             row_offset += batch.height();
             sink.write(table).map_err(|e| plumbline::Error::Specification(e.to_string()))?;
-            eprintln!("valued {valued} parcels ({skipped} without every term value)");
+            eprintln!("valued {valued} parcels ({skipped} not valued)");
             Ok(())
         })?;
         sink.finish()?;
@@ -91,8 +141,12 @@ pub fn run(args: &ValueArgs) -> Result<String, CommandError> {
             std::fs::rename(&temporary, &args.out).map_err(|e| {
                 CommandError::Runtime(format!("cannot move the values into `{}`: {e}", args.out.display()))
             })?;
+            let by = match model.group_column() {
+                Some(column) => format!(" each by its own {column}'s model;"),
+                None => String::new(),
+            };
             Ok(format!(
-                "{valued} parcels valued, {skipped} without every term value (left blank), written to {}\n\
+                "{valued} parcels valued,{by} {skipped} not valued (left blank, the reason in `not_valued`), written to {}\n\
                  These are model estimates for analysis, not appraisals; local assessment law and licensed \
                  appraisal practice govern any use for taxation or lending.\n",
                 args.out.display()
@@ -131,10 +185,11 @@ impl OutputKind {
 }
 
 /// One batch of output rows: every parcel of the batch in input order, the
-/// ones without every term value left blank.
+/// ones that could not be valued left blank with the reason.
 struct ValueTable {
     row: Vec<u64>,
     id: Option<Vec<Option<String>>>,
+    group: Option<Vec<Option<String>>>,
     estimate: Vec<Option<f64>>,
     se_fit: Vec<Option<f64>>,
     ci_low: Vec<Option<f64>>,
@@ -144,18 +199,18 @@ struct ValueTable {
     value_median: Vec<Option<f64>>,
     value_mean: Vec<Option<f64>>,
     outside_range: Vec<String>,
+    not_valued: Vec<String>,
 }
 
 impl ValueTable {
-    fn of_batch(height: usize, offset: usize, predictions: &Predictions, ids: Option<Vec<Option<String>>>) -> Self {
-        let mut by_row: Vec<Option<&Prediction>> = vec![None; height];
-        for p in &predictions.rows {
-            by_row[p.row - 1] = Some(p);
-        }
+    fn of_batch(offset: usize, values: BatchValues, ids: Option<Vec<Option<String>>>) -> Self {
+        let by_row: Vec<Option<&Prediction>> = values.predictions.iter().map(Option::as_ref).collect();
+        let height = by_row.len();
         let get = |f: fn(&Prediction) -> Option<f64>| by_row.iter().map(|p| p.and_then(f)).collect::<Vec<_>>();
         ValueTable {
             row: (0..height).map(|i| (offset + i + 1) as u64).collect(),
             id: ids,
+            group: values.groups,
             estimate: get(|p| Some(p.estimate)),
             se_fit: get(|p| Some(p.se_fit)),
             ci_low: get(|p| Some(p.ci_low)),
@@ -165,6 +220,7 @@ impl ValueTable {
             value_median: get(|p| p.median_original),
             value_mean: get(|p| p.mean_original),
             outside_range: by_row.iter().map(|p| p.map(|p| p.outside_range.join(";")).unwrap_or_default()).collect(),
+            not_valued: values.not_valued.into_iter().map(Option::unwrap_or_default).collect(),
         }
     }
 
@@ -174,6 +230,9 @@ impl ValueTable {
         let mut out = vec![Column::new("row".into(), self.row)];
         if let Some(id) = self.id {
             out.push(Column::new("id".into(), id));
+        }
+        if let Some(group) = self.group {
+            out.push(Column::new("group".into(), group));
         }
         for (name, values) in [
             ("estimate", self.estimate),
@@ -190,6 +249,7 @@ impl ValueTable {
             out.push(Column::new("value_mean".into(), self.value_mean));
         }
         out.push(Column::new("outside_range".into(), self.outside_range));
+        out.push(Column::new("not_valued".into(), self.not_valued));
         out
     }
 }

@@ -1,10 +1,12 @@
 //! The machine-readable results of a run, read from its files for
-//! `plumbline diff`: a `plumbline fit --format json` document, or every fit
-//! and ratio-study bundle in the outputs of an executed `.ipynb`, in order.
+//! `plumbline diff`: a `plumbline fit --format json` document (one model, or
+//! models by group with `--by`), a value roll, or every result bundle in the
+//! outputs of an executed `.ipynb`, in order.
 
 use super::document::Notebook;
 use plumbline::documents::DocumentKind;
 use plumbline::drift::RunResults;
+use plumbline::strata::StratifiedSummary;
 use plumbline::value::ValueRoll;
 use serde_json::Value;
 use std::path::Path;
@@ -35,6 +37,8 @@ pub fn read_run(path: &Path) -> Result<RunResults, ResultsError> {
         run.add_document(plumbline::render::FIT_JSON_MIME, &root)?;
     } else if schema == Some(<ValueRoll as DocumentKind>::SCHEMA) {
         run.add_document(<ValueRoll as DocumentKind>::MIME, &root)?;
+    } else if schema == Some(<StratifiedSummary as DocumentKind>::SCHEMA) {
+        run.add_document(<StratifiedSummary as DocumentKind>::MIME, &root)?;
     } else if root.get("cells").is_some() {
         let notebook = Notebook::from_json(root).map_err(unreadable)?;
         for cell in 0..notebook.len() {

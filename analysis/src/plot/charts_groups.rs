@@ -1,0 +1,121 @@
+//! One coefficient across the groups of a set of models by group, with the
+//! pooled model's estimate as a reference line.
+
+use super::canvas::{padded_range, render};
+use super::theme::{format_tick, ACCENT, BAND, FONT, GRID, INK, POINT, SOFT};
+use super::{plot_error, PlotSize, Svg};
+use crate::error::{Error, Result};
+use crate::strata::StratifiedSummary;
+use plotters::prelude::*;
+
+/// An estimate with its interval: `(estimate, low, high)`.
+type Interval = (f64, f64, f64);
+
+/// The estimate of `term` in each fitted group with its interval (at the
+/// set's level), one row per group in label order, and the pooled model's
+/// estimate and interval as a shaded band behind them. Groups whose model
+/// lacks the term (aliased, or not fitted) are named and left empty, so a
+/// missing group is seen, not silently skipped.
+pub fn coefficient_by_group(set: &StratifiedSummary, term: &str, size: PlotSize) -> Result<Svg> {
+    let rows: Vec<(String, Option<Interval>)> = set
+        .strata
+        .iter()
+        .map(|s| {
+            let estimate = s
+                .fit
+                .as_ref()
+                .and_then(|f| f.coefficients.iter().find(|c| c.term == term))
+                .map(|c| (c.estimate, c.ci_low, c.ci_high));
+            (s.group.clone(), estimate)
+        })
+        .collect();
+    let pooled = set
+        .pooled
+        .as_ref()
+        .and_then(|f| f.coefficients.iter().find(|c| c.term == term))
+        .map(|c| (c.estimate, c.ci_low, c.ci_high));
+    if rows.iter().all(|(_, e)| e.is_none()) {
+        return Err(Error::Specification(format!(
+            "no group's model has a coefficient `{term}`; the terms are: {}",
+            set.terms().join(", ")
+        )));
+    }
+    let k = rows.len();
+    let x_range = padded_range(rows.iter().filter_map(|(_, e)| *e).chain(pooled).flat_map(|(_, lo, hi)| [lo, hi]));
+    let height = size.height.max(130 + 28 * k as u32);
+    let pct = format_tick(set.level * 100.0);
+    let title = format!("{term} by {} with {pct} % intervals", set.grouped_by);
+    let names: Vec<String> =
+        rows.iter().map(|(g, e)| if e.is_some() { g.clone() } else { format!("{g} (no estimate)") }).collect();
+    let markup = render(PlotSize { width: size.width, height }, |area| {
+        let longest = names.iter().map(|n| n.chars().count()).max().unwrap_or(4) as u32;
+        let mut chart = ChartBuilder::on(area)
+            .caption(&title, (FONT, 17).into_font().color(&INK))
+            .margin(14)
+            .x_label_area_size(44)
+            .y_label_area_size((longest * 7 + 16).min(260))
+            .build_cartesian_2d(x_range.clone(), -0.5..(k as f64 - 0.5))
+            .map_err(plot_error)?;
+        chart
+            .configure_mesh()
+            .x_desc("estimate")
+            .x_labels(7)
+            .y_labels(k)
+            .x_label_formatter(&|v| format_tick(*v))
+            .y_label_formatter(&|v| {
+                let i = v.round();
+                if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
+                    // Top to bottom in label order.
+                    names[names.len() - 1 - i as usize].clone()
+                } else {
+                    String::new()
+                }
+            })
+            .label_style((FONT, 12).into_font().color(&INK))
+            .axis_desc_style((FONT, 13).into_font().color(&INK))
+            .bold_line_style(GRID)
+            .light_line_style(GRID.mix(0.0))
+            .draw()
+            .map_err(plot_error)?;
+        if let Some((estimate, lo, hi)) = pooled {
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [(lo, -0.5), (hi, k as f64 - 0.5)],
+                    BAND.mix(0.18).filled(),
+                )))
+                .map_err(plot_error)?
+                .label(format!("pooled model {} [{}, {}]", format_tick(estimate), format_tick(lo), format_tick(hi)))
+                .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], BAND.mix(0.4).filled()));
+            chart
+                .draw_series(LineSeries::new(vec![(estimate, -0.5), (estimate, k as f64 - 0.5)], SOFT.stroke_width(2)))
+                .map_err(plot_error)?;
+        }
+        for (i, (_, estimate)) in rows.iter().enumerate() {
+            let Some((e, lo, hi)) = *estimate else { continue };
+            let y = (k - 1 - i) as f64;
+            // Accent where the group's interval misses the pooled estimate.
+            let apart = pooled.is_some_and(|(p, _, _)| p < lo || p > hi);
+            let colour = if apart { ACCENT } else { POINT };
+            chart.draw_series(LineSeries::new(vec![(lo, y), (hi, y)], colour.stroke_width(3))).map_err(plot_error)?;
+            chart.draw_series(std::iter::once(Circle::new((e, y), 4, colour.filled()))).map_err(plot_error)?;
+        }
+        if pooled.is_some() {
+            chart
+                .configure_series_labels()
+                .position(SeriesLabelPosition::LowerRight)
+                .label_font((FONT, 12).into_font().color(&INK))
+                .background_style(WHITE.mix(0.85))
+                .border_style(GRID)
+                .draw()
+                .map_err(plot_error)?;
+        }
+        Ok(())
+    })?;
+    let description = format!(
+        "The coefficient of {term} in each of {k} groups of {} as a point with its {pct} % interval bar; \
+         the shaded band is the pooled model's interval and the line its estimate; bars that miss the pooled \
+         estimate are highlighted.",
+        set.grouped_by
+    );
+    Svg::finish(markup, &title, &description)
+}
