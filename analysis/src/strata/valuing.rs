@@ -144,7 +144,10 @@ impl StratifiedFit {
                     row + 1
                 )));
             }
-            let value = valued.prediction.as_ref().map(|p| retransform.value_of(p));
+            let value = valued
+                .prediction
+                .as_ref()
+                .map(|p| retransform.value_of(p.estimate, p.median_original, p.mean_original));
             out.push(RollParcel { id: id.clone(), value, sale: None, not_valued: valued.not_valued });
         }
         Ok(ValueRoll {

@@ -22,20 +22,20 @@ pub fn model_values(fit: &Fit, frame: &Frame, retransform: Retransform) -> Resul
     let predictions = fit.predict(frame, 0.95)?;
     let mut values = vec![None; frame.height()];
     for p in &predictions.rows {
-        values[p.row - 1] = Some(retransform.value_of(p));
+        values[p.row - 1] = Some(retransform.value_of(p.estimate, p.median_original, p.mean_original));
     }
     Ok(values)
 }
 
 impl Retransform {
-    /// A prediction's value on the target's original scale: for a logged
-    /// target the median or the smearing mean as chosen, otherwise the
-    /// estimate itself.
-    pub fn value_of(self, prediction: &crate::predict::Prediction) -> f64 {
-        match (self, prediction.median_original, prediction.mean_original) {
+    /// A prediction's value on the target's original scale, from its
+    /// `estimate` and, for a logged target, its `median` and smearing `mean`
+    /// on the original scale: the one chosen, otherwise the estimate itself.
+    pub fn value_of(self, estimate: f64, median: Option<f64>, mean: Option<f64>) -> f64 {
+        match (self, median, mean) {
             (Retransform::Median, Some(m), _) => m,
             (Retransform::SmearingMean, _, Some(m)) => m,
-            _ => prediction.estimate,
+            _ => estimate,
         }
     }
 }
