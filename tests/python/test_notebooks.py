@@ -28,7 +28,7 @@ from test_html_in_browser import screenshot
 
 DEMO = REPO / "notebooks-demo"
 STUDY = DEMO / "valuation-study.ipynb"
-NOTEBOOKS = ["valuation-study.ipynb", "reading-a-fit.ipynb", "quarterly-rerun.ipynb"]
+NOTEBOOKS = ["valuation-study.ipynb", "reading-a-fit.ipynb", "quarterly-rerun.ipynb", "market-areas.ipynb"]
 TIMEOUT = 1800  # a fresh engine directory compiles plumbline in the first cell
 
 
@@ -168,3 +168,26 @@ def test_nbclient_executes_every_demo_notebook(name):
         if cell.cell_type == "code":
             assert not any(o.get("output_type") == "error" for o in cell.outputs), cell.source
     nbformat.validate(notebook)
+    if name == "market-areas.ipynb":
+        check_market_areas(notebook)
+
+
+def check_market_areas(notebook):
+    """The market-areas notebook against the generator's documented truth (notebooks-demo/generator:
+    every district shares the slopes and has a level of its own): the districts' levels differ, so one
+    model for all is rejected; their slopes are equal, so the common-slopes test does not reject at 1 %."""
+    sets = [output["data"]["application/vnd.plumbline.stratified-fit+json"]
+            for cell in notebook.cells for output in cell.get("outputs", [])
+            if "application/vnd.plumbline.stratified-fit+json" in output.get("data", {})]
+    assert len(sets) == 1, len(sets)
+    document = json.loads(sets[0]) if isinstance(sets[0], str) else sets[0]
+    assert [s["group"] for s in document["strata"]] == [
+        "Brambleknot", "Corvel Heights", "Mossgrieve", "Pellowick", "Tidewright Quay", "Wickerholm"]
+    tests = {t["hypothesis"]: t for t in document["tests"]}
+    assert tests["all_coefficients"]["p_value"] < 1e-6
+    assert tests["slopes_given_levels"]["p_value"] > 0.01
+    rolls = [output["data"]["application/vnd.plumbline.value-roll+json"]
+             for cell in notebook.cells for output in cell.get("outputs", [])
+             if "application/vnd.plumbline.value-roll+json" in output.get("data", {})]
+    roll = json.loads(rolls[0]) if isinstance(rolls[0], str) else rolls[0]
+    assert "within each district" in roll["model"] and all(p["value"] for p in roll["parcels"])

@@ -40,13 +40,19 @@ pub fn coefficient_by_group(set: &StratifiedSummary, term: &str, size: PlotSize)
             set.terms().join(", ")
         )));
     }
-    let k = rows.len();
+    // One row per group, top to bottom in label order, then the pooled model's row at the bottom.
+    let groups = rows.len();
+    let k = groups + usize::from(pooled.is_some());
     let x_range = padded_range(rows.iter().filter_map(|(_, e)| *e).chain(pooled).flat_map(|(_, lo, hi)| [lo, hi]));
     let height = size.height.max(130 + 28 * k as u32);
     let pct = format_tick(set.level * 100.0);
     let title = format!("{term} by {} with {pct} % intervals", set.grouped_by);
-    let names: Vec<String> =
+    let mut names: Vec<String> =
         rows.iter().map(|(g, e)| if e.is_some() { g.clone() } else { format!("{g} (no estimate)") }).collect();
+    if pooled.is_some() {
+        names.push("pooled model".into());
+    }
+    let y_of = |i: usize| (k - 1 - i) as f64;
     let markup = render(PlotSize { width: size.width, height }, |area| {
         let longest = names.iter().map(|n| n.chars().count()).max().unwrap_or(4) as u32;
         let mut chart = ChartBuilder::on(area)
@@ -65,7 +71,6 @@ pub fn coefficient_by_group(set: &StratifiedSummary, term: &str, size: PlotSize)
             .y_label_formatter(&|v| {
                 let i = v.round();
                 if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
-                    // Top to bottom in label order.
                     names[names.len() - 1 - i as usize].clone()
                 } else {
                     String::new()
@@ -83,38 +88,29 @@ pub fn coefficient_by_group(set: &StratifiedSummary, term: &str, size: PlotSize)
                     [(lo, -0.5), (hi, k as f64 - 0.5)],
                     BAND.mix(0.18).filled(),
                 )))
-                .map_err(plot_error)?
-                .label(format!("pooled model {} [{}, {}]", format_tick(estimate), format_tick(lo), format_tick(hi)))
-                .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], BAND.mix(0.4).filled()));
+                .map_err(plot_error)?;
             chart
                 .draw_series(LineSeries::new(vec![(estimate, -0.5), (estimate, k as f64 - 0.5)], SOFT.stroke_width(2)))
                 .map_err(plot_error)?;
+            let y = y_of(groups);
+            chart.draw_series(LineSeries::new(vec![(lo, y), (hi, y)], BAND.stroke_width(3))).map_err(plot_error)?;
+            chart.draw_series(std::iter::once(Circle::new((estimate, y), 5, BAND.filled()))).map_err(plot_error)?;
         }
         for (i, (_, estimate)) in rows.iter().enumerate() {
             let Some((e, lo, hi)) = *estimate else { continue };
-            let y = (k - 1 - i) as f64;
+            let y = y_of(i);
             // Accent where the group's interval misses the pooled estimate.
             let apart = pooled.is_some_and(|(p, _, _)| p < lo || p > hi);
             let colour = if apart { ACCENT } else { POINT };
             chart.draw_series(LineSeries::new(vec![(lo, y), (hi, y)], colour.stroke_width(3))).map_err(plot_error)?;
             chart.draw_series(std::iter::once(Circle::new((e, y), 4, colour.filled()))).map_err(plot_error)?;
         }
-        if pooled.is_some() {
-            chart
-                .configure_series_labels()
-                .position(SeriesLabelPosition::LowerRight)
-                .label_font((FONT, 12).into_font().color(&INK))
-                .background_style(WHITE.mix(0.85))
-                .border_style(GRID)
-                .draw()
-                .map_err(plot_error)?;
-        }
         Ok(())
     })?;
     let description = format!(
         "The coefficient of {term} in each of {k} groups of {} as a point with its {pct} % interval bar; \
-         the shaded band is the pooled model's interval and the line its estimate; bars that miss the pooled \
-         estimate are highlighted.",
+         the bottom row and the shaded band are the pooled model's estimate and interval; bars that miss the \
+         pooled estimate are highlighted.",
         set.grouped_by
     );
     Svg::finish(markup, &title, &description)

@@ -221,7 +221,10 @@ pub fn stratified_html(set: &StratifiedSummary) -> String {
         })
         .collect();
     out.push_str(&format!("<div style=\"margin-top:8px\"><b>Coefficients by {}</b> <span style=\"{SUBTLE}\">estimate and {pct} % interval</span></div>\n", escape(&set.grouped_by)));
+    // As many columns as groups: the table scrolls sideways rather than overflow the card.
+    out.push_str("<div style=\"overflow-x:auto\">\n");
     table(&mut out, &header_refs, &numeric, &coefficient_rows);
+    out.push_str("</div>\n");
 
     if let Some(term) = set.terms().into_iter().find(|t| t != crate::model::design::INTERCEPT_NAME) {
         if let Ok(svg) = coefficient_by_group(set, &term, PlotSize::default()) {

@@ -327,22 +327,32 @@ impl Report for ValueRoll {
                 money(crate::stats::quantile_of_sorted(&values, p))
             }
         };
+        // Parcels without a value, counted by reason (a version 1 roll gives none:
+        // its only reason was a missing term value).
+        let mut reasons: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
+        for parcel in self.parcels.iter().filter(|p| p.value.is_none()) {
+            *reasons.entry(parcel.not_valued.as_deref().unwrap_or("a term value is missing")).or_default() += 1;
+        }
+        let mut rows = vec![
+            vec!["parcels valued".into(), format_count(self.valued())],
+            vec!["parcels not valued".into(), format_count(self.parcels.len() - self.valued())],
+        ];
+        rows.extend(reasons.iter().map(|(reason, count)| vec![format!("  {reason}"), format_count(*count)]));
         sheet.table(
             &["figure", "value"],
             &[false, true],
-            vec![
-                vec!["parcels valued".into(), format_count(self.valued())],
+            [
+                rows,
                 vec![
-                    "parcels not valued (a term value missing)".into(),
-                    format_count(self.parcels.len() - self.valued()),
+                    vec!["parcels with a sale".into(), format_count(self.sold())],
+                    vec!["lowest value".into(), q(0.0)],
+                    vec!["lower quartile".into(), q(0.25)],
+                    vec!["median value".into(), q(0.5)],
+                    vec!["upper quartile".into(), q(0.75)],
+                    vec!["highest value".into(), q(1.0)],
                 ],
-                vec!["parcels with a sale".into(), format_count(self.sold())],
-                vec!["lowest value".into(), q(0.0)],
-                vec!["lower quartile".into(), q(0.25)],
-                vec!["median value".into(), q(0.5)],
-                vec!["upper quartile".into(), q(0.75)],
-                vec!["highest value".into(), q(1.0)],
-            ],
+            ]
+            .concat(),
         );
         sheet.reading.push(
             "Every parcel's value travels in this output's JSON document; a later run's roll is compared with it \
