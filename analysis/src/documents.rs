@@ -16,7 +16,7 @@
 //! | comparison | [`ComparisonDocument`] | `plumbline.comparison` | [`COMPARISON_SCHEMA_VERSION`] | [`crate::schema::COMPARISON_JSON_MIME`] |
 //! | ratio study | [`RatioStudyDocument`] | `plumbline.ratio-study` | [`RATIO_STUDY_SCHEMA_VERSION`] | [`crate::schema::RATIO_JSON_MIME`] |
 //! | drift report | [`crate::drift::DriftReport`] | `plumbline.drift` | [`crate::drift::DRIFT_SCHEMA_VERSION`] | [`crate::schema::DRIFT_JSON_MIME`] |
-//! | spatial check | [`Versioned`]`<`[`SpatialCheck`]`>` | `plumbline.spatial-check` | 1 | [`crate::schema::SPATIAL_CHECK_JSON_MIME`] |
+//! | spatial check | [`Versioned`]`<`[`SpatialCheck`]`>` | `plumbline.spatial-check` | 2 | [`crate::schema::SPATIAL_CHECK_JSON_MIME`] |
 //! | price tiers | [`Versioned`]`<`[`TierStudy`]`>` | `plumbline.price-tiers` | 1 | [`crate::schema::PRICE_TIERS_JSON_MIME`] |
 //! | value accuracy | [`Versioned`]`<`[`ValueAccuracy`]`>` | `plumbline.value-accuracy` | 1 | [`crate::schema::VALUE_ACCURACY_JSON_MIME`] |
 //! | holdout accuracy | [`Versioned`]`<`[`HoldoutAccuracy`]`>` | `plumbline.holdout-accuracy` | 1 | [`crate::schema::HOLDOUT_ACCURACY_JSON_MIME`] |
@@ -278,7 +278,9 @@ macro_rules! document_kind {
     };
 }
 
-document_kind!(SpatialCheck, "plumbline.spatial-check", 1, SPATIAL_CHECK_JSON_MIME, "spatial-check");
+// Spatial check 2: the options say whether the places are planar or geographic
+// (`coordinates`); version 1 documents read as planar.
+document_kind!(SpatialCheck, "plumbline.spatial-check", 2, SPATIAL_CHECK_JSON_MIME, "spatial-check");
 document_kind!(TierStudy, "plumbline.price-tiers", 1, PRICE_TIERS_JSON_MIME, "price-tiers");
 document_kind!(ValueAccuracy, "plumbline.value-accuracy", 1, VALUE_ACCURACY_JSON_MIME, "value-accuracy");
 document_kind!(HoldoutAccuracy, "plumbline.holdout-accuracy", 1, HOLDOUT_ACCURACY_JSON_MIME, "holdout-accuracy");

@@ -32,8 +32,10 @@ use serde::{Deserialize, Serialize};
 /// change that a reader would notice. 2: the degrees-of-freedom fields took
 /// our names `model_df`/`residual_df` (README, "JSON output"); 3: the fit
 /// document may carry a `spatial` section (Moran's I of the residuals);
-/// version 2 documents read unchanged.
-pub const SUMMARY_SCHEMA_VERSION: u32 = 3;
+/// version 2 documents read unchanged; 4: the `spatial` section's options say
+/// whether the places are planar or geographic (`coordinates`; a version 3
+/// section reads as planar).
+pub const SUMMARY_SCHEMA_VERSION: u32 = 4;
 
 /// One row of the coefficient table.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]

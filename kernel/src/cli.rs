@@ -177,17 +177,34 @@ pub struct FitArgs {
     pub by: Option<String>,
 }
 
+/// How coordinate columns locate a place.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CoordinatesArg {
+    /// Projected coordinates (straight-line distances in their units).
+    Planar,
+    /// Longitude and latitude in degrees on WGS 84 (geodesic distances in km).
+    Geographic,
+}
+
 /// Flags of the spatial check of a fit's residuals (Moran's I).
 #[derive(Debug, Args)]
 pub struct SpatialFlags {
     /// Moran's I of the residuals over the sales' places, given as the two
-    /// coordinate columns `X,Y` (projected units, e.g. km east and north).
+    /// coordinate columns `X,Y` (projected units, e.g. km east and north; or
+    /// longitude,latitude with `--coordinates geographic`).
     #[arg(long = "spatial-check", value_name = "X,Y")]
     pub spatial_check: Option<String>,
+    /// How the spatial check's columns locate a sale: `planar` (projected
+    /// units) or `geographic` (longitude and latitude in degrees, WGS 84:
+    /// geodesic distances in km). Columns named like longitude and latitude
+    /// are refused as planar.
+    #[arg(long, value_enum, default_value_t = CoordinatesArg::Planar)]
+    pub coordinates: CoordinatesArg,
     /// Neighbours in the spatial check: the K nearest sales (default 8).
     #[arg(long, value_name = "K", conflicts_with = "band")]
     pub neighbours: Option<usize>,
-    /// Neighbours in the spatial check: every sale within this distance.
+    /// Neighbours in the spatial check: every sale within this distance (km
+    /// for geographic coordinates).
     #[arg(long, value_name = "DISTANCE")]
     pub band: Option<f64>,
     /// Weigh each neighbour 1 instead of 1/count in the spatial check.

@@ -42,7 +42,7 @@ pub use arrow_reader::load_arrow;
 pub use batches::RowBatches;
 pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
-pub use parquet_reader::load_parquet;
+pub use parquet_reader::{load_parquet, load_parquet_columns};
 pub use postgres_reader::load_postgres;
 pub use profile::{profile, ColumnProfile};
 pub use provenance::{sha256_hex, Provenance, SourceKind, SourceStamp};

@@ -11,11 +11,16 @@
 //!
 //! Weighted fits are checked on `√w e` with columns `√w X`, as every other
 //! diagnostic here.
+//!
+//! Places are planar (projected) coordinates, or longitude and latitude in
+//! degrees declared with [`SpatialOptions::geographic`]; columns that read as
+//! degrees but are declared planar are refused ([`crate::spatial::geodesy`]).
 
 use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::Fit;
-use crate::spatial::{moran_test_of_residuals, MoranTest, Neighbourhood, SpatialWeights, WeightStyle};
+use crate::spatial::geodesy::refuse_degrees_as_planar;
+use crate::spatial::{moran_test_of_residuals, Coordinates, MoranTest, Neighbourhood, SpatialWeights, WeightStyle};
 use crate::stats::median_of_sorted;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -24,10 +29,15 @@ use std::collections::BTreeMap;
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct SpatialOptions {
-    /// Column of the first coordinate (projected, e.g. km east).
+    /// Column of the first coordinate (projected, e.g. km east; or the longitude).
     pub x_column: String,
-    /// Column of the second coordinate (e.g. km north).
+    /// Column of the second coordinate (e.g. km north; or the latitude).
     pub y_column: String,
+    /// Whether the columns are projected coordinates or longitude and
+    /// latitude in degrees (spatial-check document version 2; planar when
+    /// absent).
+    #[serde(default)]
+    pub coordinates: Coordinates,
     /// How neighbours are chosen; 8 nearest by default.
     pub neighbourhood: Neighbourhood,
     /// How the weights are scaled; row-standardised by default.
@@ -47,10 +57,18 @@ impl SpatialOptions {
         Self {
             x_column: x_column.into(),
             y_column: y_column.into(),
+            coordinates: Coordinates::Planar,
             neighbourhood: Neighbourhood::Nearest { k: DEFAULT_NEIGHBOURS },
             style: WeightStyle::RowStandardised,
             group_column: None,
         }
+    }
+
+    /// The columns are longitude and latitude in degrees (WGS 84), longitude
+    /// first: neighbours by geodesic distance, a band's distance in km.
+    pub fn geographic(mut self) -> Self {
+        self.coordinates = Coordinates::Geographic;
+        self
     }
 
     /// The `k` nearest parcels are neighbours.
@@ -59,7 +77,8 @@ impl SpatialOptions {
         self
     }
 
-    /// Every parcel within `distance` (coordinate units) is a neighbour.
+    /// Every parcel within `distance` (coordinate units; km for geographic
+    /// coordinates) is a neighbour.
     pub fn within(mut self, distance: f64) -> Self {
         self.neighbourhood = Neighbourhood::Within { distance };
         self
@@ -141,6 +160,15 @@ impl Fit {
         };
         let xs = read(&options.x_column)?;
         let ys = read(&options.y_column)?;
+        if options.coordinates == Coordinates::Planar {
+            refuse_degrees_as_planar(
+                &options.x_column,
+                &options.y_column,
+                &xs,
+                &ys,
+                "`--coordinates geographic` (in code, `SpatialOptions::geographic()`)",
+            )?;
+        }
         let groups = match &options.group_column {
             None => None,
             Some(column) => {
@@ -156,7 +184,13 @@ impl Fit {
     /// was fitted on (its rows are matched by position).
     pub fn spatial_check(&self, frame: &Frame, options: &SpatialOptions) -> Result<SpatialCheck> {
         let places = self.places(frame, options)?;
-        let weights = SpatialWeights::build(&places.xs, &places.ys, options.neighbourhood, options.style)?;
+        let weights = SpatialWeights::build_in(
+            options.coordinates,
+            &places.xs,
+            &places.ys,
+            options.neighbourhood,
+            options.style,
+        )?;
         let rows = self.weighted_rows();
         let k = self.solution.kept.len();
         let columns: Vec<Vec<f64>> = (0..k).map(|a| rows.rows.iter().map(|r| r[a]).collect()).collect();

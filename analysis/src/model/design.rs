@@ -4,6 +4,8 @@ use super::encode::{learn, GeneratedColumn, RowValues, TermEncoding};
 use super::spec::{DatePart, ModelSpec, NamedPoint, TargetTransform, Term};
 use crate::data::{dates, Frame};
 use crate::error::{Error, Result};
+use crate::spatial::geodesy::{check_lon_lat, refuse_degrees_as_planar};
+use crate::spatial::Coordinates;
 use chrono::NaiveDate;
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
@@ -203,9 +205,31 @@ fn read_numbers(frame: &Frame, source: &ValueSource) -> Result<(Vec<f64>, usize)
             let days = frame.date_column(column)?;
             Ok((days.into_iter().map(|d| d.map_or(f64::NAN, |d| between(reference, d))).collect(), 0))
         }
-        ValueSource::Distance { x, y, point } => {
+        ValueSource::Distance { x: x_column, y: y_column, point } => {
             // Non-finite coordinates are counted under their own columns.
-            let (xs, ys) = (frame.numeric_values(x)?.values, frame.numeric_values(y)?.values);
+            let (xs, ys) = (frame.numeric_values(x_column)?.values, frame.numeric_values(y_column)?.values);
+            match point.coordinates {
+                Coordinates::Planar => refuse_degrees_as_planar(
+                    x_column,
+                    y_column,
+                    &xs,
+                    &ys,
+                    &format!(
+                        "a geodesic distance term, `geodist:{x_column}:{y_column}:PLON:PLAT:{}` \
+                         (in code, `NamedPoint::geographic`)",
+                        point.name
+                    ),
+                )?,
+                Coordinates::Geographic => {
+                    for (row, (&lon, &lat)) in xs.iter().zip(&ys).enumerate() {
+                        if !(lon.is_nan() || lat.is_nan()) {
+                            check_lon_lat(lon, lat, &|| {
+                                format!("`{x_column}`, `{y_column}` on data row {} (longitude, latitude)", row + 1)
+                            })?;
+                        }
+                    }
+                }
+            }
             // NaN (missing) in either coordinate gives NaN (missing) here.
             let distance = |(x, y): (f64, f64)| if x.is_nan() || y.is_nan() { f64::NAN } else { point.distance(x, y) };
             Ok((xs.into_iter().zip(ys).map(distance).collect(), 0))

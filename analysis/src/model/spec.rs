@@ -12,6 +12,8 @@
 //! ```
 
 use crate::data::dates;
+use crate::spatial::geodesy::geodesic_km;
+use crate::spatial::Coordinates;
 use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
 
@@ -99,32 +101,49 @@ impl DatePart {
     }
 }
 
-/// A named place on the plane of a frame's coordinate columns, such as a
-/// park, a waterfront or a town centre: the anchor of a distance term.
+/// A named place, such as a park, a waterfront or a town centre: the anchor
+/// of a distance term.
 ///
-/// Coordinates are in the units of the frame's coordinate columns (projected
-/// metres or kilometres; a distance computed from longitude and latitude in
-/// degrees would mean nothing, so project them first).
+/// On the plane ([`NamedPoint::new`]) its coordinates are in the units of
+/// the frame's projected coordinate columns and distances are straight
+/// lines. Geographic places ([`NamedPoint::geographic`]) are longitude and
+/// latitude in degrees and distances are geodesics on the WGS 84 ellipsoid
+/// in km ([`crate::spatial::geodesy`]); planar distances from columns that
+/// read as degrees are refused when the design is built.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct NamedPoint {
     /// What the place is called; it names the design column.
     pub name: String,
-    /// Its first coordinate.
+    /// Its first coordinate (the longitude of a geographic place).
     pub x: f64,
-    /// Its second coordinate.
+    /// Its second coordinate (the latitude of a geographic place).
     pub y: f64,
+    /// Planar or geographic (planar when absent, as before it existed).
+    #[serde(default)]
+    pub coordinates: Coordinates,
 }
 
 impl NamedPoint {
-    /// A place called `name` at `(x, y)`.
+    /// A place called `name` at `(x, y)` on the plane.
     pub fn new(name: impl Into<String>, x: f64, y: f64) -> Self {
-        Self { name: name.into(), x, y }
+        Self { name: name.into(), x, y, coordinates: Coordinates::Planar }
     }
 
-    /// Euclidean distance `√((x − x₀)² + (y − y₀)²)` from the place, by
-    /// `f64::hypot` (no overflow or underflow in the squares).
+    /// A place called `name` at longitude `lon` and latitude `lat` (degrees,
+    /// WGS 84).
+    pub fn geographic(name: impl Into<String>, lon: f64, lat: f64) -> Self {
+        Self { name: name.into(), x: lon, y: lat, coordinates: Coordinates::Geographic }
+    }
+
+    /// The distance of `(x, y)` from the place: on the plane the Euclidean
+    /// `√((x − x₀)² + (y − y₀)²)` by `f64::hypot` (no overflow or underflow
+    /// in the squares); for a geographic place the geodesic on WGS 84 in km,
+    /// `(x, y)` being (longitude, latitude) in degrees.
     pub fn distance(&self, x: f64, y: f64) -> f64 {
-        (x - self.x).hypot(y - self.y)
+        match self.coordinates {
+            Coordinates::Planar => (x - self.x).hypot(y - self.y),
+            Coordinates::Geographic => geodesic_km(self.x, self.y, x, y),
+        }
     }
 }
 
@@ -294,7 +313,10 @@ impl Term {
     pub fn derived_name(&self) -> Option<String> {
         match self {
             Term::Date { column, part, .. } => Some(part.derived_name(column)),
-            Term::Distance { point, .. } => Some(format!("distance from {}", point.name)),
+            Term::Distance { point, .. } => Some(match point.coordinates {
+                Coordinates::Planar => format!("distance from {}", point.name),
+                Coordinates::Geographic => format!("km from {}", point.name),
+            }),
             Term::Numeric { .. } | Term::Category { .. } | Term::Interaction(..) => None,
         }
     }

@@ -18,6 +18,7 @@
 //! | `year:sale_date`, `quarter:sale_date`, `month:sale_date` | sale year, quarter (`2025 Q3`), month of the year (`03 Mar`) as categories; `=LEVEL` names the reference |
 //! | `dist:x:y:4.2:3.1:Lantern Green` | distance of the coordinates in columns `x`, `y` from the place named last, at (4.2, 3.1) |
 //! | `logdist:x:y:4.2:3.1:Lantern Green` | its natural log |
+//! | `geodist:lon:lat:-93.63:42.03:Old Mill` | geodesic km on WGS 84 of longitude `lon`, latitude `lat` (degrees) from the place at (−93.63, 42.03); `loggeodist:` its log |
 //! | `log:area*cat:district` | interaction |
 //!
 //! ```
@@ -39,10 +40,13 @@ fn parse_term(token: &str) -> Result<Term> {
         return Ok(parse_term(left.trim())?.times(parse_term(right.trim())?));
     }
     let bad = |why: &str| Error::Specification(format!("term `{token}`: {why}"));
-    if let Some(rest) = token.strip_prefix("dist:").or_else(|| token.strip_prefix("logdist:")) {
+    let geographic = token.starts_with("geodist:") || token.starts_with("loggeodist:");
+    let distance_fields = ["dist:", "logdist:", "geodist:", "loggeodist:"].iter().find_map(|p| token.strip_prefix(p));
+    if let Some(rest) = distance_fields {
         let fields: Vec<&str> = rest.splitn(5, ':').map(str::trim).collect();
         let [x, y, px, py, name] = fields.as_slice() else {
-            return Err(bad("a distance term reads `dist:X:Y:PX:PY:NAME`, e.g. `dist:x:y:4.2:3.1:Lantern Green`"));
+            return Err(bad("a distance term reads `dist:X:Y:PX:PY:NAME`, e.g. `dist:x:y:4.2:3.1:Lantern Green` \
+                 (or `geodist:LON:LAT:PLON:PLAT:NAME` for longitude and latitude in degrees)"));
         };
         let coordinate = |s: &str| {
             s.parse::<f64>()
@@ -53,7 +57,14 @@ fn parse_term(token: &str) -> Result<Term> {
         if [x, y, name].iter().any(|s| s.is_empty()) {
             return Err(bad("a distance term needs both coordinate columns and the place's name"));
         }
-        let term = Term::distance_from(*x, *y, NamedPoint::new(*name, coordinate(px)?, coordinate(py)?));
+        let place = if geographic {
+            let (lon, lat) = (coordinate(px)?, coordinate(py)?);
+            crate::spatial::geodesy::check_lon_lat(lon, lat, &|| format!("the place of the term `{token}`"))?;
+            NamedPoint::geographic(*name, lon, lat)
+        } else {
+            NamedPoint::new(*name, coordinate(px)?, coordinate(py)?)
+        };
+        let term = Term::distance_from(*x, *y, place);
         return Ok(if token.starts_with("log") { term.log() } else { term });
     }
     let parts: Vec<&str> = token.splitn(3, ':').collect();
@@ -84,7 +95,7 @@ fn parse_term(token: &str) -> Result<Term> {
         ["month", rest] => with_reference(rest, Term::month_of_year)?,
         [prefix, ..] => {
             return Err(bad(&format!(
-                "unknown prefix `{prefix}:`; use log:, pow:C:P, center:, std:, poly:C:D, orth:C:D, cat:, months:C:DATE, days:C:DATE, year:, quarter:, month:, dist:X:Y:PX:PY:NAME or logdist:"
+                "unknown prefix `{prefix}:`; use log:, pow:C:P, center:, std:, poly:C:D, orth:C:D, cat:, months:C:DATE, days:C:DATE, year:, quarter:, month:, dist:X:Y:PX:PY:NAME, logdist:, geodist:LON:LAT:PLON:PLAT:NAME or loggeodist:"
             )))
         }
         [] => return Err(bad("empty term")),

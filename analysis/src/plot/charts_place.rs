@@ -19,6 +19,8 @@ use crate::data::Frame;
 use crate::diagnose::SpatialOptions;
 use crate::error::Result;
 use crate::fit::Fit;
+use crate::spatial::geodesy::MEAN_EARTH_RADIUS_KM;
+use crate::spatial::Coordinates;
 use crate::stats::median_of_sorted;
 use crate::value::{ratio_study, ratio_tiers, RatioOptions, TierBasis};
 use plotters::prelude::*;
@@ -37,8 +39,33 @@ fn miss_colour(t: f64) -> RGBColor {
 /// residual on the miss scale (module documentation); the groups of
 /// `options.group_column`, if any, labelled at their median coordinates.
 /// The axes share one scale, so distances on the map are true.
+///
+/// Geographic places (longitude, latitude) are drawn on a local
+/// equirectangular projection about the sales' middle latitude `φ₀`
+/// (`x = R·cos φ₀·Δλ`, `y = R·Δφ`, km, `R` the mean Earth radius): true
+/// along the middle parallel and every meridian; the chart states the
+/// largest east–west scale error over the sales' latitudes,
+/// `|cos φ / cos φ₀ − 1|`.
 pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: PlotSize) -> Result<Svg> {
-    let places = fit.places(frame, options)?;
+    let mut places = fit.places(frame, options)?;
+    let mut axis_names = (options.x_column.clone(), options.y_column.clone());
+    let mut projection_note = String::new();
+    if options.coordinates == Coordinates::Geographic {
+        let projection = LocalProjection::about(&places.xs, &places.ys);
+        for (x, y) in places.xs.iter_mut().zip(places.ys.iter_mut()) {
+            (*x, *y) = projection.project(*x, *y);
+        }
+        axis_names = (
+            format!("km east of {:.4}° (from {})", projection.lon0, options.x_column),
+            format!("km north of {:.4}° (from {})", projection.lat0, options.y_column),
+        );
+        projection_note = format!(
+            " Longitude and latitude drawn on an equirectangular projection about latitude {:.4}°; east–west \
+             scale error at most {:.2} % over these sales.",
+            projection.lat0,
+            100.0 * projection.worst_scale_error
+        );
+    }
     let residuals = &fit.solution().residuals;
     let n = residuals.len() as f64;
     let sd = (residuals.iter().map(|r| r * r).sum::<f64>() / n).sqrt().max(f64::MIN_POSITIVE);
@@ -50,7 +77,7 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
                 area,
                 "Where the model misses: each sale at its place",
                 (x_range.clone(), y_range.clone()),
-                (&options.x_column, &options.y_column),
+                (&axis_names.0, &axis_names.1),
                 &ticks,
             )?;
             let radius = if places.xs.len() > 5000 { 1 } else { 2 };
@@ -95,12 +122,40 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
         })?;
     let description = format!(
         "{} sales plotted at ({}, {}), coloured by residual: terracotta where the price exceeded the model's value, \
-         slate blue where it fell short, sand where the model was close; clipped at ±2.5 residual standard deviations.",
+         slate blue where it fell short, sand where the model was close; clipped at ±2.5 residual standard deviations.{}",
         places.xs.len(),
         options.x_column,
-        options.y_column
+        options.y_column,
+        projection_note
     );
     Svg::finish(markup, "Where the model misses", &description)
+}
+
+/// A local equirectangular projection about the middle of some places.
+struct LocalProjection {
+    lon0: f64,
+    lat0: f64,
+    worst_scale_error: f64,
+}
+
+impl LocalProjection {
+    /// About the middle of the longitudes' and latitudes' ranges.
+    fn about(lon: &[f64], lat: &[f64]) -> Self {
+        let middle = |v: &[f64]| {
+            let lo = v.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            ((lo + hi) / 2.0, lo, hi)
+        };
+        let ((lon0, _, _), (lat0, south, north)) = (middle(lon), middle(lat));
+        let scale = |phi: f64| (phi.to_radians().cos() / lat0.to_radians().cos() - 1.0).abs();
+        Self { lon0, lat0, worst_scale_error: scale(south).max(scale(north)) }
+    }
+
+    /// (longitude, latitude) in degrees to km east and north of the centre.
+    fn project(&self, lon: f64, lat: f64) -> (f64, f64) {
+        let r = MEAN_EARTH_RADIUS_KM;
+        (r * self.lat0.to_radians().cos() * (lon - self.lon0).to_radians(), r * (lat - self.lat0).to_radians())
+    }
 }
 
 /// Ranges for `xs`, `ys` padded so one unit is the same length on both axes

@@ -160,11 +160,16 @@ fn spatial_sheet(check: &SpatialCheck) -> Sheet {
         WeightStyle::Binary => "each neighbour weighted 1",
     };
     sheet.context.push(format!("model: {}", check.model));
+    let places = match check.options.coordinates {
+        crate::spatial::Coordinates::Planar => format!("({}, {})", check.options.x_column, check.options.y_column),
+        crate::spatial::Coordinates::Geographic => format!(
+            "longitude {} and latitude {} (geodesic distances on WGS 84, km)",
+            check.options.x_column, check.options.y_column
+        ),
+    };
     sheet.context.push(format!(
-        "neighbours: {} of each sale by ({}, {}); {style}; moments for {}",
+        "neighbours: {} of each sale by {places}; {style}; moments for {}",
         m.neighbourhood.describe(),
-        check.options.x_column,
-        check.options.y_column,
         m.assumption.describe()
     ));
     sheet.table(&["figure", "value"], &[false, true], moran_rows(m));

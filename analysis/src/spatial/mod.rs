@@ -3,7 +3,8 @@
 //! chance allows.
 //!
 //! * [`SpatialWeights`] — who neighbours whom: the `k` nearest parcels or
-//!   every parcel within a distance band, binary or row-standardised.
+//!   every parcel within a distance band, binary or row-standardised, on the
+//!   plane or (longitude, latitude) on the WGS 84 ellipsoid ([`geodesy`]).
 //! * [`moran_test`] — Moran's I of any variable, with its moments under the
 //!   normality or the randomisation assumption (Cliff & Ord 1981).
 //! * [`moran_test_of_residuals`] — Moran's I of least-squares residuals, with
@@ -16,8 +17,10 @@
 //! restated in L. Anselin, *Spatial Econometrics: Methods and Models*, Kluwer,
 //! 1988, §8.1.
 
+pub mod geodesy;
 mod moran;
 mod weights;
 
+pub use geodesy::Coordinates;
 pub use moran::{moran_test, moran_test_of_residuals, MoranAssumption, MoranTest};
 pub use weights::{Neighbourhood, SpatialWeights, WeightStyle};

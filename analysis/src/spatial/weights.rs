@@ -8,7 +8,14 @@
 //! Ties are broken by row order: of several parcels at exactly the `k`-th
 //! nearest distance, the earliest rows are taken, so the same data always
 //! give the same matrix.
+//!
+//! Geographic places (longitude, latitude in degrees) are found on the unit
+//! sphere (chord distances in a 3-D R*-tree, widened by
+//! [`SPHERE_SEARCH_MARGIN`]) and ranked by their geodesic distance on the
+//! WGS 84 ellipsoid in km ([`super::geodesy`]), so the neighbours are exactly
+//! the ellipsoid's.
 
+use super::geodesy::{check_lon_lat, chord_of_km, geodesic_km, unit_vector, Coordinates, SPHERE_SEARCH_MARGIN};
 use crate::error::{Error, Result};
 use rstar::primitives::GeomWithData;
 use rstar::RTree;
@@ -25,8 +32,8 @@ pub enum Neighbourhood {
         /// How many neighbours each parcel has.
         k: usize,
     },
-    /// Every other parcel within `distance` (in the coordinates' units),
-    /// inclusive; symmetric.
+    /// Every other parcel within `distance` (in the coordinates' units; km
+    /// for geographic coordinates), inclusive; symmetric.
     Within {
         /// The band's radius.
         distance: f64,
@@ -73,6 +80,22 @@ impl SpatialWeights {
     /// parcel has no neighbour (an island, for which Moran's I is undefined
     /// under row standardisation): the error names the first such row.
     pub fn build(xs: &[f64], ys: &[f64], neighbourhood: Neighbourhood, style: WeightStyle) -> Result<Self> {
+        Self::build_in(Coordinates::Planar, xs, ys, neighbourhood, style)
+    }
+
+    /// Builds `W` for parcels at `(xs[i], ys[i])` read as `coordinates`: on
+    /// the plane as [`SpatialWeights::build`], or as (longitude, latitude) in
+    /// degrees with geodesic distances in km (a band's `distance` in km).
+    pub fn build_in(
+        coordinates: Coordinates,
+        xs: &[f64],
+        ys: &[f64],
+        neighbourhood: Neighbourhood,
+        style: WeightStyle,
+    ) -> Result<Self> {
+        if coordinates == Coordinates::Geographic {
+            return Self::build_geographic(xs, ys, neighbourhood, style);
+        }
         if xs.len() != ys.len() {
             return Err(Error::Specification("the two coordinate columns must have one value per parcel".into()));
         }
@@ -142,6 +165,11 @@ impl SpatialWeights {
                 }
             }
         }
+        Ok(Self::weighted(rows, neighbourhood, style))
+    }
+
+    /// The matrix of neighbour lists `rows`, weighted by `style`.
+    fn weighted(rows: Vec<Vec<usize>>, neighbourhood: Neighbourhood, style: WeightStyle) -> Self {
         let rows = rows
             .into_iter()
             .map(|row| {
@@ -152,7 +180,89 @@ impl SpatialWeights {
                 row.into_iter().map(|j| (j, w)).collect()
             })
             .collect();
-        Ok(Self { rows, neighbourhood, style })
+        Self { rows, neighbourhood, style }
+    }
+
+    /// [`SpatialWeights::build_in`] for (longitude, latitude) in degrees.
+    fn build_geographic(lon: &[f64], lat: &[f64], neighbourhood: Neighbourhood, style: WeightStyle) -> Result<Self> {
+        if lon.len() != lat.len() {
+            return Err(Error::Specification("the two coordinate columns must have one value per parcel".into()));
+        }
+        let n = lon.len();
+        for i in 0..n {
+            check_lon_lat(lon[i], lat[i], &|| format!("the place of parcel {} (row {})", i + 1, i + 1))?;
+        }
+        let points: Vec<GeomWithData<[f64; 3], usize>> =
+            (0..n).map(|i| GeomWithData::new(unit_vector(lon[i], lat[i]), i)).collect();
+        let tree = RTree::bulk_load(points);
+        let km = |i: usize, j: usize| geodesic_km(lon[i], lat[i], lon[j], lat[j]);
+        // A chord on the unit sphere back to km along the mean sphere.
+        let sphere_km =
+            |chord2: f64| 2.0 * (chord2.sqrt() / 2.0).min(1.0).asin() * super::geodesy::MEAN_EARTH_RADIUS_KM;
+        let mut rows: Vec<Vec<usize>> = Vec::with_capacity(n);
+        match neighbourhood {
+            Neighbourhood::Nearest { k } => {
+                if k == 0 || k >= n {
+                    return Err(Error::OutOfRange {
+                        what: "the number of nearest neighbours".into(),
+                        requirement: format!("between 1 and {} (one fewer than the {n} parcels)", n.saturating_sub(1)),
+                        value: k.to_string(),
+                    });
+                }
+                for i in 0..n {
+                    // Candidates come in sphere order; once the sphere
+                    // distance passes the k-th geodesic by the margin, no
+                    // later candidate can be nearer on the ellipsoid.
+                    let mut found: Vec<(f64, usize)> = Vec::with_capacity(k + 8);
+                    let mut kth = f64::INFINITY;
+                    for (point, chord2) in tree.nearest_neighbor_iter_with_distance_2(&unit_vector(lon[i], lat[i])) {
+                        if point.data == i {
+                            continue;
+                        }
+                        if found.len() >= k && sphere_km(chord2) > kth * SPHERE_SEARCH_MARGIN {
+                            break;
+                        }
+                        found.push((km(i, point.data), point.data));
+                        if found.len() >= k {
+                            found.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+                            kth = found[k - 1].0;
+                        }
+                    }
+                    found.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+                    found.truncate(k);
+                    let mut row: Vec<usize> = found.into_iter().map(|(_, j)| j).collect();
+                    row.sort_unstable();
+                    rows.push(row);
+                }
+            }
+            Neighbourhood::Within { distance } => {
+                if !(distance > 0.0 && distance.is_finite()) {
+                    return Err(Error::OutOfRange {
+                        what: "the neighbourhood distance (km)".into(),
+                        requirement: "a positive number".into(),
+                        value: distance.to_string(),
+                    });
+                }
+                let chord = chord_of_km(distance * SPHERE_SEARCH_MARGIN);
+                for i in 0..n {
+                    let mut row: Vec<usize> = tree
+                        .locate_within_distance(unit_vector(lon[i], lat[i]), chord * chord)
+                        .map(|p| p.data)
+                        .filter(|&j| j != i && km(i, j) <= distance)
+                        .collect();
+                    if row.is_empty() {
+                        return Err(Error::Specification(format!(
+                            "parcel {} (row {}) has no neighbour within {distance} km; widen the band or use nearest neighbours",
+                            i + 1,
+                            i + 1
+                        )));
+                    }
+                    row.sort_unstable();
+                    rows.push(row);
+                }
+            }
+        }
+        Ok(Self::weighted(rows, neighbourhood, style))
     }
 
     /// The weights from explicit rows `(j, wᵢⱼ)` (for tests and for matrices

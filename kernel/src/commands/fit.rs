@@ -1,7 +1,7 @@
 //! `plumbline fit`: one model, one data file, a report on stdout.
 
 use super::CommandError;
-use crate::cli::{CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg, SourceFlags, SpatialFlags};
+use crate::cli::{CoordinatesArg, CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg, SourceFlags, SpatialFlags};
 use plumbline::diagnose::SpatialOptions;
 use plumbline::documents::{to_pretty_json, FitDiagnostics, FitDocument, Versioned};
 use plumbline::prelude::*;
@@ -115,7 +115,7 @@ pub fn model_spec(args: &FitArgs) -> Result<ModelSpec, CommandError> {
         for term in plumbline::model::parse_term_list(text)? {
             if !matches!(term, Term::Distance { .. }) {
                 return Err(CommandError::Usage(format!(
-                    "--location-term expects a distance term such as `dist:x:y:4.5:3.0:Lantern Green`, got `{text}`"
+                    "--location-term expects a distance term such as `dist:x:y:4.5:3.0:Lantern Green` (or `geodist:LON:LAT:PLON:PLAT:NAME` for degrees), got `{text}`"
                 )));
             }
             spec = spec.term(term);
@@ -178,6 +178,39 @@ pub fn load_with_flags(
     args: &InputFlags,
     source: Option<&SourceFlags>,
 ) -> Result<Frame, CommandError> {
+    load_columns_with_flags(data, args, source, None)
+}
+
+/// The frame columns a fit with these flags reads: the model's (target,
+/// terms, weights) and those of `--cluster`, `--id`, `--spatial-check`,
+/// `--location-groups` and `--by`.
+fn columns_for_fit(args: &FitArgs, spec: &ModelSpec) -> Vec<String> {
+    let (numbers, labels) = plumbline::model::design::columns_read(spec);
+    let mut columns: Vec<String> = numbers.into_iter().chain(labels).collect();
+    let spatial: Vec<String> =
+        args.spatial.spatial_check.iter().flat_map(|pair| pair.split(',').map(|c| c.trim().to_string())).collect();
+    let extra = [&args.cluster, &args.id, &args.spatial.location_groups, &args.by];
+    for column in extra.into_iter().flatten().cloned().chain(spatial) {
+        if !columns.contains(&column) {
+            columns.push(column);
+        }
+    }
+    columns
+}
+
+/// Loads the sales for a fit: as [`load_with_flags`], but a columnar file
+/// (Parquet) gives only the columns the fit reads ([`columns_for_fit`]).
+pub fn load_for_fit(args: &FitArgs, spec: &ModelSpec) -> Result<Frame, CommandError> {
+    load_columns_with_flags(&args.data, &args.input, Some(&args.source), Some(&columns_for_fit(args, spec)))
+}
+
+/// [`load_with_flags`], reading only `columns` where the format allows it.
+fn load_columns_with_flags(
+    data: &std::path::Path,
+    args: &InputFlags,
+    source: Option<&SourceFlags>,
+    columns: Option<&[String]>,
+) -> Result<Frame, CommandError> {
     let shown = data.to_string_lossy();
     let extension = data.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
     let kind = if is_postgres(&shown) {
@@ -232,7 +265,10 @@ pub fn load_with_flags(
             _ => load(data)?,
         },
         "workbook" => load_workbook(data, source.and_then(|f| f.sheet.as_deref()))?,
-        "parquet" => load_parquet(data)?,
+        "parquet" => match columns {
+            Some(columns) => plumbline::data::load_parquet_columns(data, columns)?,
+            None => load_parquet(data)?,
+        },
         "arrow" => load_arrow(data)?,
         _ => return Ok(load_csv(data, &csv_options(args)?)?),
     };
@@ -242,16 +278,23 @@ pub fn load_with_flags(
 /// The spatial check the flags ask for, if any.
 fn spatial_options(flags: &SpatialFlags) -> Result<Option<SpatialOptions>, CommandError> {
     let Some(columns) = &flags.spatial_check else {
-        if flags.neighbours.is_some() || flags.band.is_some() || flags.binary_weights || flags.location_groups.is_some()
+        if flags.neighbours.is_some()
+            || flags.band.is_some()
+            || flags.binary_weights
+            || flags.location_groups.is_some()
+            || flags.coordinates != CoordinatesArg::Planar
         {
             return Err(CommandError::Usage(
-                "--neighbours, --band, --binary-weights and --location-groups shape the spatial check; add --spatial-check X,Y".into(),
+                "--neighbours, --band, --binary-weights, --location-groups and --coordinates shape the spatial check; add --spatial-check X,Y".into(),
             ));
         }
         return Ok(None);
     };
     let (x, y) = split_pair(columns, ',', "spatial-check", "X,Y such as `x,y`")?;
     let mut options = SpatialOptions::new(x, y);
+    if flags.coordinates == CoordinatesArg::Geographic {
+        options = options.geographic();
+    }
     if let Some(k) = flags.neighbours {
         options = options.nearest(k);
     }
@@ -276,8 +319,8 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
     if let Some(batch_rows) = batch_rows(args) {
         return run_in_batches(args, batch_rows);
     }
-    let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
     let spec = model_spec(args)?;
+    let frame = load_for_fit(args, &spec)?;
     let model = fit_with(&frame, &spec, &fit_options(args))?;
     let predictions = match &args.predict {
         Some(path) => Some(model.predict(&load_with_flags(path, &args.input, None)?, args.level)?),
@@ -374,7 +417,7 @@ pub fn fit_by_group(args: &FitArgs, column: &str) -> Result<StratifiedFit, Comma
             plumbline::strata::fit_batches_by(&args.data, &spec, &options, rows, non_finite_rule(&args.input)?, column)?
         }
         None => {
-            let frame = load_with_flags(&args.data, &args.input, Some(&args.source))?;
+            let frame = load_for_fit(args, &spec)?;
             plumbline::strata::fit_by_with(&frame, &spec, column, &options)?
         }
     })

@@ -7,7 +7,7 @@
 //! every parcel was valued: a failure leaves no half-written file. Progress
 //! goes to standard error, one line per batch.
 
-use super::fit::{batch_rows, fit_by_group, fit_options, load_with_flags, model_spec};
+use super::fit::{batch_rows, fit_by_group, fit_options, load_for_fit, model_spec};
 use super::CommandError;
 use crate::cli::ValueArgs;
 use plumbline::data::RowBatches;
@@ -97,7 +97,7 @@ pub fn run(args: &ValueArgs) -> Result<String, CommandError> {
             Model::Assembled(Box::new(fit_batches(&args.fit.data, &spec, &options, rows, rule)?))
         }
         (None, None) => {
-            let frame = load_with_flags(&args.fit.data, &args.fit.input, Some(&args.fit.source))?;
+            let frame = load_for_fit(&args.fit, &spec)?;
             Model::InMemory(Box::new(fit_with(&frame, &spec, &options)?))
         }
     };
