@@ -42,7 +42,7 @@ def test_diff_reads_a_schema_1_run_against_a_current_run(tmp_path):
     """Runs saved before schema version 2 (README, "JSON output") still compare with current ones:
     the old document is rebuilt from a new one with the version-1 names."""
     new = fit_json(DATA / "sales-next-quarter.csv", tmp_path / "q2.json")
-    assert new["schema_version"] == 3 and "model_df" in new and "df_model" not in new
+    assert new["schema_version"] == 4 and "model_df" in new and "df_model" not in new
     old = fit_json(DATA / "sales.csv", tmp_path / "q1.json")
     old["schema_version"] = 1
     old["df_model"], old["df_resid"] = old.pop("model_df"), old.pop("residual_df")
