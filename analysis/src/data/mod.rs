@@ -27,6 +27,8 @@ mod cells;
 mod csv_reader;
 pub mod dates;
 mod frame;
+#[cfg(feature = "sqlite")]
+mod geopackage;
 mod parquet_reader;
 mod postgres_reader;
 pub mod profile;
@@ -45,7 +47,7 @@ pub use frame::Frame;
 pub use parquet_reader::{load_parquet, load_parquet_columns};
 pub use postgres_reader::load_postgres;
 pub use profile::{profile, ColumnProfile};
-pub use provenance::{sha256_hex, Provenance, SourceKind, SourceStamp};
+pub use provenance::{sha256_hex, GeometryRead, Provenance, SourceKind, SourceStamp};
 pub use screen::{ExcludedRow, Screen};
 #[cfg(feature = "sqlite")]
 pub use sqlite_reader::{load_sqlite, SqlRead};

@@ -78,6 +78,30 @@ pub struct SourceStamp {
     /// geometry, held as binary), so that their absence is on record.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub not_read: Vec<String>,
+    /// GeoPackage geometry columns read as places: each one's coordinate
+    /// columns and spatial reference system (fit document version 4).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub geometry: Vec<GeometryRead>,
+}
+
+/// A GeoPackage geometry column read as one place per row.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct GeometryRead {
+    /// The geometry column.
+    pub column: String,
+    /// The columns its places were written to (`geom_lon`, `geom_lat` for
+    /// degrees; `geom_x`, `geom_y` otherwise).
+    pub place_columns: (String, String),
+    /// What a place is: `point`, or the centroid of the shape (`polygon
+    /// centroid`, …), by the geometry types met.
+    pub place: String,
+    /// The spatial reference system as the file names it (`EPSG:4326 WGS 84
+    /// geodetic`), or `undefined` when the file gives none.
+    pub srs: String,
+    /// Whether the coordinates are longitude and latitude in degrees (a
+    /// geographic system), so that distances need `--coordinates geographic`.
+    pub degrees: bool,
 }
 
 /// `hash_of` for sources hashed by their bytes.
@@ -99,6 +123,7 @@ impl SourceStamp {
             sheet: None,
             hash_of: hash_of.to_string(),
             not_read: Vec::new(),
+            geometry: Vec::new(),
         }
     }
 }

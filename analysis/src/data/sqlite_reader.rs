@@ -4,13 +4,18 @@
 //! A table is read whole, or a query with parameters (`?1`, `?2`, … bound as
 //! text, which SQLite compares by its type-affinity rules). The file is
 //! opened read-only. Column types follow the values ([`super::cells`]);
-//! dates stored as ISO 8601 text become date columns. Binary columns (a
-//! GeoPackage's geometry) are not read, and the stamp lists them. The stamp's
-//! hash is of the values read, not the file's bytes, so that an unrelated
-//! table's change or a `VACUUM` does not look like new sales.
+//! dates stored as ISO 8601 text become date columns. A GeoPackage geometry
+//! column becomes two coordinate columns, each row's point or the centroid of
+//! its polygon ([`super::geopackage`]): `geom_lon`, `geom_lat` when its
+//! reference system is in degrees, `geom_x`, `geom_y` otherwise; the stamp
+//! names the reference system. Other binary columns are not read, and the
+//! stamp lists them. The stamp's hash is of the values read, not the file's
+//! bytes, so that an unrelated table's change or a `VACUUM` does not look
+//! like new sales.
 
 use super::cells::{Cell, CellColumns};
-use super::provenance::{SourceKind, SourceStamp, HASH_OF_RESULT_VALUES};
+use super::geopackage::{self, Place};
+use super::provenance::{GeometryRead, SourceKind, SourceStamp, HASH_OF_RESULT_VALUES};
 use super::{Frame, Provenance};
 use crate::error::{Error, Result};
 use rusqlite::types::ValueRef;
@@ -116,11 +121,13 @@ pub fn load_sqlite(path: impl AsRef<Path>, what: &SqlRead) -> Result<Frame> {
     let width = names.len();
     let mut rows = statement.query(rusqlite::params_from_iter(parameters.iter())).map_err(failed("run the query"))?;
     let mut cells: Vec<Vec<Cell>> = Vec::new();
-    let mut binary = vec![false; width];
+    let mut binary: Vec<BinaryColumn> = vec![BinaryColumn::None; width];
+    let mut places: Vec<Vec<Option<Place>>> = vec![Vec::new(); width];
     while let Some(row) = rows.next().map_err(failed("read the result"))? {
         let mut values = Vec::with_capacity(width);
-        for (index, is_binary) in binary.iter_mut().enumerate() {
+        for (index, kind) in binary.iter_mut().enumerate() {
             let value = row.get_ref(index).map_err(failed("read the result"))?;
+            let mut place = None;
             values.push(match value {
                 ValueRef::Null => Cell::Missing,
                 ValueRef::Integer(v) => Cell::Integer(v),
@@ -129,24 +136,95 @@ pub fn load_sqlite(path: impl AsRef<Path>, what: &SqlRead) -> Result<Frame> {
                     Ok(text) => Cell::Text(text.to_string()),
                     Err(_) => Cell::Text(String::from_utf8_lossy(bytes).into_owned()),
                 },
-                ValueRef::Blob(_) => {
-                    *is_binary = true;
+                ValueRef::Blob(bytes) => {
+                    *kind = match (*kind, geopackage::is_geometry(bytes)) {
+                        (BinaryColumn::Opaque, _) | (_, false) => BinaryColumn::Opaque,
+                        (previous, true) => {
+                            let (srs_id, decoded) = geopackage::decode(bytes).map_err(|why| {
+                                Error::Specification(format!(
+                                    "the geometry in column `{}` of result row {} cannot be read: {why}",
+                                    names[index],
+                                    cells.len() + 1
+                                ))
+                            })?;
+                            place = decoded;
+                            match previous {
+                                BinaryColumn::Geometry(id) if id != srs_id => {
+                                    return Err(Error::Specification(format!(
+                                        "column `{}` holds geometries in two spatial reference systems ({id} and \
+                                         {srs_id}); read one system at a time (a query with a WHERE on the layer)",
+                                        names[index]
+                                    )))
+                                }
+                                _ => BinaryColumn::Geometry(srs_id),
+                            }
+                        }
+                    };
                     Cell::Missing
                 }
             });
+            places[index].push(place);
         }
         cells.push(values);
     }
-    let kept: Vec<usize> = (0..width).filter(|&i| !binary[i]).collect();
-    stamp.not_read = (0..width).filter(|&i| binary[i]).map(|i| names[i].clone()).collect();
-    let mut columns = CellColumns::new(kept.iter().map(|&i| names[i].clone()).collect());
-    for row in cells {
+    let kept: Vec<usize> = (0..width).filter(|&i| binary[i] == BinaryColumn::None).collect();
+    stamp.not_read = (0..width).filter(|&i| binary[i] == BinaryColumn::Opaque).map(|i| names[i].clone()).collect();
+    let mut column_names: Vec<String> = kept.iter().map(|&i| names[i].clone()).collect();
+    let mut geometry_columns: Vec<usize> = Vec::new();
+    for (i, kind) in binary.iter().enumerate() {
+        let BinaryColumn::Geometry(srs_id) = *kind else { continue };
+        let (srs, degrees) = geopackage::reference_system(&connection, srs_id)?;
+        let suffixes = if degrees { ("lon", "lat") } else { ("x", "y") };
+        let place_columns = (format!("{}_{}", names[i], suffixes.0), format!("{}_{}", names[i], suffixes.1));
+        for name in [&place_columns.0, &place_columns.1] {
+            if names.contains(name) {
+                return Err(Error::Specification(format!(
+                    "the places of geometry column `{}` would be written to `{name}`, which the source has already; \
+                     rename that column (a query with `AS`)",
+                    names[i]
+                )));
+            }
+        }
+        let mut kinds: Vec<&str> = places[i].iter().flatten().map(|p| p.kind).collect();
+        kinds.sort_unstable();
+        kinds.dedup();
+        column_names.push(place_columns.0.clone());
+        column_names.push(place_columns.1.clone());
+        stamp.geometry.push(GeometryRead {
+            column: names[i].clone(),
+            place_columns,
+            place: if kinds.is_empty() { "no place (every geometry empty)".into() } else { kinds.join(", ") },
+            srs,
+            degrees,
+        });
+        geometry_columns.push(i);
+    }
+    let mut columns = CellColumns::new(column_names);
+    for (r, row) in cells.into_iter().enumerate() {
         let mut row = row;
-        columns.push_row(kept.iter().map(|&i| std::mem::replace(&mut row[i], Cell::Missing)).collect());
+        let mut values: Vec<Cell> = kept.iter().map(|&i| std::mem::replace(&mut row[i], Cell::Missing)).collect();
+        for &i in &geometry_columns {
+            match places[i][r] {
+                Some(place) => values.extend([Cell::Real(place.x), Cell::Real(place.y)]),
+                None => values.extend([Cell::Missing, Cell::Missing]),
+            }
+        }
+        columns.push_row(values);
     }
     let (data, sha256) = columns.finish()?;
     let provenance = Provenance::for_source(path.display().to_string(), sha256, data.height(), data.width(), stamp);
     Ok(Frame::from_parts(data, provenance, None))
+}
+
+/// What the binary values of a column turned out to be.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum BinaryColumn {
+    /// No binary value seen (so far).
+    None,
+    /// GeoPackage geometries, all in this spatial reference system.
+    Geometry(i32),
+    /// Some other binary value: the column is not read.
+    Opaque,
 }
 
 /// The one table of a database file, for [`super::load`]; several tables
