@@ -19,8 +19,10 @@
 
 pub mod geodesy;
 mod moran;
+mod places;
 mod weights;
 
 pub use geodesy::Coordinates;
 pub use moran::{moran_test, moran_test_of_residuals, MoranAssumption, MoranTest};
+pub use places::PlaceIndex;
 pub use weights::{Neighbourhood, SpatialWeights, WeightStyle};

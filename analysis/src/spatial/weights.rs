@@ -9,16 +9,13 @@
 //! nearest distance, the earliest rows are taken, so the same data always
 //! give the same matrix.
 //!
-//! Geographic places (longitude, latitude in degrees) are found on the unit
-//! sphere (chord distances in a 3-D R*-tree, widened by
-//! [`SPHERE_SEARCH_MARGIN`]) and ranked by their geodesic distance on the
-//! WGS 84 ellipsoid in km ([`super::geodesy`]), so the neighbours are exactly
-//! the ellipsoid's.
+//! Geographic places (longitude, latitude in degrees) are ranked by their
+//! geodesic distance on the WGS 84 ellipsoid in km ([`super::places`]), so
+//! the neighbours are exactly the ellipsoid's.
 
-use super::geodesy::{check_lon_lat, chord_of_km, geodesic_km, unit_vector, Coordinates, SPHERE_SEARCH_MARGIN};
+use super::geodesy::Coordinates;
+use super::places::PlaceIndex;
 use crate::error::{Error, Result};
-use rstar::primitives::GeomWithData;
-use rstar::RTree;
 use serde::{Deserialize, Serialize};
 
 /// How neighbours are chosen.
@@ -93,22 +90,12 @@ impl SpatialWeights {
         neighbourhood: Neighbourhood,
         style: WeightStyle,
     ) -> Result<Self> {
-        if coordinates == Coordinates::Geographic {
-            return Self::build_geographic(xs, ys, neighbourhood, style);
-        }
-        if xs.len() != ys.len() {
-            return Err(Error::Specification("the two coordinate columns must have one value per parcel".into()));
-        }
-        let n = xs.len();
-        if let Some(i) = (0..n).find(|&i| !(xs[i].is_finite() && ys[i].is_finite())) {
-            return Err(Error::OutOfRange {
-                what: format!("the coordinates of parcel {} (row {})", i + 1, i + 1),
-                requirement: "finite numbers".into(),
-                value: format!("({}, {})", xs[i], ys[i]),
-            });
-        }
-        let points: Vec<GeomWithData<[f64; 2], usize>> = (0..n).map(|i| GeomWithData::new([xs[i], ys[i]], i)).collect();
-        let tree = RTree::bulk_load(points);
+        let places = PlaceIndex::new(coordinates, xs, ys)?;
+        let n = places.len();
+        let unit = match coordinates {
+            Coordinates::Planar => "",
+            Coordinates::Geographic => " km",
+        };
         let mut rows: Vec<Vec<usize>> = Vec::with_capacity(n);
         match neighbourhood {
             Neighbourhood::Nearest { k } => {
@@ -120,21 +107,8 @@ impl SpatialWeights {
                     });
                 }
                 for i in 0..n {
-                    // Walk outwards until the k-th distance is passed, so
-                    // that every parcel tied at that distance is seen.
-                    let mut found: Vec<(f64, usize)> = Vec::with_capacity(k + 4);
-                    for (point, d2) in tree.nearest_neighbor_iter_with_distance_2(&[xs[i], ys[i]]) {
-                        if point.data == i {
-                            continue;
-                        }
-                        if found.len() >= k && d2 > found[k - 1].0 {
-                            break;
-                        }
-                        found.push((d2, point.data));
-                    }
-                    found.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-                    found.truncate(k);
-                    let mut row: Vec<usize> = found.into_iter().map(|(_, j)| j).collect();
+                    let (x, y) = places.place(i);
+                    let mut row: Vec<usize> = places.nearest(x, y, k, Some(i)).into_iter().map(|(_, j)| j).collect();
                     row.sort_unstable();
                     rows.push(row);
                 }
@@ -148,19 +122,15 @@ impl SpatialWeights {
                     });
                 }
                 for i in 0..n {
-                    let mut row: Vec<usize> = tree
-                        .locate_within_distance([xs[i], ys[i]], distance * distance)
-                        .map(|p| p.data)
-                        .filter(|&j| j != i)
-                        .collect();
+                    let (x, y) = places.place(i);
+                    let row: Vec<usize> = places.within(x, y, distance, Some(i)).into_iter().map(|(_, j)| j).collect();
                     if row.is_empty() {
                         return Err(Error::Specification(format!(
-                            "parcel {} (row {}) has no neighbour within {distance}; widen the band or use nearest neighbours",
+                            "parcel {} (row {}) has no neighbour within {distance}{unit}; widen the band or use nearest neighbours",
                             i + 1,
                             i + 1
                         )));
                     }
-                    row.sort_unstable();
                     rows.push(row);
                 }
             }
@@ -181,88 +151,6 @@ impl SpatialWeights {
             })
             .collect();
         Self { rows, neighbourhood, style }
-    }
-
-    /// [`SpatialWeights::build_in`] for (longitude, latitude) in degrees.
-    fn build_geographic(lon: &[f64], lat: &[f64], neighbourhood: Neighbourhood, style: WeightStyle) -> Result<Self> {
-        if lon.len() != lat.len() {
-            return Err(Error::Specification("the two coordinate columns must have one value per parcel".into()));
-        }
-        let n = lon.len();
-        for i in 0..n {
-            check_lon_lat(lon[i], lat[i], &|| format!("the place of parcel {} (row {})", i + 1, i + 1))?;
-        }
-        let points: Vec<GeomWithData<[f64; 3], usize>> =
-            (0..n).map(|i| GeomWithData::new(unit_vector(lon[i], lat[i]), i)).collect();
-        let tree = RTree::bulk_load(points);
-        let km = |i: usize, j: usize| geodesic_km(lon[i], lat[i], lon[j], lat[j]);
-        // A chord on the unit sphere back to km along the mean sphere.
-        let sphere_km =
-            |chord2: f64| 2.0 * (chord2.sqrt() / 2.0).min(1.0).asin() * super::geodesy::MEAN_EARTH_RADIUS_KM;
-        let mut rows: Vec<Vec<usize>> = Vec::with_capacity(n);
-        match neighbourhood {
-            Neighbourhood::Nearest { k } => {
-                if k == 0 || k >= n {
-                    return Err(Error::OutOfRange {
-                        what: "the number of nearest neighbours".into(),
-                        requirement: format!("between 1 and {} (one fewer than the {n} parcels)", n.saturating_sub(1)),
-                        value: k.to_string(),
-                    });
-                }
-                for i in 0..n {
-                    // Candidates come in sphere order; once the sphere
-                    // distance passes the k-th geodesic by the margin, no
-                    // later candidate can be nearer on the ellipsoid.
-                    let mut found: Vec<(f64, usize)> = Vec::with_capacity(k + 8);
-                    let mut kth = f64::INFINITY;
-                    for (point, chord2) in tree.nearest_neighbor_iter_with_distance_2(&unit_vector(lon[i], lat[i])) {
-                        if point.data == i {
-                            continue;
-                        }
-                        if found.len() >= k && sphere_km(chord2) > kth * SPHERE_SEARCH_MARGIN {
-                            break;
-                        }
-                        found.push((km(i, point.data), point.data));
-                        if found.len() >= k {
-                            found.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-                            kth = found[k - 1].0;
-                        }
-                    }
-                    found.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-                    found.truncate(k);
-                    let mut row: Vec<usize> = found.into_iter().map(|(_, j)| j).collect();
-                    row.sort_unstable();
-                    rows.push(row);
-                }
-            }
-            Neighbourhood::Within { distance } => {
-                if !(distance > 0.0 && distance.is_finite()) {
-                    return Err(Error::OutOfRange {
-                        what: "the neighbourhood distance (km)".into(),
-                        requirement: "a positive number".into(),
-                        value: distance.to_string(),
-                    });
-                }
-                let chord = chord_of_km(distance * SPHERE_SEARCH_MARGIN);
-                for i in 0..n {
-                    let mut row: Vec<usize> = tree
-                        .locate_within_distance(unit_vector(lon[i], lat[i]), chord * chord)
-                        .map(|p| p.data)
-                        .filter(|&j| j != i && km(i, j) <= distance)
-                        .collect();
-                    if row.is_empty() {
-                        return Err(Error::Specification(format!(
-                            "parcel {} (row {}) has no neighbour within {distance} km; widen the band or use nearest neighbours",
-                            i + 1,
-                            i + 1
-                        )));
-                    }
-                    row.sort_unstable();
-                    rows.push(row);
-                }
-            }
-        }
-        Ok(Self::weighted(rows, neighbourhood, style))
     }
 
     /// The weights from explicit rows `(j, wᵢⱼ)` (for tests and for matrices
