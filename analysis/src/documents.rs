@@ -22,6 +22,7 @@
 //! | holdout accuracy | [`Versioned`]`<`[`HoldoutAccuracy`]`>` | `plumbline.holdout-accuracy` | 1 | [`crate::schema::HOLDOUT_ACCURACY_JSON_MIME`] |
 //! | value roll | [`Versioned`]`<`[`ValueRoll`]`>` | `plumbline.value-roll` | 2 | [`crate::schema::VALUE_ROLL_JSON_MIME`] |
 //! | sales-chasing check | [`Versioned`]`<`[`SalesChasingCheck`]`>` | `plumbline.sales-chasing` | 1 | [`crate::schema::SALES_CHASING_JSON_MIME`] |
+//! | local fit | [`Versioned`]`<`[`LocalSummary`]`>` | `plumbline.local-fit` | 1 | [`crate::schema::LOCAL_FIT_JSON_MIME`] |
 //! | models by group | [`Versioned`]`<`[`StratifiedSummary`]`>` | `plumbline.stratified-fit` | 1 | [`crate::schema::STRATIFIED_FIT_JSON_MIME`] |
 //!
 //! The later documents share one wrapper, [`Versioned`], whose name and
@@ -36,10 +37,11 @@ use crate::data::Provenance;
 use crate::diagnose::{Collinearity, Influence, RowFlags, SpatialCheck, TestResult};
 use crate::error::{Error, Result};
 use crate::inference::FitSummary;
+use crate::local::LocalSummary;
 use crate::predict::Predictions;
 use crate::schema::{
-    HOLDOUT_ACCURACY_JSON_MIME, PRICE_TIERS_JSON_MIME, SALES_CHASING_JSON_MIME, SPATIAL_CHECK_JSON_MIME,
-    STRATIFIED_FIT_JSON_MIME, VALUE_ACCURACY_JSON_MIME, VALUE_ROLL_JSON_MIME,
+    HOLDOUT_ACCURACY_JSON_MIME, LOCAL_FIT_JSON_MIME, PRICE_TIERS_JSON_MIME, SALES_CHASING_JSON_MIME,
+    SPATIAL_CHECK_JSON_MIME, STRATIFIED_FIT_JSON_MIME, VALUE_ACCURACY_JSON_MIME, VALUE_ROLL_JSON_MIME,
 };
 use crate::strata::StratifiedSummary;
 use crate::value::{HoldoutAccuracy, RatioStudy, SalesChasingCheck, TierStudy, ValueAccuracy, ValueRoll};
@@ -288,6 +290,7 @@ document_kind!(HoldoutAccuracy, "plumbline.holdout-accuracy", 1, HOLDOUT_ACCURAC
 document_kind!(ValueRoll, "plumbline.value-roll", 2, VALUE_ROLL_JSON_MIME, "value-roll");
 document_kind!(SalesChasingCheck, "plumbline.sales-chasing", 1, SALES_CHASING_JSON_MIME, "sales-chasing");
 document_kind!(StratifiedSummary, "plumbline.stratified-fit", 1, STRATIFIED_FIT_JSON_MIME, "stratified-fit");
+document_kind!(LocalSummary, "plumbline.local-fit", 1, LOCAL_FIT_JSON_MIME, "local-fit");
 
 /// Serializes a document as compact JSON.
 pub fn to_json<T: Serialize>(document: &T, what: &'static str) -> Result<String> {

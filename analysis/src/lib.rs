@@ -30,6 +30,7 @@
 //! | [`predict`] | predictions with confidence and prediction intervals |
 //! | [`diagnose`] | influence, collinearity, assumption tests, the spatial check of residuals, rows to check |
 //! | [`spatial`] | spatial weights between parcels and Moran's I |
+//! | [`local`] | geographically weighted regression: local coefficients at every sale, bandwidth by AICc |
 //! | [`compare`] | nested tests, side-by-side tables, cross-validation, holdout splits |
 //! | [`value`] | ratio studies, price tiers, value accuracy, sales-chasing check, sale-date adjustment, model values and the value roll |
 //! | [`strata`] | one model per market area (or any grouping column), the pooled models, the F tests of equal coefficients, valuing by group |
@@ -51,6 +52,7 @@ mod error;
 pub mod fit;
 pub mod grouping;
 pub mod inference;
+pub mod local;
 pub mod model;
 pub mod numeric;
 pub mod plot;

@@ -175,6 +175,29 @@ pub struct FitArgs {
     /// with its reason. JSON output is the `plumbline.stratified-fit` document.
     #[arg(long, value_name = "COL")]
     pub by: Option<String>,
+    /// Fit the model locally at every sale (geographically weighted
+    /// regression), the sales' places in columns `X,Y` (`--coordinates
+    /// geographic` for longitude,latitude). JSON output is the
+    /// `plumbline.local-fit` document.
+    #[arg(long, value_name = "X,Y")]
+    pub local: Option<String>,
+    /// The local fit's kernel.
+    #[arg(long, value_enum, default_value_t = KernelArg::AdaptiveBisquare)]
+    pub kernel: KernelArg,
+    /// The local fit's bandwidth: a number of nearest sales (adaptive
+    /// bisquare) or a distance (fixed Gaussian; km for geographic places), or
+    /// `aicc` for the bandwidth of least AICc.
+    #[arg(long, value_name = "N|DISTANCE|aicc", default_value = "aicc")]
+    pub bandwidth: String,
+}
+
+/// The kernel of a local fit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum KernelArg {
+    /// Bisquare over the N nearest sales.
+    AdaptiveBisquare,
+    /// Gaussian over a fixed distance.
+    FixedGaussian,
 }
 
 /// How coordinate columns locate a place.

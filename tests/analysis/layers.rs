@@ -28,7 +28,7 @@ const LAYERS: &[&[&str]] = &[
     // Reading a fit: tests, intervals, distributions, the JSON summary.
     &["inference"],
     // Uses of a fit, side by side.
-    &["predict", "diagnose", "compare", "value", "accuracy"],
+    &["predict", "diagnose", "compare", "value", "accuracy", "local"],
     // Models by group: per-group fits, pooled models, equality tests, valuing by group.
     &["strata"],
     // Charts, and the documents we write (each read back through its type).

@@ -19,6 +19,7 @@ use crate::data::Frame;
 use crate::diagnose::SpatialOptions;
 use crate::error::Result;
 use crate::fit::Fit;
+use crate::local::LocalSummary;
 use crate::spatial::geodesy::MEAN_EARTH_RADIUS_KM;
 use crate::spatial::Coordinates;
 use crate::stats::median_of_sorted;
@@ -258,4 +259,89 @@ pub fn ratio_by_price(
         points.len()
     );
     Svg::finish(markup, "Ratio against price", &description)
+}
+
+/// The local-coefficient scale: a cool blue-green below the global
+/// estimate, a warm ochre above, pale stone at it; `t` in spreads of the
+/// local estimates, saturating at ±2.
+fn coefficient_colour(t: f64) -> RGBColor {
+    const STONE: (f64, f64, f64) = (0xee as f64, 0xec as f64, 0xe6 as f64);
+    const BELOW: (f64, f64, f64) = (0x2f as f64, 0x7f as f64, 0x86 as f64);
+    const ABOVE: (f64, f64, f64) = (0xc9 as f64, 0x8a as f64, 0x1e as f64);
+    let end = if t >= 0.0 { ABOVE } else { BELOW };
+    let s = (t.abs() / 2.0).min(1.0);
+    let mix = |a: f64, b: f64| (a + (b - a) * s).round() as u8;
+    RGBColor(mix(STONE.0, end.0), mix(STONE.1, end.1), mix(STONE.2, end.2))
+}
+
+/// Every sale of a local fit at its place, coloured by its local estimate of
+/// `term` against the global model's: ochre where the local coefficient is
+/// above the global one, blue-green where below, by up to two standard
+/// deviations of the local estimates. Geographic places are projected as on
+/// [`residual_map`], and the chart says so.
+pub fn local_coefficient_map(fit: &LocalSummary, term: &str, size: PlotSize) -> Result<Svg> {
+    let Some(p) = fit.terms.iter().position(|t| t == term) else {
+        return Err(crate::error::Error::Specification(format!(
+            "the local fit has no coefficient `{term}`; its terms are: {}",
+            fit.terms.join(", ")
+        )));
+    };
+    let mut xs: Vec<f64> = fit.rows.iter().map(|r| r.place.0).collect();
+    let mut ys: Vec<f64> = fit.rows.iter().map(|r| r.place.1).collect();
+    let values: Vec<f64> = fit.rows.iter().map(|r| r.coefficients[p]).collect();
+    let global = fit.spread[p].global;
+    let n = values.len().max(1) as f64;
+    let mean = values.iter().sum::<f64>() / n;
+    let sd = (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / n).sqrt().max(f64::MIN_POSITIVE);
+    let options = &fit.options;
+    let mut axis_names = (options.x_column.clone(), options.y_column.clone());
+    let mut projection_note = String::new();
+    if options.coordinates == Coordinates::Geographic {
+        let projection = LocalProjection::about(&xs, &ys);
+        for (x, y) in xs.iter_mut().zip(ys.iter_mut()) {
+            (*x, *y) = projection.project(*x, *y);
+        }
+        axis_names = (
+            format!("km east of {:.4}° (from {})", projection.lon0, options.x_column),
+            format!("km north of {:.4}° (from {})", projection.lat0, options.y_column),
+        );
+        projection_note = format!(
+            " Longitude and latitude drawn on an equirectangular projection about latitude {:.4}°.",
+            projection.lat0
+        );
+    }
+    let (x_range, y_range) = equal_scale(&xs, &ys, size);
+    let title = format!("Local {term} across the map");
+    let markup =
+        render(size, |area| {
+            let ticks = AxisTicks { y_grid: false, ..AxisTicks::default() };
+            let mut chart =
+                axes_with(area, &title, (x_range.clone(), y_range.clone()), (&axis_names.0, &axis_names.1), &ticks)?;
+            let radius = if xs.len() > 5000 { 1 } else { 3 };
+            chart
+                .draw_series((0..xs.len()).map(|i| {
+                    Circle::new((xs[i], ys[i]), radius, coefficient_colour((values[i] - global) / sd).filled())
+                }))
+                .map_err(plot_error)?;
+            let key_style = (FONT, 11).into_font().color(&INK);
+            let (width, height) = area.dim_in_pixel();
+            let (x0, y0) = (width as i32 - 230, height as i32 - 16);
+            for (k, t) in [-2.0, -1.0, 0.0, 1.0, 2.0].iter().enumerate() {
+                let left = x0 + 60 + k as i32 * 22;
+                area.draw(&Rectangle::new([(left, y0), (left + 20, y0 + 10)], coefficient_colour(*t).filled()))
+                    .map_err(plot_error)?;
+            }
+            area.draw(&Text::new("below global", (x0 - 12, y0), key_style.clone())).map_err(plot_error)?;
+            area.draw(&Text::new("above", (x0 + 60 + 5 * 22 + 4, y0), key_style)).map_err(plot_error)?;
+            Ok(())
+        })?;
+    let description = format!(
+        "{} sales at their places coloured by the local estimate of {term}: ochre above the global estimate {}, \
+         blue-green below, saturating at two standard deviations ({}) of the local estimates.{}",
+        xs.len(),
+        format_tick(global),
+        format_tick(sd),
+        projection_note
+    );
+    Svg::finish(markup, &title, &description)
 }

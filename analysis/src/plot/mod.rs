@@ -17,6 +17,7 @@
 //! | [`coefficient_by_group`] | one coefficient in each group's model with its interval, the pooled model's as a band |
 //! | [`histogram`] | histogram with a kernel density curve |
 //! | [`correlation_heatmap`] | correlation matrix of numeric columns |
+//! | [`local_coefficient_map`] | every sale of a local fit coloured by its local coefficient against the global one |
 //! | [`residual_map`] | every fitted sale at its place, coloured by its miss, location groups labelled |
 //! | [`ratio_by_price`] | ratios against the price proxy, median, PRB line and tier medians |
 //! | [`diagnostic_sheet`] | the review sheet: five of the panels above, laid out for a valuation review |
@@ -38,7 +39,7 @@ mod theme;
 pub use charts_distribution::{correlation_heatmap, histogram};
 pub use charts_fit::{coefficient_intervals, fit_line};
 pub use charts_groups::coefficient_by_group;
-pub use charts_place::{ratio_by_price, residual_map};
+pub use charts_place::{local_coefficient_map, ratio_by_price, residual_map};
 pub use charts_residual::MAX_GROUPS_SHOWN;
 pub use review::{ReviewOptions, DEFAULT_LABELLED};
 pub use sheet::{

@@ -15,6 +15,7 @@ mod fit_report;
 mod frame_report;
 pub mod html;
 mod live;
+mod local_report;
 mod numbers;
 mod prose;
 mod ratio_report;
@@ -39,6 +40,7 @@ pub use frame_report::{frame_html, frame_text, ProfileReport};
 pub use live::{
     clear_output, show, show_updatable, update, DisplayCommand, LiveProgress, KERNEL_DISPLAY_ENV, KERNEL_DISPLAY_MARKER,
 };
+pub use local_report::{local_html, local_text};
 pub use numbers::{format_column, format_p_value, format_significant, format_trimmed};
 pub use prose::VALUATION_CAUTION;
 pub use ratio_report::{ratio_html, ratio_text};
@@ -72,5 +74,7 @@ shown_in_cells!(
     LiveProgress,
     crate::drift::DriftReport,
     crate::strata::StratifiedFit,
+    crate::local::LocalFit,
+    crate::local::LocalSummary,
     crate::strata::StratifiedSummary,
 );

@@ -1,7 +1,9 @@
 //! `plumbline fit`: one model, one data file, a report on stdout.
 
 use super::CommandError;
-use crate::cli::{CoordinatesArg, CovarianceArg, FitArgs, Format, InputFlags, PrecisionArg, SourceFlags, SpatialFlags};
+use crate::cli::{
+    CoordinatesArg, CovarianceArg, FitArgs, Format, InputFlags, KernelArg, PrecisionArg, SourceFlags, SpatialFlags,
+};
 use plumbline::diagnose::SpatialOptions;
 use plumbline::documents::{to_pretty_json, FitDiagnostics, FitDocument, Versioned};
 use plumbline::prelude::*;
@@ -276,13 +278,13 @@ fn load_columns_with_flags(
 }
 
 /// The spatial check the flags ask for, if any.
-fn spatial_options(flags: &SpatialFlags) -> Result<Option<SpatialOptions>, CommandError> {
+fn spatial_options(flags: &SpatialFlags, local: bool) -> Result<Option<SpatialOptions>, CommandError> {
     let Some(columns) = &flags.spatial_check else {
         if flags.neighbours.is_some()
             || flags.band.is_some()
             || flags.binary_weights
             || flags.location_groups.is_some()
-            || flags.coordinates != CoordinatesArg::Planar
+            || (flags.coordinates != CoordinatesArg::Planar && !local)
         {
             return Err(CommandError::Usage(
                 "--neighbours, --band, --binary-weights, --location-groups and --coordinates shape the spatial check; add --spatial-check X,Y".into(),
@@ -316,6 +318,9 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
     if let Some(column) = &args.by {
         return run_by_group(args, column);
     }
+    if let Some(places) = &args.local {
+        return run_local(args, places);
+    }
     if let Some(batch_rows) = batch_rows(args) {
         return run_in_batches(args, batch_rows);
     }
@@ -331,7 +336,7 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
     } else {
         None
     };
-    let spatial = match spatial_options(&args.spatial)? {
+    let spatial = match spatial_options(&args.spatial, args.local.is_some())? {
         Some(options) => Some(model.spatial_check(&frame, &options)?),
         None => None,
     };
@@ -434,6 +439,52 @@ fn run_by_group(args: &FitArgs, column: &str) -> Result<String, CommandError> {
             &[plumbline::render::stratified_html(&summary)],
         ),
         Format::Json => to_pretty_json(&Versioned::new(summary), "stratified-fit document")?,
+    })
+}
+
+/// `plumbline fit --local X,Y`: geographically weighted regression, as text,
+/// HTML or the `plumbline.local-fit` document.
+fn run_local(args: &FitArgs, places: &str) -> Result<String, CommandError> {
+    use plumbline::local::{Bandwidth, BandwidthChoice, Kernel, LocalOptions};
+    let refused = [
+        (args.predict.is_some(), "--predict"),
+        (args.diagnose, "--diagnose"),
+        (args.influence, "--influence"),
+        (args.spatial.spatial_check.is_some(), "--spatial-check (the local fit reports Moran's I of both models)"),
+        (args.batch_rows.is_some() || args.data.is_dir(), "--batch-rows or a directory"),
+    ];
+    if let Some((_, flag)) = refused.iter().find(|(given, _)| *given) {
+        return Err(CommandError::Usage(format!("{flag} does not combine with --local")));
+    }
+    let (x, y) = split_pair(places, ',', "local", "X,Y such as `x,y` or `Longitude,Latitude`")?;
+    let mut options = LocalOptions::new(x, y);
+    if args.spatial.coordinates == CoordinatesArg::Geographic {
+        options = options.geographic();
+    }
+    options.kernel = match args.kernel {
+        KernelArg::AdaptiveBisquare => Kernel::AdaptiveBisquare,
+        KernelArg::FixedGaussian => Kernel::FixedGaussian,
+    };
+    options.bandwidth = match (args.bandwidth.trim(), options.kernel) {
+        ("aicc", _) => BandwidthChoice::LeastAicc,
+        (text, Kernel::AdaptiveBisquare) => {
+            BandwidthChoice::Given(Bandwidth::Neighbours(text.parse().map_err(|_| {
+                CommandError::Usage(format!(
+                    "--bandwidth for the adaptive kernel is a whole number of nearest sales (or `aicc`), got `{text}`"
+                ))
+            })?))
+        }
+        (text, Kernel::FixedGaussian) => BandwidthChoice::Given(Bandwidth::Distance(text.parse().map_err(|_| {
+            CommandError::Usage(format!("--bandwidth for the Gaussian kernel is a distance (or `aicc`), got `{text}`"))
+        })?)),
+    };
+    let spec = model_spec(args)?;
+    let frame = load_for_fit(args, &spec)?;
+    let fitted = plumbline::local::fit_local(&frame, &spec, &options)?;
+    Ok(match args.format {
+        Format::Text => plumbline::render::local_text(fitted.summary()),
+        Format::Html => plumbline::render::html::page("Local fit", &[plumbline::render::local_html(fitted.summary())]),
+        Format::Json => to_pretty_json(&Versioned::new(fitted.summary().clone()), "local-fit document")?,
     })
 }
 
