@@ -189,6 +189,14 @@ pub struct FitArgs {
     /// `aicc` for the bandwidth of least AICc.
     #[arg(long, value_name = "N|DISTANCE|aicc", default_value = "aicc")]
     pub bandwidth: String,
+    /// With --local: test whether each coefficient varies over space by
+    /// shuffling the sales' places this many times (e.g. 99; each shuffle
+    /// costs a local fit).
+    #[arg(long, value_name = "SHUFFLES")]
+    pub variation_test: Option<usize>,
+    /// Seed of the variation test's shuffles.
+    #[arg(long = "shuffle-seed", default_value_t = 20261205)]
+    pub shuffle_seed: u64,
 }
 
 /// The kernel of a local fit.

@@ -28,9 +28,10 @@ const LAYERS: &[&[&str]] = &[
     // Reading a fit: tests, intervals, distributions, the JSON summary.
     &["inference"],
     // Uses of a fit, side by side.
-    &["predict", "diagnose", "compare", "value", "accuracy", "local"],
-    // Models by group: per-group fits, pooled models, equality tests, valuing by group.
-    &["strata"],
+    &["predict", "diagnose", "compare", "value", "accuracy"],
+    // Models built from many fits: by group (per-group fits, pooled models, equality
+    // tests, valuing by group) and over the map (local fits).
+    &["strata", "local"],
     // Charts, and the documents we write (each read back through its type).
     &["plot", "documents"],
     // What moved between two runs, read from their documents.

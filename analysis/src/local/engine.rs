@@ -142,6 +142,31 @@ pub(crate) struct LocalRegression {
     pub weights: Vec<(usize, f64)>,
 }
 
+/// The local model's estimate at place `(x, y)` for design row `row`, and
+/// `rowᵀ A⁻¹ B A⁻¹ row` (its variance per unit σ², `B = Σ_j w_j² x_j x_jᵀ`);
+/// `None` when the local design is singular.
+pub(crate) fn estimate_at(
+    data: &LocalData,
+    x: f64,
+    y: f64,
+    row: &[f64],
+    kernel: Kernel,
+    bandwidth: Bandwidth,
+) -> Option<(f64, f64)> {
+    let LocalRegression { coefficients, inverse, weights } = regress_at(data, x, y, kernel, bandwidth)?;
+    let k = coefficients.len();
+    let v: Vec<f64> = (0..k).map(|p| (0..k).map(|q| inverse[(p, q)] * row[q]).sum()).collect();
+    // rowᵀ A⁻¹ B A⁻¹ row = Σ_j w_j² (x_jᵀ v)².
+    let variance = weights
+        .iter()
+        .map(|&(j, w)| {
+            let s: f64 = (0..k).map(|p| data.rows[j][p] * v[p]).sum();
+            w * w * s * s
+        })
+        .sum();
+    Some(((0..k).map(|p| row[p] * coefficients[p]).sum(), variance))
+}
+
 /// Everything at sale `i` (see the module docs); `None` when its local design is singular.
 fn at_sale(data: &LocalData, i: usize, kernel: Kernel, bandwidth: Bandwidth, full: bool) -> Option<PointResult> {
     let (x, y) = data.places.place(i);

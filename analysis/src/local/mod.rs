@@ -14,7 +14,9 @@
 //!   `tr(S)`, the residual degrees of freedom `n − 2 tr(S) + tr(SᵀS)`, `σ̂`,
 //!   AICc, the residual sum of squares, and the global model beside it (its
 //!   AICc by the same formula, and Moran's I of both models' residuals);
-//! * [`LocalFit::value_at`] values new places with the local model at each.
+//! * [`LocalFit::predict`] values new places with the local model at each,
+//!   with intervals; [`LocalFit::variation_test`] asks, by shuffling the
+//!   places, whether each coefficient really varies over space.
 //!
 //! The arithmetic is in [`engine`]; memory is `O(n·k)` (no `n × n` matrix is
 //! ever formed). Case weights are not supported and are refused.
@@ -28,7 +30,8 @@ pub use kernel::{Bandwidth, Kernel};
 use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{fit, Fit};
-use crate::model::{build_design, ModelSpec};
+use crate::model::{build_design, ModelSpec, TargetTransform};
+use crate::predict::{Prediction, Predictions};
 use crate::spatial::geodesy::refuse_degrees_as_planar;
 use crate::spatial::{
     moran_test, Coordinates, MoranAssumption, MoranTest, Neighbourhood, PlaceIndex, SpatialWeights, WeightStyle,
@@ -191,6 +194,9 @@ pub struct LocalSummary {
     pub global: GlobalComparison,
     /// Each coefficient's spread over the sales.
     pub spread: Vec<CoefficientSpread>,
+    /// The Monte Carlo test of each coefficient's variation over space, when asked for.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub variation: Vec<VariationTest>,
     /// Every sale's local model, in row order.
     pub rows: Vec<LocalRow>,
     /// Provenance of the data.
@@ -312,6 +318,7 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
             rss: global_stats.ss_residual,
             moran: moran_test(&global.solution().residuals, &neighbours, MoranAssumption::Randomisation)?,
         },
+        variation: Vec::new(),
         rows: local_rows,
         data: frame.provenance().clone(),
     };
@@ -344,6 +351,12 @@ impl LocalFit {
         &self.summary
     }
 
+    /// Runs [`LocalFit::variation_test`] and keeps its result in the summary.
+    pub fn with_variation_test(mut self, permutations: usize, seed: u64) -> Result<Self> {
+        self.summary.variation = self.variation_test(permutations, seed)?;
+        Ok(self)
+    }
+
     /// The global model fitted to the same sales.
     pub fn global(&self) -> &Fit {
         &self.global
@@ -354,26 +367,156 @@ impl LocalFit {
         &self.spec
     }
 
-    /// The local model's estimate at each row of `frame` (its terms and
-    /// place), on the model scale: the local regression at that place with
-    /// the fit's kernel and bandwidth. `None` for a row missing a value; an
-    /// error for a place whose local design is singular.
-    pub fn value_at(&self, frame: &Frame) -> Result<Vec<Option<f64>>> {
-        let applied = self.global.design().recipe.apply(frame)?;
+    /// Predicts every row of `frame` that has its terms and place, each by
+    /// the local regression at its own place (the fit's kernel and
+    /// bandwidth), with intervals at `level`: `se = σ̂ √(x₀ᵀ C C ᵀ x₀)` for
+    /// the local mean, `σ̂ √(1 + x₀ᵀ C Cᵀ x₀)` for one sale (Fotheringham et
+    /// al. 2002, §2.8), `t` on the fit's residual degrees of freedom; for a
+    /// logged target the median `exp(ŷ)` and Duan's smearing mean over the
+    /// local residuals. A place whose local design is singular is an error.
+    pub fn predict(&self, frame: &Frame, level: f64) -> Result<Predictions> {
+        crate::stats::check_level(level)?;
+        let recipe = &self.global.design().recipe;
+        let applied = recipe.apply(frame)?;
         let options = &self.summary.options;
         let (xs, ys) = (frame.numeric_column(&options.x_column)?, frame.numeric_column(&options.y_column)?);
         let data = LocalData { rows: &self.design_rows, target: &self.target, places: &self.places };
-        let mut out = vec![None; frame.height()];
+        let crit = crate::stats::t_critical(level, self.summary.residual_df);
+        let sigma = self.summary.sigma;
+        let smearing = (self.spec.target_transform() == TargetTransform::Log)
+            .then(|| self.summary.rows.iter().map(|r| r.residual.exp()).sum::<f64>() / self.summary.rows.len() as f64);
+        let mut rows = Vec::with_capacity(applied.rows.len());
+        let mut skipped = Vec::new();
         for (position, &row) in applied.rows.iter().enumerate() {
-            let (Some(x), Some(y)) = (xs[row], ys[row]) else { continue };
+            let (Some(x), Some(y)) = (xs[row], ys[row]) else {
+                skipped.push(row + 1);
+                continue;
+            };
             if options.coordinates == Coordinates::Geographic {
                 crate::spatial::geodesy::check_lon_lat(x, y, &|| format!("the place on data row {}", row + 1))?;
             }
-            let beta = engine::regress_at(&data, x, y, options.kernel, self.summary.bandwidth)
-                .ok_or_else(|| engine::singular_at(row, self.summary.bandwidth))?
-                .coefficients;
-            out[row] = Some(applied.columns.iter().zip(&beta).map(|(c, b)| c.hi[position] * b).sum());
+            let design_row: Vec<f64> = applied.columns.iter().map(|c| c.hi[position]).collect();
+            let (estimate, unscaled) =
+                engine::estimate_at(&data, x, y, &design_row, options.kernel, self.summary.bandwidth)
+                    .ok_or_else(|| engine::singular_at(row, self.summary.bandwidth))?;
+            let se_fit = sigma * unscaled.max(0.0).sqrt();
+            let (half_ci, half_pi) = (crit * se_fit, crit * sigma * (1.0 + unscaled.max(0.0)).sqrt());
+            let outside_range = recipe
+                .numeric_ranges
+                .iter()
+                .filter(|(c, lo, hi)| {
+                    applied.numbers.get(c).is_some_and(|values| values[position] < *lo || values[position] > *hi)
+                })
+                .map(|(c, _, _)| c.clone())
+                .collect();
+            rows.push(Prediction {
+                row: row + 1,
+                estimate,
+                se_fit,
+                ci_low: estimate - half_ci,
+                ci_high: estimate + half_ci,
+                pi_low: estimate - half_pi,
+                pi_high: estimate + half_pi,
+                median_original: smearing.map(|_| estimate.exp()),
+                mean_original: smearing.map(|s| estimate.exp() * s),
+                outside_range,
+            });
         }
-        Ok(out)
+        let used: std::collections::BTreeSet<usize> = applied.rows.iter().copied().collect();
+        skipped.extend((0..frame.height()).filter(|r| !used.contains(r)).map(|r| r + 1));
+        skipped.sort_unstable();
+        Ok(Predictions { level, rows, skipped_rows: skipped })
     }
+
+    /// The Monte Carlo test of whether each coefficient varies over space
+    /// (Fotheringham et al. 2002, §4.5; after Hope 1968): the variance of
+    /// its local estimates over the sales, against the same variance with
+    /// the sales' places shuffled among them `permutations` times (the same
+    /// kernel and bandwidth; shuffles seeded by `seed`, so reruns agree).
+    /// The p-value is `(1 + #{shuffled ≥ observed}) / (1 + permutations)`.
+    /// Each shuffle costs a local fit.
+    pub fn variation_test(&self, permutations: usize, seed: u64) -> Result<Vec<VariationTest>> {
+        if permutations == 0 {
+            return Err(Error::OutOfRange {
+                what: "the number of shuffles".into(),
+                requirement: "at least 1 (99 or 999 usual)".into(),
+                value: "0".into(),
+            });
+        }
+        let k = self.summary.terms.len();
+        let observed = variances(&self.summary.rows.iter().map(|r| r.coefficients.clone()).collect::<Vec<_>>(), k);
+        let mut at_least = vec![0usize; k];
+        let n = self.target.len();
+        let options = &self.summary.options;
+        for shuffle in 0..permutations {
+            let order = shuffled(n, seed, shuffle as u64);
+            let (xs, ys): (Vec<f64>, Vec<f64>) = order.iter().map(|&i| self.places.place(i)).unzip();
+            let places = PlaceIndex::new(options.coordinates, &xs, &ys)?;
+            let data = LocalData { rows: &self.design_rows, target: &self.target, places: &places };
+            let points = require_all(
+                at_every_sale(&data, options.kernel, self.summary.bandwidth, false),
+                self.summary.bandwidth,
+            )?;
+            let shuffled_variances = variances(&points.iter().map(|p| p.coefficients.clone()).collect::<Vec<_>>(), k);
+            for p in 0..k {
+                if shuffled_variances[p] >= observed[p] {
+                    at_least[p] += 1;
+                }
+            }
+        }
+        Ok(self
+            .summary
+            .terms
+            .iter()
+            .enumerate()
+            .map(|(p, term)| VariationTest {
+                term: term.clone(),
+                variance: observed[p],
+                p_value: (1 + at_least[p]) as f64 / (1 + permutations) as f64,
+                permutations,
+            })
+            .collect())
+    }
+}
+
+/// Whether one coefficient varies over space (see [`LocalFit::variation_test`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+pub struct VariationTest {
+    /// The term.
+    pub term: String,
+    /// Variance of its local estimates over the sales.
+    pub variance: f64,
+    /// Monte Carlo p-value against shuffled places.
+    pub p_value: f64,
+    /// Shuffles made.
+    pub permutations: usize,
+}
+
+/// The variance (over rows, divisor n) of each of `k` coefficients.
+fn variances(rows: &[Vec<f64>], k: usize) -> Vec<f64> {
+    let n = rows.len().max(1) as f64;
+    (0..k)
+        .map(|p| {
+            let mean = rows.iter().map(|r| r[p]).sum::<f64>() / n;
+            rows.iter().map(|r| (r[p] - mean).powi(2)).sum::<f64>() / n
+        })
+        .collect()
+}
+
+/// A permutation of `0..n`, the `shuffle`-th for `seed`: indices ordered by
+/// the SHA-256 of (seed, shuffle, index) — deterministic on every machine.
+fn shuffled(n: usize, seed: u64, shuffle: u64) -> Vec<usize> {
+    use sha2::{Digest, Sha256};
+    let mut keyed: Vec<([u8; 32], usize)> = (0..n)
+        .map(|i| {
+            let mut hasher = Sha256::new();
+            hasher.update(seed.to_le_bytes());
+            hasher.update(shuffle.to_le_bytes());
+            hasher.update((i as u64).to_le_bytes());
+            (hasher.finalize().into(), i)
+        })
+        .collect();
+    keyed.sort_unstable();
+    keyed.into_iter().map(|(_, i)| i).collect()
 }

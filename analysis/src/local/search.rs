@@ -8,9 +8,10 @@
 //! median distance to a sale's `k + 2`-th nearest neighbour to twice the
 //! widest distance between sales — so that a curve with more than one dip
 //! is not followed into the wrong one; then a golden-section search (Kiefer
-//! 1953) narrows the bracket around the grid's least value: to one sale for
-//! adaptive bandwidths (the last few counts are all evaluated), to a relative
-//! width of 10⁻⁴ for fixed ones. A bandwidth whose local designs are
+//! 1953) narrows the bracket around the grid's least value: for adaptive
+//! bandwidths to [`EXHAUSTIVE_WIDTH`] counts, every one of which is then
+//! evaluated (the curve is jagged near its floor); for fixed ones to a
+//! relative width of 10⁻⁴. A bandwidth whose local designs are
 //! singular somewhere counts as infinitely bad.
 
 use super::engine::{aicc, at_every_sale, totals, LocalData};
@@ -20,6 +21,11 @@ use std::collections::BTreeMap;
 
 /// Points of the first, coarse grid.
 const GRID_POINTS: usize = 16;
+/// Adaptive bandwidths: once the bracket holds at most this many counts,
+/// every count in it is evaluated — the AICc curve is jagged on the scale of
+/// a few sales near its floor, where golden section alone can settle on a
+/// neighbouring dip.
+const EXHAUSTIVE_WIDTH: usize = 64;
 /// The golden ratio's conjugate, `(√5 − 1)/2`.
 const GOLDEN: f64 = 0.618_033_988_749_894_8;
 
@@ -91,7 +97,7 @@ pub(crate) fn least_aicc(data: &LocalData, kernel: Kernel, k: usize) -> Result<(
             let values: Vec<f64> = grid.iter().map(|&c| eval(c, &mut tried)).collect();
             let m = argmin(&values);
             let (mut a, mut b) = (grid[m.saturating_sub(1)], grid[(m + 1).min(grid.len() - 1)]);
-            while b - a > 3 {
+            while b - a > EXHAUSTIVE_WIDTH {
                 let c = b - ((b - a) as f64 * GOLDEN).round() as usize;
                 let d = a + ((b - a) as f64 * GOLDEN).round() as usize;
                 // Two distinct inner points, so that the bracket always keeps the better one's side.

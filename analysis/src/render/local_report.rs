@@ -12,7 +12,8 @@ use crate::local::{BandwidthChoice, LocalFit, LocalSummary};
 use crate::plot::{local_coefficient_map, PlotSize};
 
 const SOURCE: &str = "Geographically weighted regression: Fotheringham, Brunsdon & Charlton (2002), ch. 2; \
-     AICc eq. 2.33; standard errors from C·Cᵀ·σ̂² with σ̂² = RSS/(n − 2 tr S + tr SᵀS).";
+     AICc eq. 2.33; standard errors from C·Cᵀ·σ̂² with σ̂² = RSS/(n − 2 tr S + tr SᵀS); variation over space by \
+     shuffling the places (§4.5).";
 
 fn bandwidth_line(fit: &LocalSummary) -> String {
     let how = match fit.options.bandwidth {
@@ -76,6 +77,20 @@ pub fn local_text(fit: &LocalSummary) -> String {
             100.0 * s.share_distinct_from_zero
         ));
     }
+    if !fit.variation.is_empty() {
+        out.push_str(&format!(
+            "\nDoes each coefficient vary over space? (places shuffled {} times)\n",
+            fit.variation[0].permutations
+        ));
+        for t in &fit.variation {
+            out.push_str(&format!(
+                "  {:<width$} variance of local estimates {:>11}   p = {}\n",
+                t.term,
+                format_significant(t.variance, 4),
+                format_p_value(Some(t.p_value))
+            ));
+        }
+    }
     out.push_str(&format!("\n  {SOURCE}\n\n{VALUATION_CAUTION}\n"));
     out
 }
@@ -109,6 +124,18 @@ pub fn local_html(fit: &LocalSummary) -> String {
         &[false, true, true, true, true, true, true, true],
         &spread,
     );
+    if !fit.variation.is_empty() {
+        let rows: Vec<Vec<String>> = fit
+            .variation
+            .iter()
+            .map(|t| vec![escape(&t.term), format_significant(t.variance, 4), format_p_value(Some(t.p_value))])
+            .collect();
+        out.push_str(&format!(
+            "<div style=\"margin-top:8px\"><b>Does each coefficient vary over space?</b> <span style=\"{SUBTLE}\">places shuffled {} times</span></div>\n",
+            fit.variation[0].permutations
+        ));
+        table(&mut out, &["term", "variance of local estimates", "p-value"], &[false, true, true], &rows);
+    }
     if let Some(term) = fit.terms.iter().find(|t| t.as_str() != crate::model::design::INTERCEPT_NAME) {
         if let Ok(svg) = local_coefficient_map(fit, term, PlotSize::default()) {
             out.push_str(&format!("<div style=\"margin-top:8px\">{}</div>\n", svg.markup));

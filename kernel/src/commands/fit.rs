@@ -321,6 +321,9 @@ pub fn run(args: &FitArgs) -> Result<String, CommandError> {
     if let Some(places) = &args.local {
         return run_local(args, places);
     }
+    if args.variation_test.is_some() {
+        return Err(CommandError::Usage("--variation-test applies to a local fit; add --local X,Y".into()));
+    }
     if let Some(batch_rows) = batch_rows(args) {
         return run_in_batches(args, batch_rows);
     }
@@ -445,6 +448,30 @@ fn run_by_group(args: &FitArgs, column: &str) -> Result<String, CommandError> {
 /// `plumbline fit --local X,Y`: geographically weighted regression, as text,
 /// HTML or the `plumbline.local-fit` document.
 fn run_local(args: &FitArgs, places: &str) -> Result<String, CommandError> {
+    let fitted = fit_local_with_flags(args, local_options(args, places)?)?;
+    Ok(match args.format {
+        Format::Text => plumbline::render::local_text(fitted.summary()),
+        Format::Html => plumbline::render::html::page("Local fit", &[plumbline::render::local_html(fitted.summary())]),
+        Format::Json => to_pretty_json(&Versioned::new(fitted.summary().clone()), "local-fit document")?,
+    })
+}
+
+/// The local fit the flags describe (with its variation test when asked).
+pub fn fit_local_with_flags(
+    args: &FitArgs,
+    options: plumbline::local::LocalOptions,
+) -> Result<plumbline::local::LocalFit, CommandError> {
+    let spec = model_spec(args)?;
+    let frame = load_for_fit(args, &spec)?;
+    let fitted = plumbline::local::fit_local(&frame, &spec, &options)?;
+    Ok(match args.variation_test {
+        Some(shuffles) => fitted.with_variation_test(shuffles, args.shuffle_seed)?,
+        None => fitted,
+    })
+}
+
+/// The local-fit options the flags describe (`--local X,Y` and its flags).
+pub fn local_options(args: &FitArgs, places: &str) -> Result<plumbline::local::LocalOptions, CommandError> {
     use plumbline::local::{Bandwidth, BandwidthChoice, Kernel, LocalOptions};
     let refused = [
         (args.predict.is_some(), "--predict"),
@@ -452,6 +479,7 @@ fn run_local(args: &FitArgs, places: &str) -> Result<String, CommandError> {
         (args.influence, "--influence"),
         (args.spatial.spatial_check.is_some(), "--spatial-check (the local fit reports Moran's I of both models)"),
         (args.batch_rows.is_some() || args.data.is_dir(), "--batch-rows or a directory"),
+        (args.by.is_some(), "--by"),
     ];
     if let Some((_, flag)) = refused.iter().find(|(given, _)| *given) {
         return Err(CommandError::Usage(format!("{flag} does not combine with --local")));
@@ -478,14 +506,7 @@ fn run_local(args: &FitArgs, places: &str) -> Result<String, CommandError> {
             CommandError::Usage(format!("--bandwidth for the Gaussian kernel is a distance (or `aicc`), got `{text}`"))
         })?)),
     };
-    let spec = model_spec(args)?;
-    let frame = load_for_fit(args, &spec)?;
-    let fitted = plumbline::local::fit_local(&frame, &spec, &options)?;
-    Ok(match args.format {
-        Format::Text => plumbline::render::local_text(fitted.summary()),
-        Format::Html => plumbline::render::html::page("Local fit", &[plumbline::render::local_html(fitted.summary())]),
-        Format::Json => to_pretty_json(&Versioned::new(fitted.summary().clone()), "local-fit document")?,
-    })
+    Ok(options)
 }
 
 /// Rows per batch when a directory is fitted without `--batch-rows`: about

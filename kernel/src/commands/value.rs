@@ -7,7 +7,9 @@
 //! every parcel was valued: a failure leaves no half-written file. Progress
 //! goes to standard error, one line per batch.
 
-use super::fit::{batch_rows, fit_by_group, fit_options, load_for_fit, model_spec};
+use super::fit::{
+    batch_rows, fit_by_group, fit_local_with_flags, fit_options, load_for_fit, local_options, model_spec,
+};
 use super::CommandError;
 use crate::cli::ValueArgs;
 use plumbline::data::RowBatches;
@@ -24,6 +26,7 @@ enum Model {
     InMemory(Box<Fit>),
     Assembled(Box<AssembledFit>),
     ByGroup(Box<StratifiedFit>),
+    Local(Box<plumbline::local::LocalFit>),
 }
 
 /// One batch valued: each row's prediction or why it has none, and with
@@ -51,6 +54,7 @@ impl Model {
         Ok(match self {
             Model::InMemory(fit) => single(fit.predict(frame, level)?),
             Model::Assembled(fit) => single(fit.predict(frame, level)?),
+            Model::Local(fit) => single(fit.predict(frame, level)?),
             Model::ByGroup(set) => {
                 let valued = set.predict(frame, level)?;
                 let mut values = BatchValues {
@@ -73,14 +77,28 @@ impl Model {
             Model::InMemory(fit) => fit.spec(),
             Model::Assembled(fit) => &fit.recipe.spec,
             Model::ByGroup(set) => set.spec(),
+            Model::Local(fit) => fit.spec(),
         }
     }
 
-    /// The columns a parcel file must hold besides the terms'.
+    /// The grouping column, when each parcel is valued by its group's model.
     fn group_column(&self) -> Option<&str> {
         match self {
             Model::ByGroup(set) => Some(set.column()),
             _ => None,
+        }
+    }
+
+    /// The columns a parcel file must hold besides the terms' (a local
+    /// model's place columns, a grouping column).
+    fn extra_columns(&self) -> (Vec<String>, Vec<String>) {
+        match self {
+            Model::ByGroup(set) => (Vec::new(), vec![set.column().to_string()]),
+            Model::Local(fit) => {
+                let options = &fit.summary().options;
+                (vec![options.x_column.clone(), options.y_column.clone()], Vec::new())
+            }
+            _ => (Vec::new(), Vec::new()),
         }
     }
 }
@@ -91,6 +109,10 @@ pub fn run(args: &ValueArgs) -> Result<String, CommandError> {
     let spec = model_spec(&args.fit)?;
     let options = fit_options(&args.fit);
     let model = match (&args.fit.by, batch_rows(&args.fit)) {
+        _ if args.fit.local.is_some() => {
+            let places = args.fit.local.as_deref().unwrap_or_default();
+            Model::Local(Box::new(fit_local_with_flags(&args.fit, local_options(&args.fit, places)?)?))
+        }
         (Some(column), _) => Model::ByGroup(Box::new(fit_by_group(&args.fit, column)?)),
         (None, Some(rows)) => {
             let rule = args.fit.input.non_finite.parse().map_err(CommandError::Usage)?;
@@ -101,15 +123,21 @@ pub fn run(args: &ValueArgs) -> Result<String, CommandError> {
             Model::InMemory(Box::new(fit_with(&frame, &spec, &options)?))
         }
     };
-    let (numbers, mut labels) = term_columns_read(model.spec());
+    let (mut numbers, mut labels) = term_columns_read(model.spec());
     if let Some(id) = &args.fit.id {
         if !labels.contains(id) && !numbers.contains(id) {
             labels.push(id.clone());
         }
     }
-    if let Some(column) = model.group_column() {
-        if !labels.iter().any(|c| c == column) {
-            labels.push(column.to_string());
+    let (extra_numbers, extra_labels) = model.extra_columns();
+    for column in extra_numbers {
+        if !numbers.contains(&column) {
+            numbers.push(column);
+        }
+    }
+    for column in extra_labels {
+        if !labels.contains(&column) {
+            labels.push(column);
         }
     }
     let parcels = RowBatches::open(&args.parcels, &numbers, &labels, args.parcel_batch_rows)?;
