@@ -197,7 +197,8 @@ pub struct LocalSummary {
     /// The Monte Carlo test of each coefficient's variation over space, when asked for.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub variation: Vec<VariationTest>,
-    /// Every sale's local model, in row order.
+    /// Every sale's local model, in row order (empty in a notebook's bundle,
+    /// which would otherwise carry megabytes; the command line writes them).
     pub rows: Vec<LocalRow>,
     /// Provenance of the data.
     pub data: crate::data::Provenance,

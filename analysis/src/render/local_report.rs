@@ -147,10 +147,14 @@ pub fn local_html(fit: &LocalSummary) -> String {
     out
 }
 
+/// In a notebook the document leaves out the sales' rows (`rows` empty): a
+/// town's local coefficients would weigh megabytes in every saved notebook.
+/// The command line's JSON and [`LocalFit::summary`] keep them.
 impl Report for LocalSummary {
     fn bundle(&self) -> MimeBundle {
         let bundle = MimeBundle::text_and_html(local_text(self), local_html(self));
-        match document_json(self) {
+        let without_rows = LocalSummary { rows: Vec::new(), ..self.clone() };
+        match document_json(&without_rows) {
             Ok(json) => bundle.with(<LocalSummary as DocumentKind>::MIME, json),
             Err(_) => bundle,
         }
