@@ -7,14 +7,16 @@
 //! adaptive: from `k + 2` nearest sales to all `n`; fixed: from half the
 //! median distance to a sale's `k + 2`-th nearest neighbour to twice the
 //! widest distance between sales — so that a curve with more than one dip
-//! is not followed into the wrong one; then a golden-section search (Kiefer
-//! 1953) narrows the bracket around the grid's least value: for adaptive
-//! bandwidths to [`EXHAUSTIVE_WIDTH`] counts, every one of which is then
-//! evaluated (the curve is jagged near its floor); for fixed ones to a
-//! relative width of 10⁻⁴. A bandwidth whose local designs are
+//! is not followed into the wrong one. Adaptive bandwidths: finer grids of
+//! 16 counts inside the bracket around the least value (each grid scored in
+//! one pass over the sales, [`super::engine::adaptive_aicc`]) until it holds
+//! at most [`EXHAUSTIVE_WIDTH`] counts, every one of which is then scored
+//! (the curve is jagged near its floor). Fixed bandwidths: a golden-section
+//! search (Kiefer 1953) in the logarithm of the distance to a relative width
+//! of 10⁻⁴. A bandwidth whose local designs are
 //! singular somewhere counts as infinitely bad.
 
-use super::engine::{aicc, at_every_sale, totals, LocalData};
+use super::engine::{adaptive_aicc, aicc, at_every_sale, totals, LocalData};
 use super::kernel::{Bandwidth, Kernel};
 use crate::error::{Error, Result};
 use std::collections::BTreeMap;
@@ -79,12 +81,16 @@ pub(crate) fn least_aicc(data: &LocalData, kernel: Kernel, k: usize) -> Result<(
                 return Err(Error::TooFewRows { rows: n, columns: k + 2 });
             }
             let mut seen: BTreeMap<usize, f64> = BTreeMap::new();
-            let mut eval = |count: usize, tried: &mut Vec<(Bandwidth, f64)>| -> f64 {
-                *seen.entry(count).or_insert_with(|| {
-                    let value = score(data, kernel, Bandwidth::Neighbours(count));
-                    tried.push((Bandwidth::Neighbours(count), value));
-                    value
-                })
+            // Scores the counts not yet seen, all in one pass.
+            let mut batch = |counts: &[usize], tried: &mut Vec<(Bandwidth, f64)>| {
+                let mut fresh: Vec<usize> = counts.iter().copied().filter(|c| !seen.contains_key(c)).collect();
+                fresh.sort_unstable();
+                fresh.dedup();
+                for (count, value) in fresh.iter().zip(adaptive_aicc(data, &fresh)) {
+                    seen.insert(*count, value);
+                    tried.push((Bandwidth::Neighbours(*count), value));
+                }
+                counts.iter().map(|c| seen[c]).collect::<Vec<f64>>()
             };
             let mut grid: Vec<usize> = (0..GRID_POINTS)
                 .map(|g| {
@@ -94,23 +100,21 @@ pub(crate) fn least_aicc(data: &LocalData, kernel: Kernel, k: usize) -> Result<(
                 .map(|c| c.clamp(lo, hi))
                 .collect();
             grid.dedup();
-            let values: Vec<f64> = grid.iter().map(|&c| eval(c, &mut tried)).collect();
+            let values = batch(&grid, &mut tried);
             let m = argmin(&values);
             let (mut a, mut b) = (grid[m.saturating_sub(1)], grid[(m + 1).min(grid.len() - 1)]);
+            // Finer grids inside the bracket, each scored in one pass over
+            // the sales (a pass costs about the same for 2 counts as for 16).
             while b - a > EXHAUSTIVE_WIDTH {
-                let c = b - ((b - a) as f64 * GOLDEN).round() as usize;
-                let d = a + ((b - a) as f64 * GOLDEN).round() as usize;
-                // Two distinct inner points, so that the bracket always keeps the better one's side.
-                let (c, d) = (c.min(d), c.max(d).max(c.min(d) + 1));
-                if eval(c, &mut tried) <= eval(d, &mut tried) {
-                    b = d;
-                } else {
-                    a = c;
-                }
+                let mut inner: Vec<usize> = (0..GRID_POINTS)
+                    .map(|g| a + ((b - a) as f64 * g as f64 / (GRID_POINTS - 1) as f64).round() as usize)
+                    .collect();
+                inner.dedup();
+                let values = batch(&inner, &mut tried);
+                let m = argmin(&values);
+                (a, b) = (inner[m.saturating_sub(1)], inner[(m + 1).min(inner.len() - 1)]);
             }
-            for count in a..=b {
-                eval(count, &mut tried);
-            }
+            batch(&(a..=b).collect::<Vec<_>>(), &mut tried);
             // The least over everything evaluated (the grid's dips included);
             // the smaller count on a tie.
             let (&count, _) = seen

@@ -101,8 +101,17 @@ impl PlaceIndex {
     /// first (ties by index), leaving out the place `skip` (a place's own
     /// index, when its neighbours are sought).
     pub fn nearest(&self, x: f64, y: f64, k: usize, skip: Option<usize>) -> Vec<(f64, usize)> {
-        let mut found: Vec<(f64, usize)> = Vec::with_capacity(k + 8);
         let order = |a: &(f64, usize), b: &(f64, usize)| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1));
+        if k.saturating_mul(4) > self.len() {
+            // A large share of all places: measuring every one and sorting
+            // is cheaper than walking the tree that far.
+            let mut all: Vec<(f64, usize)> =
+                (0..self.len()).filter(|&j| Some(j) != skip).map(|j| (self.distance(x, y, j), j)).collect();
+            all.sort_unstable_by(order);
+            all.truncate(k);
+            return all;
+        }
+        let mut found: Vec<(f64, usize)> = Vec::with_capacity(k + 8);
         match &self.tree {
             Tree::Plane(tree) => {
                 // Walk outwards until the k-th distance is passed, so that
