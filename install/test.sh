@@ -22,6 +22,8 @@ require_chromium
 step "checking formatting and lints (cargo fmt --check, clippy -D warnings)"
 cargo fmt --all --check
 cargo clippy --workspace --all-targets --locked -- -D warnings
+step "building the API documentation with warnings denied (cargo doc --no-deps)"
+RUSTDOCFLAGS="-D warnings" cargo doc --no-deps --workspace --lib --locked
 
 step "building the workspace"
 cargo build --workspace --all-targets --locked

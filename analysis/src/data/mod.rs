@@ -16,7 +16,7 @@
 //! * [`NonFinite`] — what a frame does with NaN and infinite values where they
 //!   are used (refuse, by default, or treat as missing); [`dates`] — calendar
 //!   dates and the sale-date arithmetic of date terms.
-//! * [`profile`] — a per-column summary (type, missing, min/median/max, levels).
+//! * [`profile()`] — a per-column summary (type, missing, min/median/max, levels).
 //! * [`Screen`] — rows kept by a stated rule, with a record of the rows set aside.
 //! * [`RowBatches`] — a CSV or Parquet file, or a directory of them, read in
 //!   bounded batches for fits of data larger than memory.

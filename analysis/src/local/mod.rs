@@ -18,7 +18,7 @@
 //!   with intervals; [`LocalFit::variation_test`] asks, by shuffling the
 //!   places, whether each coefficient really varies over space.
 //!
-//! The arithmetic is in [`engine`]; memory is `O(n·k)` (no `n × n` matrix is
+//! The arithmetic is in `engine.rs`; memory is `O(n·k)` (no `n × n` matrix is
 //! ever formed). Case weights are not supported and are refused.
 
 mod engine;

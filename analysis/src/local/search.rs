@@ -9,8 +9,8 @@
 //! widest distance between sales — so that a curve with more than one dip
 //! is not followed into the wrong one. Adaptive bandwidths: finer grids of
 //! 16 counts inside the bracket around the least value (each grid scored in
-//! one pass over the sales, [`super::engine::adaptive_aicc`]) until it holds
-//! at most [`EXHAUSTIVE_WIDTH`] counts, every one of which is then scored
+//! one pass over the sales, `engine::adaptive_aicc`) until it holds at most
+//! `EXHAUSTIVE_WIDTH` counts, every one of which is then scored
 //! (the curve is jagged near its floor). Fixed bandwidths: a golden-section
 //! search (Kiefer 1953) in the logarithm of the distance to a relative width
 //! of 10⁻⁴. A bandwidth whose local designs are

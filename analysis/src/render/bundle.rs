@@ -10,7 +10,7 @@
 //! `Debug` — twice the build time for every cell that ends in a number, a
 //! string or a vector. So every value has that method, found by Rust's
 //! method lookup in this order:
-//! 1. our results: an inherent `evcxr_display` (written by [`shown_in_cells!`]
+//! 1. our results: an inherent `evcxr_display` (written by [`shown_in_cells!`](crate::shown_in_cells)
 //!    for each [`Report`] type), which writes the whole bundle; inherent
 //!    methods win over trait methods, so there is no ambiguity;
 //! 2. every other value with `Debug`: the one blanket trait [`CellValue`],
@@ -56,7 +56,7 @@ impl MimeBundle {
 /// Anything that can show itself in a notebook, a terminal or a report.
 ///
 /// A type implementing it also gets its notebook display from
-/// [`shown_in_cells!`] (the supertrait [`ShownInCells`] makes forgetting
+/// [`shown_in_cells!`](crate::shown_in_cells) (the supertrait [`ShownInCells`] makes forgetting
 /// that a compile error): `shown_in_cells!(MyResult);`.
 pub trait Report: ShownInCells {
     /// Every rendering of the value.
@@ -64,7 +64,7 @@ pub trait Report: ShownInCells {
 }
 
 /// Marks a type that has the inherent `evcxr_display` written by
-/// [`shown_in_cells!`]; implement it only through that macro.
+/// [`shown_in_cells!`](crate::shown_in_cells); implement it only through that macro.
 pub trait ShownInCells {}
 
 /// Gives each listed [`Report`] type an inherent `evcxr_display` that writes

@@ -201,7 +201,7 @@ fn columns_for_fit(args: &FitArgs, spec: &ModelSpec) -> Vec<String> {
 }
 
 /// Loads the sales for a fit: as [`load_with_flags`], but a columnar file
-/// (Parquet) gives only the columns the fit reads ([`columns_for_fit`]).
+/// (Parquet) gives only the columns the fit reads (`columns_for_fit`).
 pub fn load_for_fit(args: &FitArgs, spec: &ModelSpec) -> Result<Frame, CommandError> {
     load_columns_with_flags(&args.data, &args.input, Some(&args.source), Some(&columns_for_fit(args, spec)))
 }
