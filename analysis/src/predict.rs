@@ -15,8 +15,8 @@
 use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{quadratic_form, AssembledFit, Fit};
-use crate::model::DesignRecipe;
 use crate::model::TargetTransform;
+use crate::model::{AppliedDesign, DesignRecipe};
 use crate::stats::{check_level, t_critical};
 use serde::{Deserialize, Serialize};
 
@@ -57,6 +57,48 @@ pub struct Predictions {
     pub rows: Vec<Prediction>,
     /// 1-based rows skipped because a term value was missing.
     pub skipped_rows: Vec<usize>,
+}
+
+impl Prediction {
+    /// The prediction of 0-based frame row `row` at `estimate`, with the
+    /// standard error of the mean `se_fit`, the residual variance `s²`
+    /// and the critical `t` value `crit`: intervals `± t·se` (mean) and
+    /// `± t·√(s² + se²)` (one sale); `smearing` (a logged target's
+    /// `mean(exp rᵢ)`) adds the original-scale median and mean.
+    pub(crate) fn with_intervals(
+        row: usize,
+        estimate: f64,
+        se_fit: f64,
+        residual_variance: f64,
+        crit: f64,
+        smearing: Option<f64>,
+        outside_range: Vec<String>,
+    ) -> Self {
+        let (half_ci, half_pi) = (crit * se_fit, crit * (residual_variance + se_fit * se_fit).sqrt());
+        Prediction {
+            row: row + 1,
+            estimate,
+            se_fit,
+            ci_low: estimate - half_ci,
+            ci_high: estimate + half_ci,
+            pi_low: estimate - half_pi,
+            pi_high: estimate + half_pi,
+            median_original: smearing.map(|_| estimate.exp()),
+            mean_original: smearing.map(|s| estimate.exp() * s),
+            outside_range,
+        }
+    }
+}
+
+/// The term columns whose value at position `i` of `applied` lies outside
+/// the range the recipe saw in the fitting data.
+pub(crate) fn outside_range(recipe: &DesignRecipe, applied: &AppliedDesign, i: usize) -> Vec<String> {
+    recipe
+        .numeric_ranges
+        .iter()
+        .filter(|(c, lo, hi)| applied.numbers.get(c).is_some_and(|values| values[i] < *lo || values[i] > *hi))
+        .map(|(c, _, _)| c.clone())
+        .collect()
 }
 
 /// What predicting needs from a fitted model, however it was fitted (all
@@ -118,32 +160,20 @@ impl Predictor<'_> {
             return Err(Error::Prediction("no row of the new data has every value the model needs".into()));
         }
         let crit = t_critical(level, self.df_t);
-        let s2 = self.residual_variance;
-        let ranges = &self.recipe.numeric_ranges;
         let mut predictions = Vec::with_capacity(rows.len());
         for (i, &row) in rows.iter().enumerate() {
-            let outside_range = ranges
-                .iter()
-                .filter(|(c, lo, hi)| applied.numbers.get(c).is_some_and(|values| values[i] < *lo || values[i] > *hi))
-                .map(|(c, _, _)| c.clone())
-                .collect();
             let x: Vec<f64> = self.kept.iter().map(|&j| columns[j].hi[i]).collect();
             let estimate: f64 = x.iter().zip(self.coefficients).map(|(a, b)| a * b).sum();
             let se_fit = quadratic_form(self.covariance, &x).max(0.0).sqrt();
-            let half_ci = crit * se_fit;
-            let half_pi = crit * (s2 + se_fit * se_fit).sqrt();
-            predictions.push(Prediction {
-                row: row + 1,
+            predictions.push(Prediction::with_intervals(
+                row,
                 estimate,
                 se_fit,
-                ci_low: estimate - half_ci,
-                ci_high: estimate + half_ci,
-                pi_low: estimate - half_pi,
-                pi_high: estimate + half_pi,
-                median_original: self.smearing.map(|_| estimate.exp()),
-                mean_original: self.smearing.map(|s| estimate.exp() * s),
-                outside_range,
-            });
+                self.residual_variance,
+                crit,
+                self.smearing,
+                outside_range(self.recipe, &applied, i),
+            ));
         }
         let used: std::collections::BTreeSet<usize> = rows.iter().copied().collect();
         let skipped_rows = (0..frame.height()).filter(|r| !used.contains(r)).map(|r| r + 1).collect();

@@ -76,7 +76,7 @@ def check_against_references(report, earlier, later, sold):
 def test_chased_values_are_caught(tmp_path):
     a, b, earlier, later, sold, price = two_runs(tmp_path, chase=True)
     report = diff(a, b)
-    assert report["schema_version"] == 2
+    assert report["schema_version"] == 3
     check = check_against_references(report, earlier, later, sold)
     assert check["rank_sum"]["p_value"] < 1e-6
     assert abs(check["sold_ratios_earlier"]["cod"] - cod(earlier[sold] / price)) < 1e-10

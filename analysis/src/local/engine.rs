@@ -24,6 +24,7 @@
 
 use super::kernel::{Bandwidth, Kernel};
 use crate::error::{Error, Result};
+use crate::numeric::parallel::over_chunks;
 use crate::spatial::PlaceIndex;
 use faer::linalg::solvers::Solve;
 use faer::Mat;
@@ -230,21 +231,8 @@ pub(crate) fn at_every_sale(
     full: bool,
 ) -> std::result::Result<Vec<PointResult>, usize> {
     let n = data.target.len();
-    let threads = crate::numeric::tsqr::available_threads().clamp(1, n.max(1));
-    let chunk = n.div_ceil(threads);
-    let work = |start: usize, end: usize| -> std::result::Result<Vec<PointResult>, usize> {
-        (start..end).map(|i| at_sale(data, i, kernel, bandwidth, full).ok_or(i)).collect()
-    };
-    let parts: Vec<std::result::Result<Vec<PointResult>, usize>> = std::thread::scope(|scope| {
-        let handles: Vec<_> = (0..threads)
-            .map(|t| {
-                let (start, end) = ((t * chunk).min(n), ((t + 1) * chunk).min(n));
-                let work = &work;
-                scope.spawn(move || work(start, end))
-            })
-            .collect();
-        // A panic in a worker is a bug in this module; re-raise it here.
-        handles.into_iter().map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e))).collect()
+    let parts = over_chunks(n, |range| -> std::result::Result<Vec<PointResult>, usize> {
+        range.map(|i| at_sale(data, i, kernel, bandwidth, full).ok_or(i)).collect()
     });
     let mut out = Vec::with_capacity(n);
     for part in parts {
@@ -339,16 +327,14 @@ pub(crate) fn adaptive_aicc(data: &LocalData, counts: &[usize]) -> Vec<f64> {
     let n = data.target.len();
     let k = data.rows.first().map_or(0, Vec::len);
     let most = counts.iter().copied().max().unwrap_or(0).min(n);
-    let threads = crate::numeric::tsqr::available_threads().clamp(1, n.max(1));
-    let chunk = n.div_ceil(threads);
     // Per count: (RSS, tr S, singular somewhere).
-    let work = |start: usize, end: usize| -> Vec<(f64, f64, bool)> {
+    let work = |range: std::ops::Range<usize>| -> Vec<(f64, f64, bool)> {
         let mut sums = vec![(0.0, 0.0, false); counts.len()];
         let (mut m0, mut m2, mut m4) = (vec![0.0; k * k], vec![0.0; k * k], vec![0.0; k * k]);
         let (mut c0, mut c2, mut c4) = (vec![0.0; k], vec![0.0; k], vec![0.0; k]);
         let mut a = vec![0.0; k * k];
         let (mut beta, mut v) = (vec![0.0; k], vec![0.0; k]);
-        for i in start..end {
+        for i in range {
             let (x, y) = data.places.place(i);
             let neighbours = data.places.nearest(x, y, most, None);
             for buffer in [&mut m0, &mut m2, &mut m4, &mut c0, &mut c2, &mut c4] {
@@ -406,17 +392,7 @@ pub(crate) fn adaptive_aicc(data: &LocalData, counts: &[usize]) -> Vec<f64> {
         }
         sums
     };
-    let parts: Vec<Vec<(f64, f64, bool)>> = std::thread::scope(|scope| {
-        let handles: Vec<_> = (0..threads)
-            .map(|t| {
-                let (start, end) = ((t * chunk).min(n), ((t + 1) * chunk).min(n));
-                let work = &work;
-                scope.spawn(move || work(start, end))
-            })
-            .collect();
-        // A panic in a worker is a bug in this module; re-raise it here.
-        handles.into_iter().map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e))).collect()
-    });
+    let parts = over_chunks(n, work);
     (0..counts.len())
         .map(|slot| {
             let (mut rss, mut trace, mut singular) = (0.0, 0.0, false);

@@ -31,7 +31,7 @@ use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::fit::{fit, Fit};
 use crate::model::{build_design, ModelSpec, TargetTransform};
-use crate::predict::{Prediction, Predictions};
+use crate::predict::{outside_range, Prediction, Predictions};
 use crate::spatial::geodesy::refuse_degrees_as_planar;
 use crate::spatial::{
     moran_test, Coordinates, MoranAssumption, MoranTest, Neighbourhood, PlaceIndex, SpatialWeights, WeightStyle,
@@ -400,28 +400,15 @@ impl LocalFit {
             let (estimate, unscaled) =
                 engine::estimate_at(&data, x, y, &design_row, options.kernel, self.summary.bandwidth)
                     .ok_or_else(|| engine::singular_at(row, self.summary.bandwidth))?;
-            let se_fit = sigma * unscaled.max(0.0).sqrt();
-            let (half_ci, half_pi) = (crit * se_fit, crit * sigma * (1.0 + unscaled.max(0.0)).sqrt());
-            let outside_range = recipe
-                .numeric_ranges
-                .iter()
-                .filter(|(c, lo, hi)| {
-                    applied.numbers.get(c).is_some_and(|values| values[position] < *lo || values[position] > *hi)
-                })
-                .map(|(c, _, _)| c.clone())
-                .collect();
-            rows.push(Prediction {
-                row: row + 1,
+            rows.push(Prediction::with_intervals(
+                row,
                 estimate,
-                se_fit,
-                ci_low: estimate - half_ci,
-                ci_high: estimate + half_ci,
-                pi_low: estimate - half_pi,
-                pi_high: estimate + half_pi,
-                median_original: smearing.map(|_| estimate.exp()),
-                mean_original: smearing.map(|s| estimate.exp() * s),
-                outside_range,
-            });
+                sigma * unscaled.max(0.0).sqrt(),
+                sigma * sigma,
+                crit,
+                smearing,
+                outside_range(recipe, &applied, position),
+            ));
         }
         let used: std::collections::BTreeSet<usize> = applied.rows.iter().copied().collect();
         skipped.extend((0..frame.height()).filter(|r| !used.contains(r)).map(|r| r + 1));

@@ -8,10 +8,12 @@
 //! * [`tsqr`] — tall-skinny QR: the triangular factor of a tall matrix, built
 //!   from row blocks on several threads, from streamed batches, or from
 //!   partitions factored apart and merged.
+//! * [`parallel`] — work over a range shared among the cores in fixed chunks.
 
 pub mod dd_qr;
 pub mod ddouble;
 pub mod equilibrate;
+pub mod parallel;
 pub mod tsqr;
 
 pub use ddouble::DoubleDouble;

@@ -161,9 +161,7 @@ pub fn factor_rows(n: usize, width: usize, threads: usize, entry: impl Fn(usize,
 }
 
 /// Threads worth using for a factorisation on this machine.
-pub fn available_threads() -> usize {
-    std::thread::available_parallelism().map_or(1, |n| n.get())
-}
+pub use super::parallel::available_threads;
 
 #[cfg(test)]
 mod tests {

@@ -6,10 +6,11 @@
 //! model, would value it by a market it is not in.
 
 use super::StratifiedFit;
-use crate::data::{dates, Frame};
+use crate::data::Frame;
 use crate::error::{Error, Result};
 use crate::predict::Prediction;
-use crate::value::{Retransform, RollParcel, ValueRoll};
+use crate::value::roll_of;
+use crate::value::{Retransform, ValueRoll};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -122,40 +123,13 @@ impl StratifiedFit {
         valuation_date: &str,
         retransform: Retransform,
     ) -> Result<ValueRoll> {
-        let valuation_date =
-            dates::require_iso_date("the valuation date", valuation_date)?.format(dates::ISO_DATE_FORMAT).to_string();
-        let ids = parcels.label_column(id_column)?;
         let predictions = self.predict(parcels, 0.95)?;
-        let mut seen: BTreeMap<&str, usize> = BTreeMap::new();
-        let mut out = Vec::with_capacity(ids.len());
-        for (row, (id, valued)) in ids.iter().zip(predictions.rows).enumerate() {
-            let Some(id) = id else {
-                return Err(Error::MissingValue {
-                    column: id_column.into(),
-                    row: row + 1,
-                    line: parcels.source_line(row),
-                    purpose: "the value roll (every parcel needs its id)".into(),
-                });
-            };
-            if let Some(first) = seen.insert(id.as_str(), row) {
-                return Err(Error::Specification(format!(
-                    "parcel id `{id}` appears on rows {} and {} of the parcel file; a roll needs each parcel once",
-                    first + 1,
-                    row + 1
-                )));
-            }
-            let value = valued
-                .prediction
-                .as_ref()
-                .map(|p| retransform.value_of(p.estimate, p.median_original, p.mean_original));
-            out.push(RollParcel { id: id.clone(), value, sale: None, not_valued: valued.not_valued });
-        }
-        Ok(ValueRoll {
-            valuation_date,
-            model: format!("{} within each {}", self.spec.describe(), self.column),
-            parcels_source: parcels.provenance().describe(),
-            sales_source: None,
-            parcels: out,
-        })
+        let valued = predictions.rows.into_iter().map(|row| {
+            let value =
+                row.prediction.as_ref().map(|p| retransform.value_of(p.estimate, p.median_original, p.mean_original));
+            (value, row.not_valued)
+        });
+        let model = format!("{} within each {}", self.spec.describe(), self.column);
+        roll_of(parcels, id_column, valuation_date, model, valued)
     }
 }

@@ -28,6 +28,7 @@ mod time;
 mod value_accuracy;
 
 pub use ratio_study::{ratio_study, GroupStudy, RatioOptions, RatioStatistics, RatioStudy};
+pub(crate) use roll::roll_of;
 pub use roll::{value_roll, RollParcel, RollSale, ValueRoll};
 pub use sales_chasing::{rank_sum_test, sales_chasing_check, RankSumTest, SalesChasingCheck, ValueChange};
 pub use standards::{Judgement, PropertyClass};

@@ -104,13 +104,31 @@ pub fn value_roll(
     valuation_date: &str,
     retransform: Retransform,
 ) -> Result<ValueRoll> {
+    let values = model_values(fit, parcels, retransform)?;
+    let valued = values.into_iter().map(|value| {
+        let not_valued = value.is_none().then(|| "a term value is missing".to_string());
+        (value, not_valued)
+    });
+    roll_of(parcels, id_column, valuation_date, fit.spec().describe(), valued)
+}
+
+/// The roll of `parcels` from each parcel's value (or why it has none), in
+/// frame order: the valuation date checked, each parcel's id required and
+/// unique. Shared by every way of valuing a roll (one model, a model per
+/// group).
+pub(crate) fn roll_of(
+    parcels: &Frame,
+    id_column: &str,
+    valuation_date: &str,
+    model: String,
+    valued: impl IntoIterator<Item = (Option<f64>, Option<String>)>,
+) -> Result<ValueRoll> {
     let valuation_date =
         dates::require_iso_date("the valuation date", valuation_date)?.format(dates::ISO_DATE_FORMAT).to_string();
     let ids = parcels.label_column(id_column)?;
-    let values = model_values(fit, parcels, retransform)?;
     let mut seen: BTreeMap<&str, usize> = BTreeMap::new();
     let mut out = Vec::with_capacity(ids.len());
-    for (row, (id, value)) in ids.iter().zip(values).enumerate() {
+    for (row, (id, (value, not_valued))) in ids.iter().zip(valued).enumerate() {
         let Some(id) = id else {
             return Err(Error::MissingValue {
                 column: id_column.into(),
@@ -126,12 +144,11 @@ pub fn value_roll(
                 row + 1
             )));
         }
-        let not_valued = value.is_none().then(|| "a term value is missing".to_string());
         out.push(RollParcel { id: id.clone(), value, sale: None, not_valued });
     }
     Ok(ValueRoll {
         valuation_date,
-        model: fit.spec().describe(),
+        model,
         parcels_source: parcels.provenance().describe(),
         sales_source: None,
         parcels: out,
