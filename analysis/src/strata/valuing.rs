@@ -78,26 +78,19 @@ impl StratifiedFit {
             }
         }
         for (label, members) in by_group {
-            let model = match self.stratum(label) {
+            let model = match self.stratum(label).map(|s| s.outcome()) {
+                Some(super::StratumOutcome::Fitted(model)) => model,
+                Some(super::StratumOutcome::NotFitted { reason }) => {
+                    let reason = format!("no model for {} `{label}`: {reason}", self.column);
+                    members.iter().for_each(|&i| rows[i].not_valued = Some(reason.clone()));
+                    continue;
+                }
                 None => {
                     let reason =
                         format!("no model for {} `{label}`: no sale of it was in the fitting data", self.column);
                     members.iter().for_each(|&i| rows[i].not_valued = Some(reason.clone()));
                     continue;
                 }
-                Some(stratum) => match stratum.model() {
-                    Some(model) => model,
-                    None => {
-                        let reason = match stratum.outcome() {
-                            super::StratumOutcome::NotFitted { reason } => {
-                                format!("no model for {} `{label}`: {reason}", self.column)
-                            }
-                            super::StratumOutcome::Fitted(_) => unreachable!("a fitted stratum has a model"),
-                        };
-                        members.iter().for_each(|&i| rows[i].not_valued = Some(reason.clone()));
-                        continue;
-                    }
-                },
             };
             let subset = frame.subset(&members, &format!("{} = {label}", self.column))?;
             let predictions = model.predict(&subset, level)?;
