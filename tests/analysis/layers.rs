@@ -3,8 +3,10 @@
 //!
 //! A module's layer is its top-level name under `analysis/src/` (`fit`,
 //! `render`, …). A reference is any `crate::NAME` path outside a comment,
-//! whether in a `use` line or inline. Modules in the same layer may not
-//! import each other either: a piece two of them share belongs a layer
+//! whether in a `use` line or inline, each element of a grouped import
+//! `crate::{a, b}`, and a `super::` path that climbs to the crate root.
+//! Modules in the same layer may not import each other either: a piece two
+//! of them share belongs a layer
 //! below both. Submodules within one top-level module are not checked here.
 
 use std::collections::BTreeSet;
@@ -47,20 +49,72 @@ fn layer_of(module: &str) -> Option<usize> {
     LAYERS.iter().position(|layer| layer.contains(&module))
 }
 
-/// The `crate::NAME` references of one source text, comments left out.
-fn references(source: &str) -> Vec<String> {
+/// The top-level modules one source text refers to, comments left out:
+/// `crate::NAME` paths (inline or in `use`), grouped imports
+/// `crate::{a, b::c}` (the group may span lines), and `super::` paths that
+/// climb to the crate root from `file` (`x.rs` and `x/mod.rs` are one level
+/// deep, `x/y.rs` two, …) outside the file's `#[cfg(test)]` module.
+fn references(file: &str, source: &str) -> Vec<String> {
+    let code: String = source.lines().map(|line| line.split("//").next().unwrap_or("")).collect::<Vec<_>>().join("\n");
+    let name_at = |text: &str| -> String { text.chars().take_while(|c| c.is_ascii_lowercase() || *c == '_').collect() };
     let mut out = Vec::new();
-    for line in source.lines() {
-        let code = line.split("//").next().unwrap_or("");
-        let mut rest = code;
-        while let Some(at) = rest.find("crate::") {
-            let after = &rest[at + "crate::".len()..];
-            let name: String = after.chars().take_while(|c| c.is_ascii_lowercase() || *c == '_').collect();
+    // Paths from the crate root.
+    let mut rest = code.as_str();
+    while let Some(at) = rest.find("crate::") {
+        let after = &rest[at + "crate::".len()..];
+        if let Some(group) = after.strip_prefix('{') {
+            // Each element of the group at depth one names a module.
+            let (mut depth, mut element_start) = (1usize, true);
+            for (i, c) in group.char_indices() {
+                match c {
+                    '{' => depth += 1,
+                    '}' => {
+                        depth -= 1;
+                        if depth == 0 {
+                            break;
+                        }
+                    }
+                    ',' if depth == 1 => element_start = true,
+                    c if element_start && depth == 1 && !c.is_whitespace() => {
+                        let name = name_at(&group[i..]);
+                        if !name.is_empty() && name != "self" {
+                            out.push(name);
+                        }
+                        element_start = false;
+                    }
+                    _ => {}
+                }
+            }
+        } else {
+            let name = name_at(after);
             if !name.is_empty() {
                 out.push(name);
             }
-            rest = after;
         }
+        rest = after;
+    }
+    // `super::` paths that reach the crate root, before the file's inline
+    // test module (where `super::` is the file's own module).
+    let parts: Vec<&str> = file.trim_end_matches(".rs").split('/').collect();
+    let depth = if parts.last() == Some(&"mod") { parts.len() - 1 } else { parts.len() };
+    let outside_tests = code.split("#[cfg(test)]").next().unwrap_or("");
+    let mut rest = outside_tests;
+    while let Some(at) = rest.find("super::") {
+        // Count the whole run of `super::` starting here (not one already counted).
+        let preceded = rest[..at].ends_with("super::");
+        let mut after = &rest[at..];
+        let mut climbs = 0;
+        while let Some(next) = after.strip_prefix("super::") {
+            climbs += 1;
+            after = next;
+        }
+        if !preceded && climbs >= depth {
+            let name = name_at(after);
+            if !name.is_empty() {
+                out.push(name);
+            }
+        }
+        rest = &rest[at + "super::".len()..];
     }
     out
 }
@@ -77,7 +131,7 @@ fn violations(sources: &[(String, String, String)]) -> Vec<String> {
             out.push(format!("{module} ({file}) is in no layer: add it to LAYERS in tests/analysis/layers.rs"));
             continue;
         };
-        for imported in references(text) {
+        for imported in references(file, text) {
             if imported == *module {
                 continue;
             }
@@ -135,13 +189,21 @@ fn an_upward_or_sideways_import_is_caught() {
         // Downward, and in a comment: both fine.
         source("render", "use crate::fit::Fit;\n// see crate::drift for the reader\n"),
         source("newthing", "use crate::data::Frame;\n"),
+        // A grouped import over lines, reaching up and sideways.
+        source("compare", "use crate::{\n    fit::Fit,\n    drift::{self, drift},\n    error::Result,\n};\n"),
+        // `super::` from a top-level file climbs to the crate root.
+        ("predict".to_string(), "predict.rs".to_string(), "use super::render::Report;\n".to_string()),
+        // … but within a module it stays inside it.
+        source("plot", "use super::theme::INK;\n"),
     ];
     let found = violations(&sources);
     assert_eq!(
         found,
         vec![
+            "compare → drift (compare/x.rs): imports a module of its own or a higher layer".to_string(),
             "fit → render (fit/x.rs): imports a module of its own or a higher layer".to_string(),
             "newthing (newthing/x.rs) is in no layer: add it to LAYERS in tests/analysis/layers.rs".to_string(),
+            "predict → render (predict.rs): imports a module of its own or a higher layer".to_string(),
             "value → compare (value/x.rs): imports a module of its own or a higher layer".to_string(),
         ]
     );
