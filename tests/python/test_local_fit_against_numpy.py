@@ -144,3 +144,18 @@ def test_value_with_the_local_model_matches_the_local_estimates(tmp_path):
     ref = gwr(X, y, px, py, "adaptive", 40)
     assert close(got, np.sum(X * ref["betas"], axis=1), 1e-8)
     assert all(float(v["pi_low"]) < float(v["estimate"]) < float(v["pi_high"]) for v in values)
+
+
+def test_a_singular_local_design_is_refused_naming_the_data_row(tmp_path):
+    """A category that does not vary among a sale's neighbours makes its local design singular:
+    refused with the data row and what to change, never a number from a singular system."""
+    path, X, y, px, py = make_sales(tmp_path, n=120, seed=13)
+    text = path.read_text().splitlines()
+    # A zone that is constant within each half of the map: near any sale every neighbour shares it.
+    body = [text[0] + ",zone"] + [line + ("," + ("west" if float(line.split(",")[3]) < 5 else "east"))
+                                  for line in text[1:]]
+    path.write_text("\n".join(body) + "\n")
+    r = run_raw("fit", str(path), "--target", "log_price", "--terms", "log_area,age", "--category", "zone",
+                "--local", "x,y", "--bandwidth", "12")
+    assert r.returncode != 0
+    assert "the local design at the place of data row" in r.stderr and "widen the bandwidth" in r.stderr, r.stderr

@@ -261,23 +261,24 @@ pub(crate) fn aicc(n: usize, rss: f64, trace_s: f64) -> f64 {
     2.0 * n * (rss / n).sqrt().ln() + n * (2.0 * std::f64::consts::PI).ln() + n * (n + trace_s) / (n - 2.0 - trace_s)
 }
 
-/// The error for a singular local design at sale `i` (0-based).
-pub(crate) fn singular_at(i: usize, bandwidth: Bandwidth) -> Error {
+/// The error for a singular local design at the place of 0-based data row `row`.
+pub(crate) fn singular_at(row: usize, bandwidth: Bandwidth) -> Error {
     Error::Specification(format!(
-        "the local design at sale {} (row {}) is singular with {}: too few neighbours, or a term (such as a \
-         category's level) that does not vary among them; widen the bandwidth or leave the term out",
-        i + 1,
-        i + 1,
+        "the local design at the place of data row {} is singular with {}: too few neighbours, or a term (such as \
+         a category's level) that does not vary among them; widen the bandwidth or leave the term out",
+        row + 1,
         bandwidth.describe()
     ))
 }
 
-/// Result check, used by callers that need every point.
+/// Result check, used by callers that need every point; `frame_row` maps a
+/// sale's index to its 0-based data row, for the message.
 pub(crate) fn require_all(
     result: std::result::Result<Vec<PointResult>, usize>,
     bandwidth: Bandwidth,
+    frame_row: impl Fn(usize) -> usize,
 ) -> Result<Vec<PointResult>> {
-    result.map_err(|i| singular_at(i, bandwidth))
+    result.map_err(|i| singular_at(frame_row(i), bandwidth))
 }
 
 /// `a` (`k × k`, row-major, symmetric) factored in place by Cholesky, then

@@ -272,7 +272,8 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
         }
         BandwidthChoice::LeastAicc => search::least_aicc(&data, options.kernel, k)?,
     };
-    let points = require_all(at_every_sale(&data, options.kernel, bandwidth, true), bandwidth)?;
+    let points =
+        require_all(at_every_sale(&data, options.kernel, bandwidth, true), bandwidth, |i| design.rows_used[i])?;
     let sums = totals(&data, &points);
     let residual_df = n as f64 - 2.0 * sums.trace_s + sums.trace_sts;
     let sigma = (sums.rss / residual_df).sqrt();
@@ -444,6 +445,7 @@ impl LocalFit {
             let points = require_all(
                 at_every_sale(&data, options.kernel, self.summary.bandwidth, false),
                 self.summary.bandwidth,
+                |i| self.summary.rows[i].row - 1,
             )?;
             let shuffled_variances = variances(&points.iter().map(|p| p.coefficients.clone()).collect::<Vec<_>>(), k);
             for p in 0..k {
