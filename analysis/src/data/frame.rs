@@ -173,6 +173,23 @@ impl Frame {
         })
     }
 
+    /// The values of numeric column `name` at the 0-based `rows`, in that
+    /// order; a row without a finite value is an error naming the column, the
+    /// row and its line, and `purpose` (why every one of these rows needs it).
+    pub fn numbers_at(&self, name: &str, rows: &[usize], purpose: &str) -> Result<Vec<f64>> {
+        let values = self.numeric_column(name)?;
+        rows.iter()
+            .map(|&r| {
+                values[r].filter(|v| v.is_finite()).ok_or_else(|| Error::MissingValue {
+                    column: name.to_string(),
+                    row: r + 1,
+                    line: self.source_line(r),
+                    purpose: purpose.to_string(),
+                })
+            })
+            .collect()
+    }
+
     /// The column as numbers, `None` for missing values.
     ///
     /// Integer and boolean columns convert exactly (integers beyond 2⁵³ round).

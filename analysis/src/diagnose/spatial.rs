@@ -17,7 +17,7 @@
 //! degrees but are declared planar are refused ([`crate::spatial::geodesy`]).
 
 use crate::data::Frame;
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::fit::Fit;
 use crate::spatial::geodesy::refuse_degrees_as_planar;
 use crate::spatial::{moran_test_of_residuals, Coordinates, MoranTest, Neighbourhood, SpatialWeights, WeightStyle};
@@ -145,21 +145,9 @@ impl Fit {
     pub(crate) fn places(&self, frame: &Frame, options: &SpatialOptions) -> Result<FitPlaces> {
         self.require_fitting_frame(frame)?;
         let rows = &self.design.rows_used;
-        let read = |column: &str| -> Result<Vec<f64>> {
-            let values = frame.numeric_column(column)?;
-            rows.iter()
-                .map(|&r| {
-                    values[r].filter(|v| v.is_finite()).ok_or_else(|| Error::MissingValue {
-                        column: column.to_string(),
-                        row: r + 1,
-                        line: frame.source_line(r),
-                        purpose: "the spatial check (every fitted sale needs its place)".into(),
-                    })
-                })
-                .collect()
-        };
-        let xs = read(&options.x_column)?;
-        let ys = read(&options.y_column)?;
+        let purpose = "the spatial check (every fitted sale needs its place)";
+        let xs = frame.numbers_at(&options.x_column, rows, purpose)?;
+        let ys = frame.numbers_at(&options.y_column, rows, purpose)?;
         if options.coordinates == Coordinates::Planar {
             refuse_degrees_as_planar(
                 &options.x_column,

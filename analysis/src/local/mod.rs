@@ -238,22 +238,11 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
     let k = design.columns.len();
     let rows: Vec<Vec<f64>> = (0..n).map(|i| design.columns.iter().map(|c| c.hi[i]).collect()).collect();
     let target = design.target.clone();
-    let read = |column: &str| -> Result<Vec<f64>> {
-        let values = frame.numeric_column(column)?;
-        design
-            .rows_used
-            .iter()
-            .map(|&r| {
-                values[r].ok_or_else(|| Error::MissingValue {
-                    column: column.to_string(),
-                    row: r + 1,
-                    line: frame.source_line(r),
-                    purpose: "the local fit (every sale needs its place)".into(),
-                })
-            })
-            .collect()
-    };
-    let (xs, ys) = (read(&options.x_column)?, read(&options.y_column)?);
+    let purpose = "the local fit (every sale needs its place)";
+    let (xs, ys) = (
+        frame.numbers_at(&options.x_column, &design.rows_used, purpose)?,
+        frame.numbers_at(&options.y_column, &design.rows_used, purpose)?,
+    );
     if options.coordinates == Coordinates::Planar {
         refuse_degrees_as_planar(
             &options.x_column,
