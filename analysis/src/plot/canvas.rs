@@ -114,3 +114,44 @@ pub(crate) fn axes_with<'a, 'b>(
     mesh.draw().map_err(plot_error)?;
     Ok(chart)
 }
+
+/// Themed axes for one estimate per named row: `x` the estimates' range,
+/// one row per entry of `names`, the first at the bottom (`y = 0`), the row
+/// names as y tick labels. Shared by the interval charts.
+pub(crate) fn estimate_rows<'a, 'b>(
+    area: &'a Area<'b>,
+    caption: &str,
+    x: Range<f64>,
+    names: &[String],
+) -> Result<Chart<'a, 'b>> {
+    let k = names.len();
+    let longest = names.iter().map(|n| n.chars().count()).max().unwrap_or(4) as u32;
+    let mut chart = ChartBuilder::on(area)
+        .caption(caption, (FONT, 17).into_font().color(&INK))
+        .margin(14)
+        .x_label_area_size(44)
+        .y_label_area_size((longest * 7 + 16).min(260))
+        .build_cartesian_2d(x, -0.5..(k as f64 - 0.5))
+        .map_err(plot_error)?;
+    chart
+        .configure_mesh()
+        .x_desc("estimate")
+        .x_labels(7)
+        .y_labels(k)
+        .x_label_formatter(&|v| format_tick(*v))
+        .y_label_formatter(&|v| {
+            let i = v.round();
+            if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < k {
+                names[i as usize].clone()
+            } else {
+                String::new()
+            }
+        })
+        .label_style((FONT, 12).into_font().color(&INK))
+        .axis_desc_style((FONT, 13).into_font().color(&INK))
+        .bold_line_style(GRID)
+        .light_line_style(GRID.mix(0.0))
+        .draw()
+        .map_err(plot_error)?;
+    Ok(chart)
+}

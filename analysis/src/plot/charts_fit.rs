@@ -1,7 +1,7 @@
 //! Charts of the fitted model: one term's fitted curve with bands, and the
 //! coefficient intervals.
 
-use super::canvas::{axes, padded_range, render};
+use super::canvas::{axes, estimate_rows, padded_range, render};
 use super::theme::{format_tick, ACCENT, BAND, FONT, GRID, INK, POINT, SOFT};
 use super::{plot_error, PlotSize, Svg};
 use crate::data::Frame;
@@ -139,34 +139,7 @@ pub fn coefficient_intervals(fit: &Fit, level: f64, size: PlotSize) -> Result<Sv
     let names: Vec<String> = rows.iter().map(|c| c.term.clone()).collect();
     let pct = format_tick(level * 100.0);
     let markup = render(PlotSize { width: size.width, height }, |area| {
-        let longest = names.iter().map(|n| n.chars().count()).max().unwrap_or(4) as u32;
-        let mut chart = ChartBuilder::on(area)
-            .caption(format!("Coefficients with {pct} % intervals"), (FONT, 17).into_font().color(&INK))
-            .margin(14)
-            .x_label_area_size(44)
-            .y_label_area_size((longest * 7 + 16).min(260))
-            .build_cartesian_2d(x_range.clone(), -0.5..(k as f64 - 0.5))
-            .map_err(plot_error)?;
-        chart
-            .configure_mesh()
-            .x_desc("estimate")
-            .x_labels(7)
-            .y_labels(k)
-            .x_label_formatter(&|v| format_tick(*v))
-            .y_label_formatter(&|v| {
-                let i = v.round();
-                if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
-                    names[i as usize].clone()
-                } else {
-                    String::new()
-                }
-            })
-            .label_style((FONT, 12).into_font().color(&INK))
-            .axis_desc_style((FONT, 13).into_font().color(&INK))
-            .bold_line_style(GRID)
-            .light_line_style(GRID.mix(0.0))
-            .draw()
-            .map_err(plot_error)?;
+        let mut chart = estimate_rows(area, &format!("Coefficients with {pct} % intervals"), x_range.clone(), &names)?;
         chart
             .draw_series(LineSeries::new(vec![(0.0, -0.5), (0.0, k as f64 - 0.5)], SOFT.stroke_width(1)))
             .map_err(plot_error)?;

@@ -1,8 +1,8 @@
 //! One coefficient across the groups of a set of models by group, with the
 //! pooled model's estimate as a reference line.
 
-use super::canvas::{padded_range, render};
-use super::theme::{format_tick, ACCENT, BAND, FONT, GRID, INK, POINT, SOFT};
+use super::canvas::{estimate_rows, padded_range, render};
+use super::theme::{format_tick, ACCENT, BAND, POINT, SOFT};
 use super::{plot_error, PlotSize, Svg};
 use crate::error::{Error, Result};
 use crate::strata::StratifiedSummary;
@@ -54,34 +54,9 @@ pub fn coefficient_by_group(set: &StratifiedSummary, term: &str, size: PlotSize)
     }
     let y_of = |i: usize| (k - 1 - i) as f64;
     let markup = render(PlotSize { width: size.width, height }, |area| {
-        let longest = names.iter().map(|n| n.chars().count()).max().unwrap_or(4) as u32;
-        let mut chart = ChartBuilder::on(area)
-            .caption(&title, (FONT, 17).into_font().color(&INK))
-            .margin(14)
-            .x_label_area_size(44)
-            .y_label_area_size((longest * 7 + 16).min(260))
-            .build_cartesian_2d(x_range.clone(), -0.5..(k as f64 - 0.5))
-            .map_err(plot_error)?;
-        chart
-            .configure_mesh()
-            .x_desc("estimate")
-            .x_labels(7)
-            .y_labels(k)
-            .x_label_formatter(&|v| format_tick(*v))
-            .y_label_formatter(&|v| {
-                let i = v.round();
-                if (v - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
-                    names[names.len() - 1 - i as usize].clone()
-                } else {
-                    String::new()
-                }
-            })
-            .label_style((FONT, 12).into_font().color(&INK))
-            .axis_desc_style((FONT, 13).into_font().color(&INK))
-            .bold_line_style(GRID)
-            .light_line_style(GRID.mix(0.0))
-            .draw()
-            .map_err(plot_error)?;
+        // Top to bottom in label order: the first name on the highest row.
+        let bottom_up: Vec<String> = names.iter().rev().cloned().collect();
+        let mut chart = estimate_rows(area, &title, x_range.clone(), &bottom_up)?;
         if let Some((estimate, lo, hi)) = pooled {
             chart
                 .draw_series(std::iter::once(Rectangle::new(
