@@ -11,7 +11,7 @@
 //! into the paper. The scale is clipped at ±2.5 residual standard deviations
 //! so that a few wild sales do not wash out the pattern.
 
-use super::canvas::{axes_with, render, AxisTicks};
+use super::canvas::{axes_with, render, Area, AxisTicks};
 use super::plot_error;
 use super::theme::{format_tick, ACCENT, FONT, INK, POINT, SOFT};
 use super::{PlotSize, Svg};
@@ -49,24 +49,16 @@ fn miss_colour(t: f64) -> RGBColor {
 /// `|cos φ / cos φ₀ − 1|`.
 pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: PlotSize) -> Result<Svg> {
     let mut places = fit.places(frame, options)?;
-    let mut axis_names = (options.x_column.clone(), options.y_column.clone());
-    let mut projection_note = String::new();
-    if options.coordinates == Coordinates::Geographic {
-        let projection = LocalProjection::about(&places.xs, &places.ys);
-        for (x, y) in places.xs.iter_mut().zip(places.ys.iter_mut()) {
-            (*x, *y) = projection.project(*x, *y);
-        }
-        axis_names = (
-            format!("km east of {:.4}° (from {})", projection.lon0, options.x_column),
-            format!("km north of {:.4}° (from {})", projection.lat0, options.y_column),
-        );
-        projection_note = format!(
+    let (axis_names, projection) =
+        map_axes(&mut places.xs, &mut places.ys, options.coordinates, &options.x_column, &options.y_column);
+    let projection_note = projection.map_or_else(String::new, |projection| {
+        format!(
             " Longitude and latitude drawn on an equirectangular projection about latitude {:.4}°; east–west \
              scale error at most {:.2} % over these sales.",
             projection.lat0,
             100.0 * projection.worst_scale_error
-        );
-    }
+        )
+    });
     let residuals = &fit.solution().residuals;
     let n = residuals.len() as f64;
     let sd = (residuals.iter().map(|r| r * r).sum::<f64>() / n).sqrt().max(f64::MIN_POSITIVE);
@@ -109,16 +101,7 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
             }
             // The key, bottom right below the plot: five swatches from
             // valued high to valued low.
-            let key_style = (FONT, 11).into_font().color(&INK);
-            let (width, height) = area.dim_in_pixel();
-            let (x0, y0) = (width as i32 - 200, height as i32 - 16);
-            for (k, t) in [-2.5, -1.25, 0.0, 1.25, 2.5].iter().enumerate() {
-                let left = x0 + 26 + k as i32 * 22;
-                area.draw(&Rectangle::new([(left, y0), (left + 20, y0 + 10)], miss_colour(*t).filled()))
-                    .map_err(plot_error)?;
-            }
-            area.draw(&Text::new("valued high", (x0 - 48, y0), key_style.clone())).map_err(plot_error)?;
-            area.draw(&Text::new("valued low", (x0 + 26 + 5 * 22 + 4, y0), key_style)).map_err(plot_error)?;
+            draw_key(area, 200, 26, [-2.5, -1.25, 0.0, 1.25, 2.5], miss_colour, ("valued high", 48), "valued low")?;
             Ok(())
         })?;
     let description = format!(
@@ -130,6 +113,56 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
         projection_note
     );
     Svg::finish(markup, "Where the model misses", &description)
+}
+
+/// Axis titles for places drawn on a map: the columns' names for planar
+/// places; for geographic ones, the places projected in place onto a local
+/// equirectangular projection (returned) and titles in km from its centre.
+fn map_axes(
+    xs: &mut [f64],
+    ys: &mut [f64],
+    coordinates: Coordinates,
+    x_column: &str,
+    y_column: &str,
+) -> ((String, String), Option<LocalProjection>) {
+    if coordinates == Coordinates::Planar {
+        return ((x_column.to_string(), y_column.to_string()), None);
+    }
+    let projection = LocalProjection::about(xs, ys);
+    for (x, y) in xs.iter_mut().zip(ys.iter_mut()) {
+        (*x, *y) = projection.project(*x, *y);
+    }
+    let titles = (
+        format!("km east of {:.4}° (from {x_column})", projection.lon0),
+        format!("km north of {:.4}° (from {y_column})", projection.lat0),
+    );
+    (titles, Some(projection))
+}
+
+/// A map's colour key, bottom right below the plot: five swatches coloured
+/// by `colour` at `stops`, `left` (its text, and how far left of the key's
+/// start it begins) before them and `right` after. `from_right` is where the
+/// key starts, in pixels from the right edge; `swatches_at` where the
+/// swatches start after that.
+fn draw_key(
+    area: &Area,
+    from_right: i32,
+    swatches_at: i32,
+    stops: [f64; 5],
+    colour: fn(f64) -> RGBColor,
+    (left, left_by): (&str, i32),
+    right: &str,
+) -> Result<()> {
+    let key_style = (FONT, 11).into_font().color(&INK);
+    let (width, height) = area.dim_in_pixel();
+    let (x0, y0) = (width as i32 - from_right, height as i32 - 16);
+    for (k, t) in stops.iter().enumerate() {
+        let start = x0 + swatches_at + k as i32 * 22;
+        area.draw(&Rectangle::new([(start, y0), (start + 20, y0 + 10)], colour(*t).filled())).map_err(plot_error)?;
+    }
+    area.draw(&Text::new(left, (x0 - left_by, y0), key_style.clone())).map_err(plot_error)?;
+    area.draw(&Text::new(right, (x0 + swatches_at + 5 * 22 + 4, y0), key_style)).map_err(plot_error)?;
+    Ok(())
 }
 
 /// A local equirectangular projection about the middle of some places.
@@ -294,22 +327,14 @@ pub fn local_coefficient_map(fit: &LocalSummary, term: &str, size: PlotSize) -> 
     let mean = values.iter().sum::<f64>() / n;
     let sd = (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / n).sqrt().max(f64::MIN_POSITIVE);
     let options = &fit.options;
-    let mut axis_names = (options.x_column.clone(), options.y_column.clone());
-    let mut projection_note = String::new();
-    if options.coordinates == Coordinates::Geographic {
-        let projection = LocalProjection::about(&xs, &ys);
-        for (x, y) in xs.iter_mut().zip(ys.iter_mut()) {
-            (*x, *y) = projection.project(*x, *y);
-        }
-        axis_names = (
-            format!("km east of {:.4}° (from {})", projection.lon0, options.x_column),
-            format!("km north of {:.4}° (from {})", projection.lat0, options.y_column),
-        );
-        projection_note = format!(
+    let (axis_names, projection) =
+        map_axes(&mut xs, &mut ys, options.coordinates, &options.x_column, &options.y_column);
+    let projection_note = projection.map_or_else(String::new, |projection| {
+        format!(
             " Longitude and latitude drawn on an equirectangular projection about latitude {:.4}°.",
             projection.lat0
-        );
-    }
+        )
+    });
     let (x_range, y_range) = equal_scale(&xs, &ys, size);
     let title = format!("Local {term} across the map");
     let markup =
@@ -323,16 +348,7 @@ pub fn local_coefficient_map(fit: &LocalSummary, term: &str, size: PlotSize) -> 
                     Circle::new((xs[i], ys[i]), radius, coefficient_colour((values[i] - global) / sd).filled())
                 }))
                 .map_err(plot_error)?;
-            let key_style = (FONT, 11).into_font().color(&INK);
-            let (width, height) = area.dim_in_pixel();
-            let (x0, y0) = (width as i32 - 230, height as i32 - 16);
-            for (k, t) in [-2.0, -1.0, 0.0, 1.0, 2.0].iter().enumerate() {
-                let left = x0 + 60 + k as i32 * 22;
-                area.draw(&Rectangle::new([(left, y0), (left + 20, y0 + 10)], coefficient_colour(*t).filled()))
-                    .map_err(plot_error)?;
-            }
-            area.draw(&Text::new("below global", (x0 - 12, y0), key_style.clone())).map_err(plot_error)?;
-            area.draw(&Text::new("above", (x0 + 60 + 5 * 22 + 4, y0), key_style)).map_err(plot_error)?;
+            draw_key(area, 230, 60, [-2.0, -1.0, 0.0, 1.0, 2.0], coefficient_colour, ("below global", 12), "above")?;
             Ok(())
         })?;
     let description = format!(
