@@ -190,6 +190,26 @@ impl Frame {
             .collect()
     }
 
+    /// The places of the 0-based `rows`: columns `x` and `y` read as
+    /// [`Frame::numbers_at`] does, and — when they are declared planar —
+    /// refused if they read as longitude and latitude in degrees
+    /// ([`crate::spatial::geodesy::refuse_degrees_as_planar`]), the message
+    /// naming `declare_geographic`, the option that reads them as degrees.
+    pub fn places_at(
+        &self,
+        (x, y): (&str, &str),
+        rows: &[usize],
+        coordinates: crate::spatial::Coordinates,
+        purpose: &str,
+        declare_geographic: &str,
+    ) -> Result<(Vec<f64>, Vec<f64>)> {
+        let (xs, ys) = (self.numbers_at(x, rows, purpose)?, self.numbers_at(y, rows, purpose)?);
+        if coordinates == crate::spatial::Coordinates::Planar {
+            crate::spatial::geodesy::refuse_degrees_as_planar(x, y, &xs, &ys, declare_geographic)?;
+        }
+        Ok((xs, ys))
+    }
+
     /// The column as numbers, `None` for missing values.
     ///
     /// Integer and boolean columns convert exactly (integers beyond 2⁵³ round).

@@ -19,7 +19,6 @@
 use crate::data::Frame;
 use crate::error::Result;
 use crate::fit::Fit;
-use crate::spatial::geodesy::refuse_degrees_as_planar;
 use crate::spatial::{moran_test_of_residuals, Coordinates, MoranTest, Neighbourhood, SpatialWeights, WeightStyle};
 use crate::stats::median_of_sorted;
 use serde::{Deserialize, Serialize};
@@ -145,18 +144,13 @@ impl Fit {
     pub(crate) fn places(&self, frame: &Frame, options: &SpatialOptions) -> Result<FitPlaces> {
         self.require_fitting_frame(frame)?;
         let rows = &self.design.rows_used;
-        let purpose = "the spatial check (every fitted sale needs its place)";
-        let xs = frame.numbers_at(&options.x_column, rows, purpose)?;
-        let ys = frame.numbers_at(&options.y_column, rows, purpose)?;
-        if options.coordinates == Coordinates::Planar {
-            refuse_degrees_as_planar(
-                &options.x_column,
-                &options.y_column,
-                &xs,
-                &ys,
-                "`--coordinates geographic` (in code, `SpatialOptions::geographic()`)",
-            )?;
-        }
+        let (xs, ys) = frame.places_at(
+            (&options.x_column, &options.y_column),
+            rows,
+            options.coordinates,
+            "the spatial check (every fitted sale needs its place)",
+            "`--coordinates geographic` (in code, `SpatialOptions::geographic()`)",
+        )?;
         let groups = match &options.group_column {
             None => None,
             Some(column) => {

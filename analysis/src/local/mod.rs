@@ -32,7 +32,6 @@ use crate::error::{Error, Result};
 use crate::fit::{fit, Fit};
 use crate::model::{build_design, ModelSpec, TargetTransform};
 use crate::predict::{outside_range, Prediction, Predictions};
-use crate::spatial::geodesy::refuse_degrees_as_planar;
 use crate::spatial::{
     moran_test, Coordinates, MoranAssumption, MoranTest, Neighbourhood, PlaceIndex, SpatialWeights, WeightStyle,
 };
@@ -238,20 +237,13 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
     let k = design.columns.len();
     let rows: Vec<Vec<f64>> = (0..n).map(|i| design.columns.iter().map(|c| c.hi[i]).collect()).collect();
     let target = design.target.clone();
-    let purpose = "the local fit (every sale needs its place)";
-    let (xs, ys) = (
-        frame.numbers_at(&options.x_column, &design.rows_used, purpose)?,
-        frame.numbers_at(&options.y_column, &design.rows_used, purpose)?,
-    );
-    if options.coordinates == Coordinates::Planar {
-        refuse_degrees_as_planar(
-            &options.x_column,
-            &options.y_column,
-            &xs,
-            &ys,
-            "`--coordinates geographic` (in code, `LocalOptions::geographic()`)",
-        )?;
-    }
+    let (xs, ys) = frame.places_at(
+        (&options.x_column, &options.y_column),
+        &design.rows_used,
+        options.coordinates,
+        "the local fit (every sale needs its place)",
+        "`--coordinates geographic` (in code, `LocalOptions::geographic()`)",
+    )?;
     let places = PlaceIndex::new(options.coordinates, &xs, &ys)?;
     let data = LocalData { rows: &rows, target: &target, places: &places };
     let (bandwidth, trace) = match options.bandwidth {
