@@ -22,7 +22,7 @@
 //! | holdout accuracy | [`Versioned`]`<`[`HoldoutAccuracy`]`>` | `plumbline.holdout-accuracy` | 1 | [`crate::schema::HOLDOUT_ACCURACY_JSON_MIME`] |
 //! | value roll | [`Versioned`]`<`[`ValueRoll`]`>` | `plumbline.value-roll` | 2 | [`crate::schema::VALUE_ROLL_JSON_MIME`] |
 //! | sales-chasing check | [`Versioned`]`<`[`SalesChasingCheck`]`>` | `plumbline.sales-chasing` | 1 | [`crate::schema::SALES_CHASING_JSON_MIME`] |
-//! | local fit | [`Versioned`]`<`[`LocalSummary`]`>` | `plumbline.local-fit` | 1 | [`crate::schema::LOCAL_FIT_JSON_MIME`] |
+//! | local fit | [`Versioned`]`<`[`LocalSummary`]`>` | `plumbline.local-fit` | 2 | [`crate::schema::LOCAL_FIT_JSON_MIME`] |
 //! | models by group | [`Versioned`]`<`[`StratifiedSummary`]`>` | `plumbline.stratified-fit` | 1 | [`crate::schema::STRATIFIED_FIT_JSON_MIME`] |
 //!
 //! The later documents share one wrapper, [`Versioned`], whose name and
@@ -290,7 +290,9 @@ document_kind!(HoldoutAccuracy, "plumbline.holdout-accuracy", 1, HOLDOUT_ACCURAC
 document_kind!(ValueRoll, "plumbline.value-roll", 2, VALUE_ROLL_JSON_MIME, "value-roll");
 document_kind!(SalesChasingCheck, "plumbline.sales-chasing", 1, SALES_CHASING_JSON_MIME, "sales-chasing");
 document_kind!(StratifiedSummary, "plumbline.stratified-fit", 1, STRATIFIED_FIT_JSON_MIME, "stratified-fit");
-document_kind!(LocalSummary, "plumbline.local-fit", 1, LOCAL_FIT_JSON_MIME, "local-fit");
+// Local fit 2: both models scored on held-out sales (`holdout`), when asked
+// for; version 1 documents read unchanged.
+document_kind!(LocalSummary, "plumbline.local-fit", 2, LOCAL_FIT_JSON_MIME, "local-fit");
 
 /// Serializes a document as compact JSON.
 pub fn to_json<T: Serialize>(document: &T, what: &'static str) -> Result<String> {

@@ -241,7 +241,8 @@ pub struct SpatialFlags {
     /// Weigh each neighbour 1 instead of 1/count in the spatial check.
     #[arg(long)]
     pub binary_weights: bool,
-    /// Location column (e.g. district) to summarise residuals by in the spatial check.
+    /// Location column (e.g. district) to summarise residuals by in the spatial check; with
+    /// `--local`, the groups the maps of local coefficients are labelled with.
     #[arg(long, value_name = "COL")]
     pub location_groups: Option<String>,
 }

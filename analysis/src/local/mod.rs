@@ -22,6 +22,7 @@
 //! ever formed). Case weights are not supported and are refused.
 
 mod engine;
+mod holdout;
 pub mod kernel;
 pub mod search;
 
@@ -33,10 +34,12 @@ use crate::fit::{fit, Fit};
 use crate::model::{build_design, ModelSpec, TargetTransform};
 use crate::predict::{outside_range, Prediction, Predictions};
 use crate::spatial::{
-    moran_test, Coordinates, MoranAssumption, MoranTest, Neighbourhood, PlaceIndex, SpatialWeights, WeightStyle,
+    group_labels, moran_test, Coordinates, MoranAssumption, MoranTest, Neighbourhood, PlaceIndex, PlaceLabel,
+    SpatialWeights, WeightStyle,
 };
 use crate::stats::quantile_of_sorted;
 use engine::{aicc, at_every_sale, require_all, totals, LocalData, PointResult};
+pub use holdout::{HoldoutComparison, HoldoutScore};
 use serde::{Deserialize, Serialize};
 
 /// Neighbours of each sale in the Moran's I of the residuals: 8, the spatial
@@ -68,6 +71,11 @@ pub struct LocalOptions {
     pub kernel: Kernel,
     /// The bandwidth, given or searched.
     pub bandwidth: BandwidthChoice,
+    /// Location column (e.g. district) whose names the maps write at the
+    /// middle of each group's sales ([`LocalSummary::labels`]); it does not
+    /// enter the fit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub label_column: Option<String>,
 }
 
 impl LocalOptions {
@@ -80,7 +88,15 @@ impl LocalOptions {
             coordinates: Coordinates::Planar,
             kernel: Kernel::AdaptiveBisquare,
             bandwidth: BandwidthChoice::LeastAicc,
+            label_column: None,
         }
+    }
+
+    /// Maps of the fit write each group of `column` (e.g. a district) at
+    /// the middle of its sales.
+    pub fn labelled_by(mut self, column: impl Into<String>) -> Self {
+        self.label_column = Some(column.into());
+        self
     }
 
     /// The columns are longitude and latitude in degrees (WGS 84).
@@ -196,6 +212,14 @@ pub struct LocalSummary {
     /// The Monte Carlo test of each coefficient's variation over space, when asked for.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub variation: Vec<VariationTest>,
+    /// Each group of [`LocalOptions::label_column`] at the middle of its
+    /// sales, where maps write its name (empty without a label column).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub labels: Vec<PlaceLabel>,
+    /// Both models scored on held-out sales, when asked for
+    /// ([`LocalFit::with_holdout`]; added in version 2 of the document).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub holdout: Option<HoldoutComparison>,
     /// Every sale's local model, in row order (empty in a notebook's bundle,
     /// which would otherwise carry megabytes; the command line writes them).
     pub rows: Vec<LocalRow>,
@@ -244,6 +268,14 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
         "the local fit (every sale needs its place)",
         "`--coordinates geographic` (in code, `LocalOptions::geographic()`)",
     )?;
+    let labels = match &options.label_column {
+        Some(column) => {
+            let groups = frame.label_column(column)?;
+            let used: Vec<Option<String>> = design.rows_used.iter().map(|&r| groups[r].clone()).collect();
+            group_labels(&used, &xs, &ys)
+        }
+        None => Vec::new(),
+    };
     let places = PlaceIndex::new(options.coordinates, &xs, &ys)?;
     let data = LocalData { rows: &rows, target: &target, places: &places };
     let (bandwidth, trace) = match options.bandwidth {
@@ -302,6 +334,8 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
             moran: moran_test(&global.solution().residuals, &neighbours, MoranAssumption::Randomisation)?,
         },
         variation: Vec::new(),
+        labels,
+        holdout: None,
         rows: local_rows,
         data: frame.provenance().clone(),
     };
@@ -405,6 +439,12 @@ impl LocalFit {
     /// kernel and bandwidth; shuffles seeded by `seed`, so reruns agree).
     /// The p-value is `(1 + #{shuffled ≥ observed}) / (1 + permutations)`.
     /// Each shuffle costs a local fit.
+    ///
+    /// The intercept is tested as the local level of the average sale,
+    /// `x̄ᵀβᵢ` (x̄ the sales' mean design row), not as its raw estimate: the
+    /// raw intercept is a value at zero for every term, far outside the data,
+    /// so its variance is mostly the slopes' noise times the terms' means and
+    /// grows when places are shuffled, hiding a level that truly varies.
     pub fn variation_test(&self, permutations: usize, seed: u64) -> Result<Vec<VariationTest>> {
         if permutations == 0 {
             return Err(Error::OutOfRange {
@@ -414,7 +454,8 @@ impl LocalFit {
             });
         }
         let k = self.summary.terms.len();
-        let observed = variances(&self.summary.rows.iter().map(|r| r.coefficients.clone()).collect::<Vec<_>>(), k);
+        let statistic = self.variation_statistic();
+        let observed = variances(&self.summary.rows.iter().map(|r| statistic(&r.coefficients)).collect::<Vec<_>>(), k);
         let mut at_least = vec![0usize; k];
         let n = self.target.len();
         let options = &self.summary.options;
@@ -428,7 +469,8 @@ impl LocalFit {
                 self.summary.bandwidth,
                 |i| self.summary.rows[i].row - 1,
             )?;
-            let shuffled_variances = variances(&points.iter().map(|p| p.coefficients.clone()).collect::<Vec<_>>(), k);
+            let shuffled_variances =
+                variances(&points.iter().map(|p| statistic(&p.coefficients)).collect::<Vec<_>>(), k);
             for p in 0..k {
                 if shuffled_variances[p] >= observed[p] {
                     at_least[p] += 1;
@@ -450,13 +492,33 @@ impl LocalFit {
     }
 }
 
+impl LocalFit {
+    /// What the variation test measures of one sale's local coefficients:
+    /// each slope as estimated, and in the intercept's place the local level
+    /// of the average sale, `x̄ᵀβᵢ` (see [`LocalFit::variation_test`]).
+    fn variation_statistic(&self) -> impl Fn(&[f64]) -> Vec<f64> + '_ {
+        let k = self.summary.terms.len();
+        let n = self.design_rows.len().max(1) as f64;
+        let mean_row: Vec<f64> = (0..k).map(|p| self.design_rows.iter().map(|r| r[p]).sum::<f64>() / n).collect();
+        let intercept = self.summary.terms.iter().position(|t| t == crate::model::design::INTERCEPT_NAME);
+        move |coefficients: &[f64]| {
+            let mut measured = coefficients.to_vec();
+            if let Some(i) = intercept {
+                measured[i] = mean_row.iter().zip(coefficients).map(|(x, b)| x * b).sum();
+            }
+            measured
+        }
+    }
+}
+
 /// Whether one coefficient varies over space (see [`LocalFit::variation_test`]).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
 pub struct VariationTest {
     /// The term.
     pub term: String,
-    /// Variance of its local estimates over the sales.
+    /// Variance of its local estimates over the sales (for the intercept, of
+    /// the local level of the average sale, `x̄ᵀβᵢ`).
     pub variance: f64,
     /// Monte Carlo p-value against shuffled places.
     pub p_value: f64,

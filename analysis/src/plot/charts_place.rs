@@ -11,7 +11,7 @@
 //! into the paper. The scale is clipped at ±2.5 residual standard deviations
 //! so that a few wild sales do not wash out the pattern.
 
-use super::canvas::{axes_with, render, Area, AxisTicks};
+use super::canvas::{axes_with, render, Area, AxisTicks, Chart};
 use super::plot_error;
 use super::theme::{format_tick, ACCENT, FONT, INK, POINT, SOFT};
 use super::{PlotSize, Svg};
@@ -21,11 +21,9 @@ use crate::error::Result;
 use crate::fit::Fit;
 use crate::local::LocalSummary;
 use crate::spatial::geodesy::MEAN_EARTH_RADIUS_KM;
-use crate::spatial::Coordinates;
-use crate::stats::median_of_sorted;
+use crate::spatial::{group_labels, Coordinates, PlaceLabel};
 use crate::value::{ratio_study, ratio_tiers, RatioOptions, TierBasis};
 use plotters::prelude::*;
-use std::collections::BTreeMap;
 
 /// The colour of a miss `t` in residual standard deviations (clipped at ±2.5).
 fn miss_colour(t: f64) -> RGBColor {
@@ -51,6 +49,14 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
     let mut places = fit.places(frame, options)?;
     let (axis_names, projection) =
         map_axes(&mut places.xs, &mut places.ys, options.coordinates, &options.x_column, &options.y_column);
+    // Labels from the projected places: the median commutes with the projection.
+    let labels = match &places.groups {
+        Some(groups) => {
+            let groups: Vec<Option<String>> = groups.iter().cloned().map(Some).collect();
+            group_labels(&groups, &places.xs, &places.ys)
+        }
+        None => Vec::new(),
+    };
     let projection_note = projection.map_or_else(String::new, |projection| {
         format!(
             " Longitude and latitude drawn on an equirectangular projection about latitude {:.4}°; east–west \
@@ -82,23 +88,7 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
                     Circle::new((places.xs[i], places.ys[i]), radius, miss_colour(residuals[i] / sd).filled())
                 }))
                 .map_err(plot_error)?;
-            if let Some(groups) = &places.groups {
-                let mut members: BTreeMap<&str, (Vec<f64>, Vec<f64>)> = BTreeMap::new();
-                for (i, g) in groups.iter().enumerate() {
-                    let entry = members.entry(g.as_str()).or_default();
-                    entry.0.push(places.xs[i]);
-                    entry.1.push(places.ys[i]);
-                }
-                let label_style = (FONT, 13).into_font().color(&INK);
-                for (group, (mut xs, mut ys)) in members {
-                    xs.sort_by(f64::total_cmp);
-                    ys.sort_by(f64::total_cmp);
-                    let (Some(x), Some(y)) = (median_of_sorted(&xs), median_of_sorted(&ys)) else { continue };
-                    chart
-                        .draw_series(std::iter::once(Text::new(group.to_string(), (x, y), label_style.clone())))
-                        .map_err(plot_error)?;
-                }
-            }
+            draw_labels(&mut chart, &labels)?;
             // The key, bottom right below the plot: five swatches from
             // valued high to valued low.
             draw_key(area, 200, 26, [-2.5, -1.25, 0.0, 1.25, 2.5], miss_colour, ("valued high", 48), "valued low")?;
@@ -137,6 +127,17 @@ fn map_axes(
         format!("km north of {:.4}° (from {y_column})", projection.lat0),
     );
     (titles, Some(projection))
+}
+
+/// Writes each label's name centred on its place (already in the chart's
+/// coordinates), in bold so that it reads over the points.
+fn draw_labels(chart: &mut Chart<'_, '_>, labels: &[PlaceLabel]) -> Result<()> {
+    use plotters::style::text_anchor::{HPos, Pos, VPos};
+    let style = (FONT, 13, FontStyle::Bold).into_font().color(&INK).pos(Pos::new(HPos::Center, VPos::Center));
+    chart
+        .draw_series(labels.iter().map(|label| Text::new(label.name.clone(), (label.x, label.y), style.clone())))
+        .map_err(plot_error)?;
+    Ok(())
 }
 
 /// A map's colour key, bottom right below the plot: five swatches coloured
@@ -310,7 +311,8 @@ fn coefficient_colour(t: f64) -> RGBColor {
 /// Every sale of a local fit at its place, coloured by its local estimate of
 /// `term` against the global model's: ochre where the local coefficient is
 /// above the global one, blue-green where below, by up to two standard
-/// deviations of the local estimates. Geographic places are projected as on
+/// deviations of the local estimates; the fit's location groups
+/// ([`crate::local::LocalOptions::labelled_by`]) written at their middle. Geographic places are projected as on
 /// [`residual_map`], and the chart says so.
 pub fn local_coefficient_map(fit: &LocalSummary, term: &str, size: PlotSize) -> Result<Svg> {
     let Some(p) = fit.terms.iter().position(|t| t == term) else {
@@ -329,12 +331,20 @@ pub fn local_coefficient_map(fit: &LocalSummary, term: &str, size: PlotSize) -> 
     let options = &fit.options;
     let (axis_names, projection) =
         map_axes(&mut xs, &mut ys, options.coordinates, &options.x_column, &options.y_column);
-    let projection_note = projection.map_or_else(String::new, |projection| {
+    let projection_note = projection.as_ref().map_or_else(String::new, |projection| {
         format!(
             " Longitude and latitude drawn on an equirectangular projection about latitude {:.4}°.",
             projection.lat0
         )
     });
+    let labels: Vec<PlaceLabel> = fit
+        .labels
+        .iter()
+        .map(|label| {
+            let (x, y) = projection.as_ref().map_or((label.x, label.y), |p| p.project(label.x, label.y));
+            PlaceLabel { name: label.name.clone(), x, y }
+        })
+        .collect();
     let (x_range, y_range) = equal_scale(&xs, &ys, size);
     let title = format!("Local {term} across the map");
     let markup =
@@ -348,6 +358,7 @@ pub fn local_coefficient_map(fit: &LocalSummary, term: &str, size: PlotSize) -> 
                     Circle::new((xs[i], ys[i]), radius, coefficient_colour((values[i] - global) / sd).filled())
                 }))
                 .map_err(plot_error)?;
+            draw_labels(&mut chart, &labels)?;
             draw_key(area, 230, 60, [-2.0, -1.0, 0.0, 1.0, 2.0], coefficient_colour, ("below global", 12), "above")?;
             Ok(())
         })?;

@@ -1,6 +1,7 @@
 //! A local (geographically weighted) fit as people read it: the bandwidth
 //! and how it was chosen, the local and global models side by side (AICc,
-//! residual sum of squares, Moran's I of the residuals), and each
+//! residual sum of squares, Moran's I of the residuals, and, when scored,
+//! the ratio figures on held-out sales), and each
 //! coefficient's spread over the sales against its global estimate.
 
 use super::bundle::{MimeBundle, Report};
@@ -24,7 +25,7 @@ fn bandwidth_line(fit: &LocalSummary) -> String {
 }
 
 fn comparison_rows(fit: &LocalSummary) -> Vec<[String; 3]> {
-    vec![
+    let mut rows = vec![
         ["AICc".into(), format_significant(fit.aicc, 7), format_significant(fit.global.aicc, 7)],
         ["residual sum of squares".into(), format_significant(fit.rss, 6), format_significant(fit.global.rss, 6)],
         ["effective parameters".into(), format_significant(fit.effective_parameters, 5), format_count(fit.terms.len())],
@@ -37,7 +38,31 @@ fn comparison_rows(fit: &LocalSummary) -> Vec<[String; 3]> {
                 format_p_value(Some(fit.global.moran.p_value))
             ),
         ],
-    ]
+    ];
+    if let Some(held) = &fit.holdout {
+        let (l, g) = (&held.local, &held.global);
+        rows.extend([
+            [
+                format!("held-out sales valued (of {})", format_count(held.sales)),
+                format_count(l.valued),
+                format_count(g.valued),
+            ],
+            ["held-out median ratio".into(), format!("{:.3}", l.median_ratio), format!("{:.3}", g.median_ratio)],
+            ["held-out COD".into(), format!("{:.1}", l.cod), format!("{:.1}", g.cod)],
+            ["held-out PRD".into(), format!("{:.3}", l.prd), format!("{:.3}", g.prd)],
+            ["held out within ±10 % of price".into(), share(l.within_10), share(g.within_10)],
+        ]);
+    }
+    rows
+}
+
+fn share(fraction: f64) -> String {
+    format!("{:.1} %", 100.0 * fraction)
+}
+
+/// Where the held-out sales came from, when the fit was scored on some.
+fn holdout_line(fit: &LocalSummary) -> Option<String> {
+    fit.holdout.as_ref().map(|h| format!("held out (fitted by neither model): {}", h.holdout_source))
 }
 
 /// The local fit as aligned text.
@@ -49,16 +74,19 @@ pub fn local_text(fit: &LocalSummary) -> String {
         bandwidth_line(fit),
         fit.data.describe()
     );
-    out.push_str(&format!("  {:<30} {:>16} {:>16}\n", "", "local", "global"));
+    if let Some(line) = holdout_line(fit) {
+        out.push_str(&format!("  {line}\n\n"));
+    }
+    out.push_str(&format!("  {:<34} {:>16} {:>16}\n", "", "local", "global"));
     for [name, local, global] in comparison_rows(fit) {
-        out.push_str(&format!("  {name:<30} {local:>16} {global:>16}\n"));
+        out.push_str(&format!("  {name:<34} {local:>16} {global:>16}\n"));
     }
     out.push_str(&format!(
         "  residual df {} · σ̂ {}\n\nHow each coefficient varies over the sales\n",
         format_significant(fit.residual_df, 6),
         format_significant(fit.sigma, 5)
     ));
-    let width = fit.terms.iter().map(|t| t.chars().count()).max().unwrap_or(4).clamp(8, 28);
+    let width = fit.terms.iter().map(|t| t.chars().count()).max().unwrap_or(4).max(8);
     out.push_str(&format!(
         "  {:<width$} {:>11} {:>11} {:>11} {:>11} {:>11} {:>11}  beyond 2 se\n",
         "term", "global", "min", "lower q.", "median", "upper q.", "max"
@@ -82,10 +110,11 @@ pub fn local_text(fit: &LocalSummary) -> String {
             "\nDoes each coefficient vary over space? (places shuffled {} times)\n",
             fit.variation[0].permutations
         ));
+        let width = fit.variation.iter().map(|t| variation_label(&t.term).chars().count()).max().unwrap_or(8);
         for t in &fit.variation {
             out.push_str(&format!(
                 "  {:<width$} variance of local estimates {:>11}   p = {}\n",
-                t.term,
+                variation_label(&t.term),
                 format_significant(t.variance, 4),
                 format_p_value(Some(t.p_value))
             ));
@@ -93,6 +122,16 @@ pub fn local_text(fit: &LocalSummary) -> String {
     }
     out.push_str(&format!("\n  {SOURCE}\n\n{VALUATION_CAUTION}\n"));
     out
+}
+
+/// A term's name in the variation test's table: the intercept is tested as
+/// the local level of the average sale (see `LocalFit::variation_test`).
+fn variation_label(term: &str) -> String {
+    if term == crate::model::design::INTERCEPT_NAME {
+        format!("{term} (level of the average sale)")
+    } else {
+        term.to_string()
+    }
 }
 
 /// The local fit as an HTML card with the map of the first slope.
@@ -105,6 +144,9 @@ pub fn local_html(fit: &LocalSummary) -> String {
         escape(&bandwidth_line(fit)),
         escape(&fit.data.describe())
     ));
+    if let Some(line) = holdout_line(fit) {
+        out.push_str(&format!("<div style=\"{SUBTLE}\">{}</div>\n", escape(&line)));
+    }
     let rows: Vec<Vec<String>> =
         comparison_rows(fit).into_iter().map(|r| r.iter().map(|c| escape(c)).collect()).collect();
     table(&mut out, &["", "local", "global"], &[false, true, true], &rows);
@@ -128,7 +170,13 @@ pub fn local_html(fit: &LocalSummary) -> String {
         let rows: Vec<Vec<String>> = fit
             .variation
             .iter()
-            .map(|t| vec![escape(&t.term), format_significant(t.variance, 4), format_p_value(Some(t.p_value))])
+            .map(|t| {
+                vec![
+                    escape(&variation_label(&t.term)),
+                    format_significant(t.variance, 4),
+                    format_p_value(Some(t.p_value)),
+                ]
+            })
             .collect();
         out.push_str(&format!(
             "<div style=\"margin-top:8px\"><b>Does each coefficient vary over space?</b> <span style=\"{SUBTLE}\">places shuffled {} times</span></div>\n",

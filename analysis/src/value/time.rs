@@ -7,7 +7,9 @@ use crate::model::{TargetTransform, Term};
 use chrono::NaiveDate;
 
 /// How to bring a logged model's estimate back to prices.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+#[cfg_attr(feature = "json-schema", derive(schemars::JsonSchema))]
+#[serde(rename_all = "kebab-case")]
 pub enum Retransform {
     /// `exp(ŷ)`: the median price.
     Median,

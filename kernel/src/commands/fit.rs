@@ -489,6 +489,9 @@ pub fn local_options(args: &FitArgs, places: &str) -> Result<plumbline::local::L
     if args.spatial.coordinates == CoordinatesArg::Geographic {
         options = options.geographic();
     }
+    if let Some(column) = &args.spatial.location_groups {
+        options = options.labelled_by(column.as_str());
+    }
     options.kernel = match args.kernel {
         KernelArg::AdaptiveBisquare => Kernel::AdaptiveBisquare,
         KernelArg::FixedGaussian => Kernel::FixedGaussian,

@@ -7,7 +7,8 @@
 //! ```text
 //! ln(price) = 7.15 + 0.62·ln(living_area) + 0.11·ln(lot_size) − 0.0042·age
 //!           + 0.085·(quality − 3) + 0.045·bathrooms + district effect
-//!           + 0.0040·months − 0.040·distance + ε,
+//!           + 0.0040·months − 0.040·distance
+//!           + (age coefficient(r) + 0.0042)·(age − 60) + ε,
 //! ε ~ Normal(0, σᵢ),  σᵢ = 0.085 · (living_area / 1800)^0.35   (heteroskedastic)
 //! ```
 //!
@@ -33,6 +34,28 @@
 //! each district's average distance, so a district-only model leaves a smooth
 //! spatial pattern in its residuals; a distance term removes it. The truth
 //! file records the surface.
+//!
+//! **Age near a district's core.** Every district grew around an old core at
+//! the centre of its square. Near the core, older homes hold their value
+//! (character houses, mature trees); toward the district's edge, among the
+//! newer estates, each year of age costs more. The age coefficient varies
+//! over the map with the distance `r` (km) from the parcel's district centre:
+//!
+//! ```text
+//! age coefficient(r) = −0.0042 − 0.0020·(r − r̄),   r̄ = 3·(√2 + asinh 1)/6 ≈ 1.148 km
+//! ```
+//!
+//! (`r̄` is the mean distance from the centre of a 3 km square to a point
+//! drawn uniformly in it, so the coefficient averages the town's −0.0042 in
+//! every district: −0.0019 at a core, −0.0061 at a district's corner.) The
+//! variation pivots on an age of 60 years: the term added to ln(price) is
+//! `(coefficient(r) + 0.0042)·(age − 60)`, so a home of 60 years is priced
+//! alike anywhere in its district, a new one is dearer at the edge and an old
+//! one dearer near the core. Because ages are drawn independently of places,
+//! a model with one age coefficient estimates the town's −0.0042 and leaves
+//! no spatial pattern in its residuals' mean, and the per-district models of
+//! the market-areas study share the same average slope; only a local fit can
+//! see the variation. The truth file records the surface.
 //!
 //! `months` counts from 1 January 2023 the way Plumbline's months-since date
 //! term does: whole calendar months plus the day's fraction of its month,
@@ -91,6 +114,30 @@ const LANTERN_GREEN: (f64, f64) = (4.5, 3.0);
 const DISTRICT_CORNERS: [(f64, f64); 6] = [(3.0, 0.0), (3.0, 3.0), (0.0, 0.0), (6.0, 3.0), (6.0, 0.0), (0.0, 3.0)];
 /// Side of a district's square, km.
 const DISTRICT_SIDE: f64 = 3.0;
+/// Change of the age coefficient per km from the district's core (its
+/// square's centre): the yearly decline steepens toward the district's edge.
+const AGE_COEFFICIENT_PER_KM_FROM_CORE: f64 = -0.0020;
+/// The age (years) at which the varying age coefficient changes nothing.
+const AGE_PIVOT: f64 = 60.0;
+
+/// Mean distance (km) from the centre of a district's square to a point drawn
+/// uniformly in it: side·(√2 + asinh 1)/6, the classical mean distance from
+/// the centre of a square (for the unit square 0.3826…).
+fn mean_distance_to_core() -> f64 {
+    DISTRICT_SIDE * (std::f64::consts::SQRT_2 + 1f64.asinh()) / 6.0
+}
+
+/// Centre (km) of a district's square: its old core.
+fn district_core(district: usize) -> (f64, f64) {
+    let (corner_x, corner_y) = DISTRICT_CORNERS[district];
+    (corner_x + DISTRICT_SIDE / 2.0, corner_y + DISTRICT_SIDE / 2.0)
+}
+
+/// The true age coefficient (per year, in ln price) at a place `distance_to_core`
+/// km from its district's core; it averages −`TRUE_AGE_DECLINE` over a district.
+fn age_coefficient_at(distance_to_core: f64) -> f64 {
+    -TRUE_AGE_DECLINE + AGE_COEFFICIENT_PER_KM_FROM_CORE * (distance_to_core - mean_distance_to_core())
+}
 
 /// The true model as a JSON document whose coefficient names are the design
 /// columns a Plumbline fit of the same specification produces (quality enters
@@ -110,11 +157,20 @@ fn truth_json() -> String {
     terms.push(("sale_date (months since 2023-01-01)".to_string(), TRUE_MONTHLY_TREND));
     terms.push(("distance from Lantern Green".to_string(), TRUE_DISTANCE_PER_KM));
     let body: Vec<String> = terms.iter().map(|(name, value)| format!("    \"{name}\": {value}")).collect();
+    let cores: Vec<String> = (0..DISTRICTS.len())
+        .map(|d| {
+            let (x, y) = district_core(d);
+            format!("      {{ \"district\": \"{}\", \"x\": {x}, \"y\": {y} }}", DISTRICTS[d].0)
+        })
+        .collect();
     format!(
-        "{{\n  \"target\": \"log(sale_price)\",\n  \"reference_district\": \"{}\",\n  \"next_quarter_log_shift\": {NEXT_QUARTER_SHIFT},\n  \"location_surface\": {{\n    \"form\": \"linear in the straight-line distance from a point\",\n    \"point\": {{ \"name\": \"Lantern Green\", \"x\": {}, \"y\": {} }},\n    \"coordinate_units\": \"km\",\n    \"log_price_per_km\": {TRUE_DISTANCE_PER_KM}\n  }},\n  \"coefficients\": {{\n{}\n  }}\n}}\n",
+        "{{\n  \"target\": \"log(sale_price)\",\n  \"reference_district\": \"{}\",\n  \"next_quarter_log_shift\": {NEXT_QUARTER_SHIFT},\n  \"location_surface\": {{\n    \"form\": \"linear in the straight-line distance from a point\",\n    \"point\": {{ \"name\": \"Lantern Green\", \"x\": {}, \"y\": {} }},\n    \"coordinate_units\": \"km\",\n    \"log_price_per_km\": {TRUE_DISTANCE_PER_KM}\n  }},\n  \"varying_coefficient\": {{\n    \"term\": \"age\",\n    \"form\": \"coefficient = town_average + per_km_from_core * (r - mean_distance_to_core_km), r the distance in km from the parcel's district core; the term added to ln(price) is (coefficient - town_average) * (age - pivot_age)\",\n    \"town_average\": {},\n    \"per_km_from_core\": {AGE_COEFFICIENT_PER_KM_FROM_CORE},\n    \"mean_distance_to_core_km\": {},\n    \"pivot_age\": {AGE_PIVOT},\n    \"cores\": [\n{}\n    ]\n  }},\n  \"coefficients\": {{\n{}\n  }}\n}}\n",
         DISTRICTS[0].0,
         LANTERN_GREEN.0,
         LANTERN_GREEN.1,
+        -TRUE_AGE_DECLINE,
+        mean_distance_to_core(),
+        cores.join(",\n"),
         body.join(",\n")
     )
 }
@@ -192,9 +248,18 @@ fn log_price(p: &Property, months: f64, sale_year: i32, rng: &mut ChaCha20Rng, s
         + DISTRICTS[p.district].1
         + TRUE_MONTHLY_TREND * months
         + TRUE_DISTANCE_PER_KM * (p.x - LANTERN_GREEN.0).hypot(p.y - LANTERN_GREEN.1)
+        + age_variation(p, age)
         + shift;
     let sigma = 0.085 * (p.living_area / 1800.0).powf(0.35);
     mean + Normal::new(0.0, sigma).expect("valid sd").sample(rng)
+}
+
+/// The varying part of the age effect: (coefficient(r) − town average)·(age − pivot),
+/// r the distance from the property's district core (see the module documentation).
+fn age_variation(p: &Property, age: f64) -> f64 {
+    let (core_x, core_y) = district_core(p.district);
+    let distance_to_core = (p.x - core_x).hypot(p.y - core_y);
+    (age_coefficient_at(distance_to_core) + TRUE_AGE_DECLINE) * (age - AGE_PIVOT)
 }
 
 /// (year, month, day) of month index `m` (0 = January 2023) and a day.
