@@ -23,6 +23,7 @@
 //! | value roll | [`Versioned`]`<`[`ValueRoll`]`>` | `plumbline.value-roll` | 2 | [`crate::schema::VALUE_ROLL_JSON_MIME`] |
 //! | sales-chasing check | [`Versioned`]`<`[`SalesChasingCheck`]`>` | `plumbline.sales-chasing` | 1 | [`crate::schema::SALES_CHASING_JSON_MIME`] |
 //! | local fit | [`Versioned`]`<`[`LocalSummary`]`>` | `plumbline.local-fit` | 2 | [`crate::schema::LOCAL_FIT_JSON_MIME`] |
+//! | appeal pages | [`Versioned`]`<`[`ParcelPages`]`>` | `plumbline.parcel-pages` | 1 | [`crate::schema::PARCEL_PAGES_JSON_MIME`] |
 //! | models by group | [`Versioned`]`<`[`StratifiedSummary`]`>` | `plumbline.stratified-fit` | 1 | [`crate::schema::STRATIFIED_FIT_JSON_MIME`] |
 //!
 //! The later documents share one wrapper, [`Versioned`], whose name and
@@ -32,6 +33,7 @@
 //! The run record of `plumbline run` lives in the kernel crate, beside the
 //! notebook it describes.
 
+use crate::appeal::ParcelPages;
 use crate::compare::{Comparison, CrossValidationResult, NestedTest};
 use crate::data::Provenance;
 use crate::diagnose::{Collinearity, Influence, RowFlags, SpatialCheck, TestResult};
@@ -40,8 +42,9 @@ use crate::inference::FitSummary;
 use crate::local::LocalSummary;
 use crate::predict::Predictions;
 use crate::schema::{
-    HOLDOUT_ACCURACY_JSON_MIME, LOCAL_FIT_JSON_MIME, PRICE_TIERS_JSON_MIME, SALES_CHASING_JSON_MIME,
-    SPATIAL_CHECK_JSON_MIME, STRATIFIED_FIT_JSON_MIME, VALUE_ACCURACY_JSON_MIME, VALUE_ROLL_JSON_MIME,
+    HOLDOUT_ACCURACY_JSON_MIME, LOCAL_FIT_JSON_MIME, PARCEL_PAGES_JSON_MIME, PRICE_TIERS_JSON_MIME,
+    SALES_CHASING_JSON_MIME, SPATIAL_CHECK_JSON_MIME, STRATIFIED_FIT_JSON_MIME, VALUE_ACCURACY_JSON_MIME,
+    VALUE_ROLL_JSON_MIME,
 };
 use crate::strata::StratifiedSummary;
 use crate::value::{HoldoutAccuracy, RatioStudy, SalesChasingCheck, TierStudy, ValueAccuracy, ValueRoll};
@@ -289,6 +292,7 @@ document_kind!(HoldoutAccuracy, "plumbline.holdout-accuracy", 1, HOLDOUT_ACCURAC
 // Value roll 2: a parcel without a value may say why (`not_valued`); version 1 reads unchanged.
 document_kind!(ValueRoll, "plumbline.value-roll", 2, VALUE_ROLL_JSON_MIME, "value-roll");
 document_kind!(SalesChasingCheck, "plumbline.sales-chasing", 1, SALES_CHASING_JSON_MIME, "sales-chasing");
+document_kind!(ParcelPages, "plumbline.parcel-pages", 1, PARCEL_PAGES_JSON_MIME, "parcel-pages");
 document_kind!(StratifiedSummary, "plumbline.stratified-fit", 1, STRATIFIED_FIT_JSON_MIME, "stratified-fit");
 // Local fit 2: both models scored on held-out sales (`holdout`), when asked
 // for; version 1 documents read unchanged.

@@ -33,6 +33,7 @@
 //! | [`local`] | geographically weighted regression: local coefficients at every sale, bandwidth by AICc |
 //! | [`compare`] | nested tests, side-by-side tables, cross-validation, holdout splits |
 //! | [`value`] | ratio studies, price tiers, value accuracy, sales-chasing check, sale-date adjustment, model values and the value roll |
+//! | [`appeal`] | one parcel's value built up from a reference home, and comparable sales adjusted to it by the model (the appeal page's content) |
 //! | [`strata`] | one model per market area (or any grouping column), the pooled models, the F tests of equal coefficients, valuing by group |
 //! | [`documents`] | the JSON documents we write, as types, and how each is read back |
 //! | [`drift`] | what moved between two runs of a study |
@@ -43,6 +44,7 @@
 #![warn(missing_docs)]
 
 pub mod accuracy;
+pub mod appeal;
 pub mod compare;
 pub mod data;
 pub mod diagnose;

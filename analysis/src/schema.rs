@@ -22,6 +22,8 @@ pub const HOLDOUT_ACCURACY_JSON_MIME: &str = "application/vnd.plumbline.holdout-
 pub const VALUE_ROLL_JSON_MIME: &str = "application/vnd.plumbline.value-roll+json";
 /// MIME type of a set of models fitted within each group of a column.
 pub const STRATIFIED_FIT_JSON_MIME: &str = "application/vnd.plumbline.stratified-fit+json";
+/// MIME type of the appeal pages document (`plumbline.parcel-pages`).
+pub const PARCEL_PAGES_JSON_MIME: &str = "application/vnd.plumbline.parcel-pages+json";
 /// MIME type of a local (geographically weighted) fit.
 pub const LOCAL_FIT_JSON_MIME: &str = "application/vnd.plumbline.local-fit+json";
 /// MIME type of the sales-chasing check between two runs.

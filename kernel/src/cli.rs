@@ -28,6 +28,9 @@ pub enum Command {
     /// Fit a model to the sales, then value every parcel of a (large) parcel
     /// file in batches, writing estimates and intervals to CSV or Parquet.
     Value(Box<ValueArgs>),
+    /// One printable page per parcel for an appeal: the value built up from a
+    /// typical home, and comparable sales adjusted to the parcel by the model.
+    Appeal(Box<AppealArgs>),
     /// Execute a study notebook headlessly; save the executed notebook and an HTML report.
     Run(RunArgs),
     /// What moved between two runs: fit JSON files or executed notebooks.
@@ -390,6 +393,57 @@ pub struct ValueArgs {
     /// Parcels read and valued per batch (memory is bounded by one batch).
     #[arg(long, value_name = "N", default_value_t = 100_000)]
     pub parcel_batch_rows: usize,
+}
+
+/// Arguments of `plumbline appeal`.
+#[derive(Debug, Args)]
+pub struct AppealArgs {
+    /// The study's sales and the model, exactly as for `plumbline fit`
+    /// (in memory); `--id` names the parcel id column of the sales and the
+    /// parcels. `--format text|json|html` prints the pages.
+    #[command(flatten)]
+    pub fit: FitArgs,
+    /// The parcel file (the roll): the model's term columns and the id column.
+    #[arg(long, value_name = "FILE")]
+    pub parcels: PathBuf,
+    /// A parcel to explain, by id (repeatable).
+    #[arg(long = "parcel", value_name = "ID")]
+    pub parcel: Vec<String>,
+    /// A CSV file listing parcels to explain, one id per row in the `--id` column.
+    #[arg(long, value_name = "FILE")]
+    pub parcel_list: Option<PathBuf>,
+    /// The sales' date column (the model's time trend reads it).
+    #[arg(long, value_name = "COL", default_value = "sale_date")]
+    pub date_column: String,
+    /// The date every value is estimated for (YYYY-MM-DD).
+    #[arg(long, value_name = "DATE")]
+    pub valuation_date: String,
+    /// Comparables only from the subject's own group of this column (its market area).
+    #[arg(long, value_name = "COL")]
+    pub market_area: Option<String>,
+    /// Parcel places, X,Y columns (planar unless `--coordinates geographic`):
+    /// distances are shown, and `--max-distance` applies.
+    #[arg(long, value_name = "X,Y")]
+    pub places: Option<String>,
+    /// The unit of planar places, as the pages write distances (e.g. km, m, ft).
+    #[arg(long, value_name = "UNIT")]
+    pub distance_unit: Option<String>,
+    /// Comparables only within this distance of the subject (the places'
+    /// units; km for geographic places).
+    #[arg(long, value_name = "D")]
+    pub max_distance: Option<f64>,
+    /// Comparables only from sales in this many months before the valuation date.
+    #[arg(long, value_name = "N", default_value_t = 24)]
+    pub months_back: u32,
+    /// Comparables shown per parcel.
+    #[arg(long, value_name = "N", default_value_t = 5)]
+    pub comparables: usize,
+    /// Build each value up from this parcel instead of the typical home of the sales.
+    #[arg(long, value_name = "ID")]
+    pub reference_parcel: Option<String>,
+    /// Also write the pages as a standalone, printable HTML file.
+    #[arg(long, value_name = "PAGES.html")]
+    pub html: Option<PathBuf>,
 }
 
 /// Arguments of `plumbline ratio`.

@@ -46,6 +46,7 @@ fn main() -> ExitCode {
         Command::Compare(args) => commands::compare::run(&args),
         Command::Ratio(args) => commands::ratio::run(&args),
         Command::Value(args) => commands::value::run(&args),
+        Command::Appeal(args) => commands::appeal::run(&args),
         Command::Run(args) => commands::run::run(&args, config),
         Command::Diff(args) => commands::diff::run(&args),
         Command::Accuracy(args) => commands::accuracy::run(&args),

@@ -40,6 +40,7 @@ fn generated_schemas() -> Vec<(&'static str, schemars::Schema)> {
         ("value-roll.schema.json", schemars::schema_for!(Versioned<ValueRoll>)),
         ("sales-chasing.schema.json", schemars::schema_for!(Versioned<SalesChasingCheck>)),
         ("stratified-fit.schema.json", schemars::schema_for!(Versioned<StratifiedSummary>)),
+        ("parcel-pages.schema.json", schemars::schema_for!(Versioned<plumbline::appeal::ParcelPages>)),
         ("local-fit.schema.json", schemars::schema_for!(Versioned<plumbline::local::LocalSummary>)),
     ]
 }

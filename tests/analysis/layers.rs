@@ -32,8 +32,9 @@ const LAYERS: &[&[&str]] = &[
     // Uses of a fit, side by side.
     &["predict", "diagnose", "compare", "value", "accuracy"],
     // Models built from many fits: by group (per-group fits, pooled models, equality
-    // tests, valuing by group) and over the map (local fits).
-    &["strata", "local"],
+    // tests, valuing by group), over the map (local fits), and one parcel explained
+    // with comparable sales adjusted by a model (appeal pages).
+    &["strata", "local", "appeal"],
     // Charts, and the documents we write (each read back through its type).
     &["plot", "documents"],
     // What moved between two runs, read from their documents.

@@ -178,3 +178,135 @@ fn holdout_accuracy_scores_each_part_with_the_training_fit() {
     assert_eq!(result.holdout.count, holdout.height());
     assert_eq!(result.split, "months ≥ 9");
 }
+
+/// The demo study's chosen model E (valuation-study.ipynb, section 7) with
+/// its sales and subjects, for the appeal pages.
+fn demo_model_e() -> (Frame, Fit, Frame) {
+    let sales = plumbline_tests::demo_study_sales();
+    let spec =
+        plumbline_tests::demo_model_c().term(Term::distance_from("x", "y", NamedPoint::new("Lantern Green", 4.5, 3.0)));
+    let model = fit_with(&sales, &spec, &FitOptions::with_covariance(CovarianceKind::Hc3)).expect("model E");
+    let subjects = load(plumbline_tests::demo_sales_csv().with_file_name("subjects.csv")).expect("subjects");
+    (sales, model, subjects)
+}
+
+fn demo_page_options() -> plumbline::appeal::PageOptions {
+    plumbline::appeal::PageOptions::new("parcel_id", "sale_date", "2026-01-01").market_area("district").places(
+        "x",
+        "y",
+        plumbline::spatial::Coordinates::Planar,
+    )
+}
+
+/// The build-up sums to the value (appeal::build_up): every page's reference
+/// value plus its amounts is the model value, and the last running value is
+/// that value, to 1e-9 relative. External reference: the model's own
+/// prediction (`Fit::predict`, smearing mean; Duan 1983).
+#[test]
+fn every_page_builds_the_value_up_exactly_from_the_typical_home() {
+    let (sales, model, subjects) = demo_model_e();
+    let ids: Vec<String> = subjects.label_column("parcel_id").expect("ids").into_iter().flatten().collect();
+    let pages = plumbline::appeal::parcel_pages(&model, &sales, &subjects, &ids, &demo_page_options()).expect("pages");
+    let values =
+        model_values(&model, &subjects.with_date("sale_date", "2026-01-01").expect("date"), Retransform::SmearingMean)
+            .expect("values");
+    assert_eq!(pages.pages.len(), 40);
+    for (page, value) in pages.pages.iter().zip(&values) {
+        let value = value.expect("every subject is valued");
+        assert!((page.value - value).abs() <= 1e-9 * value, "{}: {} vs {value}", page.parcel_id, page.value);
+        let b = &page.build_up;
+        let total = b.reference.value + b.steps.iter().map(|s| s.amount).sum::<f64>();
+        assert!((total - value).abs() <= 1e-9 * value, "{}: {total} vs {value}", page.parcel_id);
+        let last = b.steps.last().expect("steps").running_value;
+        assert!((last - value).abs() <= 1e-9 * value);
+        assert!(page.interval.0 < page.value && page.value < page.interval.1);
+    }
+}
+
+/// A subject identical to a sale in every term gets that sale's price moved
+/// to the valuation date along the model's trend — exactly what
+/// `value::time_adjust` gives (`price · exp(b·Δmonths)`, the definition in
+/// `shared/reference/ratio-study.md`) — and no other adjustment.
+#[test]
+fn a_twin_of_a_sale_gets_its_time_adjusted_price_back() {
+    let (sales, model, _) = demo_model_e();
+    let dates = sales.date_column("sale_date").expect("dates");
+    let rows = &model.design().rows_used;
+    let row = *rows
+        .iter()
+        .find(|&&r| dates[r].is_some_and(|d| d.to_string().as_str() >= "2025-06-01"))
+        .expect("a recent sale");
+    let twin = sales.subset(&[row], "the twin").expect("row").with_text("parcel_id", "TWIN-1").expect("id");
+    let pages = plumbline::appeal::parcel_pages(&model, &sales, &twin, &["TWIN-1".to_string()], &demo_page_options())
+        .expect("page");
+    let adjusted = time_adjust(&model, &sales, "sale_date", "sale_price", "2026-01-01").expect("adjust");
+    let expected = adjusted[row].expect("adjusted price");
+    let chosen = &pages.pages[0].comparables.chosen[0];
+    assert_eq!(chosen.row, row + 1, "the twin's sale needs the least adjustment: {chosen:?}");
+    assert!((chosen.adjusted_price - expected).abs() <= 1e-9 * expected, "{} vs {expected}", chosen.adjusted_price);
+    let moved: Vec<&str> = chosen.adjustments.iter().filter(|a| a.amount != 0.0).map(|a| a.term.as_str()).collect();
+    assert_eq!(moved, vec!["sale_date (months since 2023-01-01)"]);
+    assert!(chosen.adjustments[0].time_trend);
+}
+
+/// Over-limit comparables are flagged and left out of the reconciled figure,
+/// and a subject with too few qualifying sales gets no figure and a reason
+/// (limits: 15 % net, 25 % gross, three comparables — common practice).
+#[test]
+fn over_limit_comparables_are_set_aside_and_too_few_are_said() {
+    let (sales, model, subjects) = demo_model_e();
+    let ids: Vec<String> = subjects.label_column("parcel_id").expect("ids").into_iter().flatten().collect();
+    let pages = plumbline::appeal::parcel_pages(&model, &sales, &subjects, &ids, &demo_page_options()).expect("pages");
+    let (mut flagged, mut short) = (0, 0);
+    for page in &pages.pages {
+        let c = &page.comparables;
+        for sale in &c.chosen {
+            let over = sale.net_share.abs() > 0.15 || sale.gross_share > 0.25;
+            assert_eq!(over, !sale.flags.is_empty(), "{}: {sale:?}", page.parcel_id);
+            if c.reconciled.is_some() {
+                assert_eq!(over, sale.weight.is_none(), "a qualifying sale carries weight, a flagged one none");
+            }
+            flagged += usize::from(over);
+        }
+        let qualifying = c.chosen.iter().filter(|s| s.flags.is_empty()).count();
+        match &c.reconciled {
+            Some(r) => {
+                assert!(qualifying >= 3 && r.qualifying == qualifying);
+                assert!(r.range.0 <= r.estimate && r.estimate <= r.range.1);
+                let weights: f64 = c.chosen.iter().filter_map(|s| s.weight).sum();
+                assert!((weights - 1.0).abs() < 1e-12);
+            }
+            None => {
+                short += 1;
+                assert!(qualifying < 3);
+                let reason = c.shortfall.as_deref().expect("a reason");
+                assert!(reason.contains("needs at least 3") && reason.contains("common practice"), "{reason}");
+            }
+        }
+    }
+    eprintln!("{flagged} comparables flagged over the 40 subjects; {short} subjects with too few");
+    assert!(flagged > 0 && short > 0, "the demo subjects include both cases");
+
+    // A distance no sale meets: nothing is eligible, and the page says so.
+    let mut narrow = demo_page_options();
+    narrow.rule.max_distance = Some(0.001);
+    let page = plumbline::appeal::parcel_pages(&model, &sales, &subjects, &ids[..1], &narrow).expect("page");
+    let c = &page.pages[0].comparables;
+    assert_eq!((c.eligible, c.chosen.len()), (0, 0));
+    assert!(c.reconciled.is_none() && c.shortfall.is_some());
+}
+
+/// Refusals: a parcel id not on the roll, and a sales frame other than the fit's.
+#[test]
+fn pages_refuse_an_unknown_parcel_and_a_different_sales_frame() {
+    let (sales, model, subjects) = demo_model_e();
+    let err = plumbline::appeal::parcel_pages(&model, &sales, &subjects, &["WM-999999".into()], &demo_page_options())
+        .expect_err("unknown parcel")
+        .to_string();
+    assert!(err.contains("WM-999999") && err.contains("parcel_id"), "{err}");
+    let other = sales.subset(&[0, 1, 2], "three sales").expect("subset");
+    let err = plumbline::appeal::parcel_pages(&model, &other, &subjects, &["WM-135021".into()], &demo_page_options())
+        .expect_err("not the fit's frame")
+        .to_string();
+    assert!(!err.is_empty());
+}

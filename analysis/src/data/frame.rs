@@ -96,6 +96,13 @@ impl Frame {
         self.with_filled_column(filled, date)
     }
 
+    /// A copy with the text column `column` holding `text` on every row
+    /// (added, or replacing its namesake).
+    pub fn with_text(&self, column: &str, text: &str) -> Result<Frame> {
+        let filled = polars::prelude::Column::new(column.into(), vec![text; self.height()]);
+        self.with_filled_column(filled, text)
+    }
+
     /// A copy with `filled` (one value on every row) added or replacing its
     /// namesake; the provenance notes `[column = shown]`.
     fn with_filled_column(&self, filled: polars::prelude::Column, shown: &str) -> Result<Frame> {

@@ -4,6 +4,7 @@
 //! a [`MimeBundle`] by the single display trait [`Report`].
 
 mod accuracy_table;
+mod appeal_page;
 #[macro_use]
 mod bundle;
 mod diagnostics_text;
@@ -25,6 +26,7 @@ mod text;
 mod valuation_checks;
 
 pub use accuracy_table::accuracy_table;
+pub use appeal_page::{parcel_pages_document, parcel_pages_html, parcel_pages_text};
 pub use bundle::{
     emit, CellValue, MimeBundle, Report, ShownInCells, COMPARISON_JSON_MIME, DRIFT_JSON_MIME, FIT_JSON_MIME,
     RATIO_JSON_MIME,
@@ -77,4 +79,5 @@ shown_in_cells!(
     crate::local::LocalFit,
     crate::local::LocalSummary,
     crate::strata::StratifiedSummary,
+    crate::appeal::ParcelPages,
 );

@@ -10,7 +10,12 @@ use plumbline::prelude::*;
 use std::collections::BTreeMap;
 
 /// Splits `COL<sep>VALUE`, naming the flag in the error.
-fn split_pair<'a>(text: &'a str, separator: char, flag: &str, shape: &str) -> Result<(&'a str, &'a str), CommandError> {
+pub(crate) fn split_pair<'a>(
+    text: &'a str,
+    separator: char,
+    flag: &str,
+    shape: &str,
+) -> Result<(&'a str, &'a str), CommandError> {
     text.split_once(separator)
         .map(|(a, b)| (a.trim(), b.trim()))
         .filter(|(a, b)| !a.is_empty() && !b.is_empty())
@@ -207,7 +212,7 @@ pub fn load_for_fit(args: &FitArgs, spec: &ModelSpec) -> Result<Frame, CommandEr
 }
 
 /// [`load_with_flags`], reading only `columns` where the format allows it.
-fn load_columns_with_flags(
+pub(crate) fn load_columns_with_flags(
     data: &std::path::Path,
     args: &InputFlags,
     source: Option<&SourceFlags>,

@@ -2,6 +2,7 @@
 //! [`CommandError`] to report on stderr.
 
 pub mod accuracy;
+pub mod appeal;
 pub mod compare;
 pub mod diff;
 pub mod fit;
