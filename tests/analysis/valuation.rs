@@ -300,12 +300,12 @@ fn over_limit_comparables_are_set_aside_and_too_few_are_said() {
 #[test]
 fn pages_refuse_an_unknown_parcel_and_a_different_sales_frame() {
     let (sales, model, subjects) = demo_model_e();
-    let err = plumbline::appeal::parcel_pages(&model, &sales, &subjects, &["WM-999999".into()], &demo_page_options())
+    let err = plumbline::appeal::parcel_pages(&model, &sales, &subjects, &["WM-999999"], &demo_page_options())
         .expect_err("unknown parcel")
         .to_string();
     assert!(err.contains("WM-999999") && err.contains("parcel_id"), "{err}");
     let other = sales.subset(&[0, 1, 2], "three sales").expect("subset");
-    let err = plumbline::appeal::parcel_pages(&model, &other, &subjects, &["WM-135021".into()], &demo_page_options())
+    let err = plumbline::appeal::parcel_pages(&model, &other, &subjects, &["WM-135021"], &demo_page_options())
         .expect_err("not the fit's frame")
         .to_string();
     assert!(!err.is_empty());

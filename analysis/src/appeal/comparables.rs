@@ -20,7 +20,7 @@
 //! `1/w₀` (20 at the default 0.05), one adjusted by 25 % gross weighs 3.3.
 
 use super::build_up::step_through;
-use super::inputs::{value_text, ModelRows, ModelledParcel};
+use super::inputs::{ModelRows, ModelledParcel};
 use super::PageOptions;
 use crate::data::{dates, Frame};
 use crate::error::{Error, Result};
@@ -274,12 +274,7 @@ impl<'a> Candidates<'a> {
                 .zip(&steps)
                 .map(|(&t, &(amount, factor, _))| {
                     let term = &model.terms[t];
-                    let sale = term
-                        .frame_columns
-                        .iter()
-                        .map(|c| value_text(self.sales, c, row))
-                        .collect::<Result<Vec<_>>>()?
-                        .join(", ");
+                    let sale = term.inputs(self.sales, row)?;
                     Ok(Adjustment {
                         term: term.label.clone(),
                         time_trend: term.is_time,

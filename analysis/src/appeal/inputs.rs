@@ -14,6 +14,7 @@ use polars::prelude::DataType;
 /// time trend on the sale date.
 #[derive(Debug, Clone)]
 pub(super) struct TermColumns {
+    pub term: Term,
     pub label: String,
     pub columns: std::ops::Range<usize>,
     pub frame_columns: Vec<String>,
@@ -74,6 +75,7 @@ impl<'a> ModelRows<'a> {
             .iter()
             .zip(&recipe.term_spans)
             .map(|(term, span)| TermColumns {
+                term: term.clone(),
                 label: span.label.clone(),
                 columns: span.columns.clone(),
                 frame_columns: term.columns().into_iter().map(str::to_string).collect(),
@@ -173,17 +175,7 @@ impl<'a> ModelRows<'a> {
         let p = prediction.rows.first().ok_or_else(|| Error::Specification(format!("parcel `{id}` was not valued")))?;
         let value = self.retransform.value_of(p.estimate, p.median_original, p.mean_original);
         let interval = if self.multiplicative { (p.pi_low.exp(), p.pi_high.exp()) } else { (p.pi_low, p.pi_high) };
-        let inputs = self
-            .terms
-            .iter()
-            .map(|t| {
-                t.frame_columns
-                    .iter()
-                    .map(|c| value_text(frame, c, 0))
-                    .collect::<Result<Vec<_>>>()
-                    .map(|v| v.join(", "))
-            })
-            .collect::<Result<Vec<_>>>()?;
+        let inputs = self.terms.iter().map(|t| t.inputs(frame, 0)).collect::<Result<Vec<_>>>()?;
         let place = match &options.rule.places {
             Some(places) => {
                 let xs = frame.numbers_at(&places.x_column, &[0], "the parcel's place")?;
@@ -197,6 +189,22 @@ impl<'a> ModelRows<'a> {
             None => None,
         };
         Ok(ModelledParcel { id: id.to_string(), x, value, interval, inputs, place, area })
+    }
+}
+
+impl TermColumns {
+    /// The term's inputs at row `row` of `frame` as a lay reader checks them:
+    /// a distance term's distance from its place (it reads two coordinate
+    /// columns), otherwise each column read as `column = value`.
+    pub fn inputs(&self, frame: &Frame, row: usize) -> Result<String> {
+        if let Term::Distance { x, y, point, .. } = &self.term {
+            let (xs, ys) = (frame.numeric_column(x)?, frame.numeric_column(y)?);
+            return Ok(match (xs[row], ys[row]) {
+                (Some(xv), Some(yv)) => format!("{:.3} from {}", point.distance(xv, yv), point.name),
+                _ => "—".to_string(),
+            });
+        }
+        Ok(self.frame_columns.iter().map(|c| value_text(frame, c, row)).collect::<Result<Vec<_>>>()?.join(", "))
     }
 }
 

@@ -5,7 +5,7 @@
 //! Every figure comes from the fitted model and the sales it was fitted on,
 //! so the page agrees with the study to the last digit:
 //!
-//! * **The value built up** ([`build_up`]): from a *reference home* — the
+//! * **The value built up** ([`BuildUp`]): from a *reference home* — the
 //!   median of every numeric characteristic of the study's sales and the most
 //!   common level of every category, valued as of the valuation date; or a
 //!   parcel the analyst names — to the parcel, one model term at a time, in
@@ -15,7 +15,7 @@
 //!   (the amount is the change of the running value), otherwise by `Δₜ`
 //!   itself. The amounts therefore sum exactly (to rounding) to the parcel's
 //!   value minus the reference home's, whatever the order.
-//! * **Comparable sales adjusted by the model** ([`comparables`]): the sales
+//! * **Comparable sales adjusted by the model** ([`Comparables`]): the sales
 //!   comparison approach with adjustments derived by regression, as
 //!   mass-appraisal texts describe it (e.g. the IAAO's *Property Appraisal
 //!   and Assessment Administration* and Gloudemans & Almy, *Fundamentals of
@@ -189,11 +189,11 @@ pub struct ParcelPages {
 /// Refuses a `sales` frame other than the fit's, an id missing from or
 /// repeated in the parcels, a parcel missing a term value, and a model with
 /// aliased columns (a coefficient the page could not state).
-pub fn parcel_pages(
+pub fn parcel_pages<S: AsRef<str>>(
     fit: &Fit,
     sales: &Frame,
     parcels: &Frame,
-    ids: &[String],
+    ids: &[S],
     options: &PageOptions,
 ) -> Result<ParcelPages> {
     fit.require_fitting_frame(sales)?;
@@ -205,12 +205,12 @@ pub fn parcel_pages(
     let reference = model.reference_home(sales, parcels, options)?;
     let candidates = comparables::Candidates::read(fit, sales, options)?;
     let mut pages = Vec::with_capacity(ids.len());
-    for id in ids {
+    for id in ids.iter().map(AsRef::as_ref) {
         let subject = model.subject(parcels, id, options)?;
         let build_up = build_up::build_up(&model, &reference, &subject)?;
         let comparables = candidates.adjusted_to(&model, &subject, &options.rule)?;
         pages.push(ParcelPage {
-            parcel_id: id.clone(),
+            parcel_id: id.to_string(),
             value: subject.value,
             interval: subject.interval,
             build_up,

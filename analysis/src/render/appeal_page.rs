@@ -26,7 +26,7 @@ const FLAG: &str = "#a23b24";
 /// The print rules every page carries: sheet size and margins, a new sheet
 /// per parcel, nothing split across sheets.
 const PRINT_STYLE: &str = "<style>\n@page { size: A4; margin: 14mm 12mm; }\n\
-@media print {\n  .pl-parcel { break-before: page; page-break-before: always; border: none !important; \
+@media print {\n  body { background: none !important; padding: 0 !important; }\n  .pl-parcel { break-before: page; page-break-before: always; border: none !important; \
 box-shadow: none !important; margin: 0 !important; }\n  .pl-parcel:first-of-type { break-before: auto; \
 page-break-before: auto; }\n}\n.pl-keep { break-inside: avoid; page-break-inside: avoid; }\n</style>\n";
 
@@ -210,7 +210,7 @@ fn comparable_html(out: &mut String, number: usize, sale: &AdjustedSale, unit: &
         facts.join(" · ")
     ));
     out.push_str(&format!(
-        "<table data-part=\"adjustments\" data-parcel=\"{}\" style=\"border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:12px;margin-top:3px\">\n<thead><tr>{}{}{}{}</tr></thead>\n<tbody>\n",
+        "<table class=\"pl-keep\" data-part=\"adjustments\" data-parcel=\"{}\" style=\"border-collapse:collapse;font-variant-numeric:tabular-nums;font-size:12px;margin-top:3px\">\n<thead><tr>{}{}{}{}</tr></thead>\n<tbody>\n",
         escape(subject),
         head("difference", false),
         head("that home", false),
