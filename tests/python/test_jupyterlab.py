@@ -57,7 +57,7 @@ def study_notebook():
     cells = [
         code_cell(f'let sales = load("{SALES}")?;\nsales'),
         code_cell(f"let model = fit(&sales, &{spec})?;\nmodel"),
-        code_cell("plumbline::plot::residual_spread(&model, Default::default())?"),
+        code_cell("plumbline::plot::diagnostic_sheet(&model, &sales, &Default::default())?"),
         code_cell('let broken: i32 = "twelve".parse()?;\nbroken'),
         code_cell("let mut spins: u64 = 0;\nloop { spins += 1; std::thread::sleep(std::time::Duration::from_millis(20)); }"),
         code_cell("40 + 2"),
@@ -169,6 +169,10 @@ def test_a_study_notebook_in_jupyterlab(lab):
         assert "living_area" in cell(page, 1).inner_text()
         chart = cell(page, 2).locator(".jp-RenderedSVG img, .jp-RenderedSVG svg, .jp-RenderedHTMLCommon svg")
         assert chart.count() >= 1, "the chart did not render as SVG"
+        # The 1,200-px review sheet scales down to the output area instead of being cut at its edge.
+        drawn = chart.first.bounding_box()
+        area = cell(page, 2).locator(".jp-OutputArea-output").first.bounding_box()
+        assert drawn and area and drawn["width"] <= area["width"] + 1, (drawn, area)
         SCREENSHOT.parent.mkdir(parents=True, exist_ok=True)
         page.locator(".jp-NotebookPanel").screenshot(path=str(SCREENSHOT))
 

@@ -155,3 +155,76 @@ pub(crate) fn estimate_rows<'a, 'b>(
         .map_err(plot_error)?;
     Ok(chart)
 }
+
+/// Round amounts for an axis drawn in `log₂(amount)` (a doubling scale):
+/// the positions (in log₂ units) of the amounts `m·10ᵏ` inside `range`, for
+/// the coarsest ladder of multipliers `m` that gives at least four of them —
+/// `{1, 2, 5}`, then `{1, 1.5, 2, 3, 5, 7}`, then `{1, 1.5, 2, 2.5, 3, 4, 5, 6, 8}`
+/// — so that a doubling scale is labelled 200,000, 300,000, 500,000 … rather
+/// than at powers of two.
+pub(crate) fn round_amounts_in_log2(range: &Range<f64>) -> Vec<f64> {
+    const LADDERS: [&[f64]; 3] =
+        [&[1.0, 2.0, 5.0], &[1.0, 1.5, 2.0, 3.0, 5.0, 7.0], &[1.0, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0]];
+    let (lo, hi) = (range.start.exp2(), range.end.exp2());
+    if !(lo.is_finite() && hi.is_finite() && lo > 0.0 && hi > lo) {
+        return Vec::new();
+    }
+    let first = lo.log10().floor() as i32;
+    let last = hi.log10().ceil() as i32;
+    let mut chosen = Vec::new();
+    for ladder in LADDERS {
+        chosen = (first..=last)
+            .flat_map(|k| ladder.iter().map(move |m| m * 10f64.powi(k)))
+            .filter(|v| *v >= lo && *v <= hi)
+            .map(f64::log2)
+            .collect();
+        if chosen.len() >= 4 {
+            break;
+        }
+    }
+    chosen
+}
+
+/// Labels the x axis of `chart` (drawn on `area`) at `positions` (chart
+/// units) with `label(position)`, with light grid lines up the plot: for
+/// axes whose tick places plotters cannot choose (round amounts on a
+/// doubling scale). A label that would run past the area's edge is left out.
+pub(crate) fn draw_x_ticks(
+    area: &Area,
+    chart: &mut Chart,
+    y: &Range<f64>,
+    positions: &[f64],
+    label: &dyn Fn(f64) -> String,
+) -> Result<()> {
+    use plotters::style::text_anchor::{HPos, Pos, VPos};
+    let style = (FONT, 12).into_font().color(&INK).pos(Pos::new(HPos::Center, VPos::Top));
+    let (base_x, base_y) = area.get_base_pixel();
+    let width = area.dim_in_pixel().0 as i32;
+    for &x in positions {
+        chart.draw_series(LineSeries::new(vec![(x, y.start), (x, y.end)], GRID)).map_err(plot_error)?;
+        let (px, py) = chart.backend_coord(&(x, y.start));
+        let text = label(x);
+        let half = 4 * text.chars().count() as i32;
+        let (px, py) = (px - base_x, py - base_y);
+        if px - half < 0 || px + half > width {
+            continue;
+        }
+        area.draw(&Text::new(text, (px, py + 6), style.clone())).map_err(plot_error)?;
+        area.draw(&PathElement::new(vec![(px, py), (px, py + 4)], INK.mix(0.6))).map_err(plot_error)?;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::round_amounts_in_log2;
+
+    #[test]
+    fn a_doubling_scale_is_labelled_at_round_amounts() {
+        let amounts = |lo: f64, hi: f64| -> Vec<f64> {
+            round_amounts_in_log2(&(lo.log2()..hi.log2())).into_iter().map(|v| v.exp2().round()).collect()
+        };
+        assert_eq!(amounts(120_000.0, 960_000.0), vec![150_000.0, 200_000.0, 300_000.0, 500_000.0, 700_000.0]);
+        assert_eq!(amounts(90_000.0, 2_100_000.0), vec![100_000.0, 200_000.0, 500_000.0, 1_000_000.0, 2_000_000.0]);
+    }
+}

@@ -11,7 +11,7 @@
 //! into the paper. The scale is clipped at ±2.5 residual standard deviations
 //! so that a few wild sales do not wash out the pattern.
 
-use super::canvas::{axes_with, render, Area, AxisTicks, Chart};
+use super::canvas::{axes_with, draw_x_ticks, render, round_amounts_in_log2, Area, AxisTicks, Chart};
 use super::plot_error;
 use super::theme::{format_tick, ACCENT, FONT, INK, POINT, SOFT};
 use super::{PlotSize, Svg};
@@ -246,8 +246,9 @@ pub fn ratio_by_price(
     let x_range = super::canvas::padded_range(points.iter().map(|p| p.0));
     let y_range = super::canvas::padded_range(points.iter().map(|p| p.1));
     let markup = render(size, |area| {
-        let doubling = |v: &f64| format_tick(v.exp2());
-        let ticks = AxisTicks { x_label: &doubling, ..AxisTicks::default() };
+        // The x axis is labelled by hand at round amounts (plotters would put
+        // its ticks at powers of two on this doubling scale).
+        let ticks = AxisTicks { x_count: 0, ..AxisTicks::default() };
         let mut chart = axes_with(
             area,
             "Ratio against price: does the level drift with price?",
@@ -255,6 +256,8 @@ pub fn ratio_by_price(
             ("½ price + ½ value ÷ median ratio (doubling scale)", "value ÷ price"),
             &ticks,
         )?;
+        let round = round_amounts_in_log2(&x_range);
+        draw_x_ticks(area, &mut chart, &y_range, &round, &|x| format_tick(x.exp2().round()))?;
         let radius = if points.len() > 3000 { 1 } else { 2 };
         chart
             .draw_series(points.iter().map(|&(x, y)| Circle::new((x, y), radius, POINT.mix(0.35).filled())))

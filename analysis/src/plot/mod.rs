@@ -76,18 +76,58 @@ pub struct Svg {
 }
 
 impl Svg {
-    /// Wraps plotters' output, adding `<title>` and `<desc>` after the opening tag.
+    /// Wraps plotters' output, adding `<title>` and `<desc>` after the opening
+    /// tag, and making the chart fit the space it is shown in: the root's
+    /// fixed `width="W" height="H"` become `width="100%"` with
+    /// `max-width: Wpx` (its `viewBox` keeps the proportions). Drawn inline
+    /// (the HTML reports, print) it shrinks to a narrow page and never grows
+    /// past its drawn size; shown as an image (a notebook front end renders
+    /// `image/svg+xml` in an `<img>`) it takes the output area's width, so a
+    /// wide review sheet is never cut at the notebook's edge.
     pub(crate) fn finish(markup: String, title: &str, description: &str) -> Result<Svg> {
-        let open = markup.find("<svg").and_then(|start| markup[start..].find('>').map(|end| start + end + 1));
-        let Some(at) = open else {
+        let open = markup.find("<svg").and_then(|start| markup[start..].find('>').map(|end| (start, start + end + 1)));
+        let Some((start, at)) = open else {
             return Err(Error::Plot("the SVG backend produced no <svg> element".into()));
         };
-        let mut out = String::with_capacity(markup.len() + title.len() + description.len() + 40);
-        out.push_str(&markup[..at]);
+        let tag = fluid_root(&markup[start..at]);
+        let mut out = String::with_capacity(markup.len() + title.len() + description.len() + 80);
+        out.push_str(&markup[..start]);
+        out.push_str(&tag);
         out.push_str(&format!("\n<title>{}</title>\n<desc>{}</desc>", escape(title), escape(description)));
         out.push_str(&markup[at..]);
         Ok(Svg { markup: out, title: title.to_string() })
     }
+}
+
+/// The root tag `<svg width="W" height="H" …>` with `width="100%"` and
+/// `style="max-width:Wpx;height:auto"` in place of the fixed size (a tag
+/// without a numeric width is returned as it is).
+fn fluid_root(tag: &str) -> String {
+    let attribute = |name: &str| -> Option<(usize, usize, String)> {
+        let key = format!(" {name}=\"");
+        let from = tag.find(&key)?;
+        let value_start = from + key.len();
+        let value_end = value_start + tag[value_start..].find('"')?;
+        Some((from, value_end + 1, tag[value_start..value_end].to_string()))
+    };
+    let (Some(width), Some(height)) = (attribute("width"), attribute("height")) else { return tag.to_string() };
+    if width.2.parse::<f64>().is_err() {
+        return tag.to_string();
+    }
+    let mut spans = [
+        (width.0, width.1, format!(" width=\"100%\" style=\"max-width:{}px;height:auto\"", width.2)),
+        (height.0, height.1, String::new()),
+    ];
+    spans.sort_by_key(|s| s.0);
+    let mut out = String::with_capacity(tag.len() + 40);
+    let mut at = 0;
+    for (from, to, replacement) in spans {
+        out.push_str(&tag[at..from]);
+        out.push_str(&replacement);
+        at = to;
+    }
+    out.push_str(&tag[at..]);
+    out
 }
 
 /// Escapes text for XML content.
@@ -98,4 +138,19 @@ pub(crate) fn escape(text: &str) -> String {
 /// Turns any plotters drawing error into ours.
 pub(crate) fn plot_error<E: std::fmt::Debug>(e: E) -> Error {
     Error::Plot(format!("{e:?}"))
+}
+
+#[cfg(test)]
+mod fitting_tests {
+    use super::fluid_root;
+
+    #[test]
+    fn the_root_takes_the_space_it_is_shown_in_up_to_its_drawn_width() {
+        assert_eq!(
+            fluid_root(r#"<svg width="720" height="440" viewBox="0 0 720 440" xmlns="http://www.w3.org/2000/svg">"#),
+            r#"<svg width="100%" style="max-width:720px;height:auto" viewBox="0 0 720 440" xmlns="http://www.w3.org/2000/svg">"#
+        );
+        let without_size = r#"<svg viewBox="0 0 10 10">"#;
+        assert_eq!(fluid_root(without_size), without_size);
+    }
 }

@@ -184,7 +184,7 @@ fn build_up_html(out: &mut String, page: &ParcelPage, multiplicative: bool) {
     }
     out.push_str(&format!(
         "<tr>{}{}{}{}{}</tr>\n</tbody></table>\n",
-        cell(&format!("<b>value of {}</b>", escape(&page.parcel_id)), false),
+        cell(&format!("<b style=\"white-space:nowrap\">value of {}</b>", escape(&page.parcel_id)), false),
         cell("", false),
         cell("", false),
         cell("", true),
@@ -231,7 +231,7 @@ fn comparable_html(out: &mut String, number: usize, sale: &AdjustedSale, unit: &
     }
     out.push_str(&format!(
         "<tr>{}{}{}{}</tr>\n</tbody></table>\n",
-        cell(&format!("<b>sale {number} adjusted to {}</b>", escape(subject)), false),
+        cell(&format!("<b style=\"white-space:nowrap\">sale {number} adjusted to {}</b>", escape(subject)), false),
         cell(&format!("net {}", percent(sale.net_share)), false),
         cell(&format!("gross {:.1} %", 100.0 * sale.gross_share), false),
         cell(&format!("<b>{}</b>", money(sale.adjusted_price)), true)

@@ -145,6 +145,31 @@ pub fn frame_text(frame: &Frame) -> String {
     out
 }
 
+/// Characters of cell text per stacked table of a wide frame's HTML card:
+/// about what an A4 page or a notebook's output area shows at the cards'
+/// 13 px type.
+const HTML_CHARS_PER_TABLE: usize = 84;
+
+/// Consecutive column ranges whose widths (characters, plus a gap of 3 per
+/// column) stay within `budget`; a column wider than the budget has a range
+/// of its own.
+fn column_groups(widths: &[usize], budget: usize) -> Vec<std::ops::Range<usize>> {
+    let mut groups = Vec::new();
+    let (mut start, mut used) = (0, 0);
+    for (c, w) in widths.iter().enumerate() {
+        let need = w + 3;
+        if c > start && used + need > budget {
+            groups.push(start..c);
+            (start, used) = (c, 0);
+        }
+        used += need;
+    }
+    if start < widths.len() {
+        groups.push(start..widths.len());
+    }
+    groups
+}
+
 /// The frame as an HTML card.
 pub fn frame_html(frame: &Frame) -> String {
     let prov = frame.provenance();
@@ -160,29 +185,51 @@ pub fn frame_html(frame: &Frame) -> String {
         ));
     }
     out.push_str("</div>\n");
-    let header: Vec<String> = std::iter::once("row".to_string()).chain(names.iter().map(|n| n.to_string())).collect();
-    let header_refs: Vec<&str> = header.iter().map(String::as_str).collect();
-    let numeric_flags: Vec<bool> = std::iter::once(true).chain(numeric.iter().copied()).collect();
-    let mut body: Vec<Vec<String>> = vec![std::iter::once(String::new())
-        .chain(dtypes.iter().map(|d| format!("<span style=\"{SUBTLE}\">{}</span>", escape(d))))
-        .collect()];
-    for (index, row) in shown_rows(frame.height()).iter().zip(&rows) {
-        match (index, row) {
-            (Some(i), Some(cells)) => {
-                body.push(std::iter::once((i + 1).to_string()).chain(cells.iter().map(|c| escape(c))).collect())
-            }
-            _ => {
-                let mut gap = vec![format!("<span style=\"{SUBTLE}\">⋮</span>")];
-                gap.push(format!(
-                    "<span style=\"{SUBTLE}\">{} more records</span>",
-                    format_count(frame.height() - 2 * EDGE_ROWS)
-                ));
-                gap.resize(header.len(), String::new());
-                body.push(gap);
+    // Wide frames are shown as stacked tables of a few columns each (the row
+    // number repeated), so that a printed page holds every column and no
+    // value wraps over two lines.
+    let widths: Vec<usize> = names
+        .iter()
+        .enumerate()
+        .map(|(c, name)| {
+            let cells = rows.iter().flatten().map(|r| r[c].chars().count());
+            cells.chain([name.chars().count(), dtypes[c].chars().count()]).max().unwrap_or(4)
+        })
+        .collect();
+    for columns in column_groups(&widths, HTML_CHARS_PER_TABLE) {
+        let header: Vec<&str> = std::iter::once("row").chain(columns.clone().map(|c| names[c].as_str())).collect();
+        let numeric_flags: Vec<bool> = std::iter::once(true).chain(columns.clone().map(|c| numeric[c])).collect();
+        let nowrap = |cell: String| format!("<span style=\"white-space:nowrap\">{cell}</span>");
+        let mut body: Vec<Vec<String>> = vec![std::iter::once(String::new())
+            .chain(columns.clone().map(|c| format!("<span style=\"{SUBTLE}\">{}</span>", escape(&dtypes[c]))))
+            .collect()];
+        for (index, row) in shown_rows(frame.height()).iter().zip(&rows) {
+            match (index, row) {
+                (Some(i), Some(cells)) => body.push(
+                    std::iter::once((i + 1).to_string())
+                        .chain(columns.clone().map(|c| {
+                            // Numeric cells are kept on one line by the table's own style.
+                            if numeric[c] {
+                                escape(&cells[c])
+                            } else {
+                                nowrap(escape(&cells[c]))
+                            }
+                        }))
+                        .collect(),
+                ),
+                _ => {
+                    let mut gap = vec![format!("<span style=\"{SUBTLE}\">⋮</span>")];
+                    gap.push(nowrap(format!(
+                        "<span style=\"{SUBTLE}\">{} more records</span>",
+                        format_count(frame.height() - 2 * EDGE_ROWS)
+                    )));
+                    gap.resize(header.len(), String::new());
+                    body.push(gap);
+                }
             }
         }
+        table(&mut out, &header, &numeric_flags, &body);
     }
-    table(&mut out, &header_refs, &numeric_flags, &body);
     card_end(&mut out);
     out
 }
@@ -305,5 +352,17 @@ impl Report for crate::data::Screen {
         }
         card_end(&mut html);
         MimeBundle::text_and_html(text, html)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::column_groups;
+
+    #[test]
+    fn wide_frames_split_into_column_groups_within_the_budget() {
+        assert_eq!(column_groups(&[10, 10, 10, 10], 30), vec![0..2, 2..4]);
+        assert_eq!(column_groups(&[50, 5], 30), vec![0..1, 1..2]);
+        assert_eq!(column_groups(&[], 30), Vec::<std::ops::Range<usize>>::new());
     }
 }

@@ -12,17 +12,14 @@ use crate::predict::Predictions;
 fn coefficient_lines(coefficients: &[crate::inference::Coefficient], level: f64) -> String {
     let mut out = String::new();
     let pct = percent(level);
-    let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).clamp(4, 28);
+    // Names are never cut: two levels of one category can share a long prefix.
+    let name_width = coefficients.iter().map(|c| c.term.chars().count()).max().unwrap_or(4).max(4);
     out.push_str(&format!(
         "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   {pct} % interval\n",
         "term", "estimate", "std error", "t", "p-value"
     ));
     for c in coefficients {
-        let term: String = if c.term.chars().count() > name_width {
-            c.term.chars().take(name_width - 1).chain(std::iter::once('…')).collect()
-        } else {
-            c.term.clone()
-        };
+        let term = &c.term;
         out.push_str(&format!(
             "  {:<name_width$} {:>12} {:>11} {:>8} {:>9}   [{}, {}]\n",
             term,

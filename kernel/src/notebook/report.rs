@@ -17,7 +17,7 @@ const STYLE: &str = "\
 body{margin:0;background:#eef1f5;color:#222b3a;font-family:system-ui,-apple-system,'Segoe UI',Roboto,'DejaVu Sans',sans-serif;font-size:15px;line-height:1.55}
 main{max-width:1040px;margin:0 auto;padding:20px 22px 60px}
 header.run{background:#fbfcfd;border:1px solid #d5dbe3;border-radius:6px;padding:14px 18px;margin-bottom:18px}
-header.run h1{font-size:24px;margin:0 0 6px 0}
+header.run h1{font-size:24px;margin:0 0 6px 0}header.run h2{font-size:14px;margin:0 0 4px 0;color:#5b6777;font-weight:600;border:none}
 header.run dl{display:grid;grid-template-columns:max-content 1fr;gap:2px 14px;margin:8px 0;font-size:13px}
 header.run dt{color:#5b6777}
 header.run dd{margin:0;font-family:ui-monospace,'DejaVu Sans Mono',monospace;font-size:12.5px}
@@ -42,7 +42,7 @@ section.code{margin:10px 0 14px 0}
 .output .error b{color:#a03c22}
 .output img,.output svg{max-width:100%;height:auto}
 footer{margin-top:30px;color:#5b6777;font-size:12px}
-@media print{body{background:#fff}header.run{border:none}}
+@media print{body{background:#fff}header.run{border:none}.output{overflow:visible}}
 ";
 
 /// Facts about the run shown at the top of the report.
@@ -167,7 +167,12 @@ pub fn report_html(notebook: &Notebook, facts: &RunFacts) -> String {
         escape(&title),
         env!("CARGO_PKG_VERSION")
     );
-    out.push_str(&format!("<header class=\"run\">\n<h1>{}</h1>\n<dl>\n", escape(&title)));
+    // The notebook's own first heading is the page's title; the run card
+    // repeats it only when the notebook has none (the title is then the file name).
+    let has_heading = title != facts.notebook;
+    let card_title = if has_heading { "About this run".to_string() } else { title.clone() };
+    let card_heading = if has_heading { "h2" } else { "h1" };
+    out.push_str(&format!("<header class=\"run\">\n<{card_heading}>{}</{card_heading}>\n<dl>\n", escape(&card_title)));
     let inputs =
         if facts.inputs.is_empty() { "as written in the notebook".to_string() } else { facts.inputs.join("; ") };
     for (label, value) in [
