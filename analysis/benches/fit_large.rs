@@ -84,7 +84,7 @@ fn main() {
         let table = model.coefficients(0.95).expect("table");
         std::hint::black_box(table);
         ours.push(start.elapsed().as_secs_f64());
-        method = format!("{:?}", model.solution().method);
+        method = format!("{:?}", model.solution().method());
     }
 
     // The fitting core alone: the solver on an already built design.
@@ -97,7 +97,8 @@ fn main() {
         std::hint::black_box(plumbline::model::build_design(&frame, &spec, &[]).expect("design"));
         design_times.push(start.elapsed().as_secs_f64());
         let start = Instant::now();
-        let solution = plumbline::fit::solver::solve(&design.columns, &design.target, None, Precision::Auto, tolerance);
+        let solution =
+            plumbline::fit::solver::solve(design.columns(), design.target(), None, Precision::Auto, tolerance);
         std::hint::black_box(solution);
         core.push(start.elapsed().as_secs_f64());
     }

@@ -99,12 +99,12 @@ pub struct FitStatistics {
 impl Fit {
     /// Residual degrees of freedom `n − k`.
     pub fn residual_df(&self) -> usize {
-        self.design.n_rows() - self.solution.kept.len()
+        self.design().n_rows() - self.solution().kept().len()
     }
 
     /// Degrees of freedom for t tests and intervals.
     pub fn df_t(&self) -> f64 {
-        match (&self.covariance_kind, self.cluster_count) {
+        match (&self.covariance_kind(), self.cluster_count()) {
             (CovarianceKind::Cluster(_), Some(g)) => (g - 1) as f64,
             _ => self.residual_df() as f64,
         }
@@ -112,27 +112,27 @@ impl Fit {
 
     /// Residual standard error `s = √(RSS/(n − k))`.
     pub fn residual_std_error(&self) -> f64 {
-        (self.solution.weighted_rss / self.residual_df() as f64).sqrt()
+        (self.solution().weighted_rss() / self.residual_df() as f64).sqrt()
     }
 
     /// Whether the intercept is among the estimated columns.
     fn intercept_estimated(&self) -> bool {
         self.spec().has_intercept()
-            && self.solution.kept.first().is_some_and(|&j| self.design.columns[j].name == INTERCEPT_NAME)
+            && self.solution().kept().first().is_some_and(|&j| self.design().columns()[j].name == INTERCEPT_NAME)
     }
 
     /// The coefficient table at confidence `level` (e.g. 0.95).
     pub fn coefficients(&self, level: f64) -> Result<Vec<Coefficient>> {
         let names: Vec<&str> = self.estimated_names();
-        coefficient_table(&names, &self.solution.coefficients, &self.covariance, self.df_t(), level)
+        coefficient_table(&names, self.solution().coefficients(), self.covariance(), self.df_t(), level)
     }
 
     /// Goodness-of-fit statistics.
     pub fn statistics(&self) -> FitStatistics {
-        let n = self.design.n_rows();
+        let n = self.design().n_rows();
         let with_intercept = self.spec().has_intercept();
-        let y = &self.design.target;
-        let w = self.design.weights.as_deref();
+        let y = self.design().target();
+        let w = self.design().weights();
         let weight = |i: usize| w.map_or(1.0, |w| w[i]);
         let total_weight: DoubleDouble = (0..n).map(|i| DoubleDouble::from(weight(i))).sum();
         let weighted_sum: DoubleDouble = (0..n).map(|i| DoubleDouble::from_product(weight(i), y[i])).sum();
@@ -147,14 +147,14 @@ impl Fit {
             rows: n,
             with_intercept,
             intercept_estimated: self.intercept_estimated(),
-            rss: self.solution.weighted_rss,
+            rss: self.solution().weighted_rss(),
             ss_total,
             sum_log_weight: w.map_or(0.0, |w| w.iter().map(|v| v.ln()).sum()),
             df_t: self.df_t(),
-            condition_number: self.solution.condition_number,
-            classical: self.covariance_kind == CovarianceKind::Classical,
-            coefficients: &self.solution.coefficients,
-            covariance: &self.covariance,
+            condition_number: self.solution().condition_number(),
+            classical: *self.covariance_kind() == CovarianceKind::Classical,
+            coefficients: self.solution().coefficients(),
+            covariance: self.covariance(),
         })
     }
 
@@ -162,7 +162,7 @@ impl Fit {
     pub fn summary(&self, level: f64) -> Result<FitSummary> {
         let coefficients = self.coefficients(level)?;
         let stats = self.statistics();
-        let dropped = &self.design.dropped;
+        let dropped = self.design().dropped();
         Ok(FitSummary {
             schema: "plumbline.fit".into(),
             schema_version: SUMMARY_SCHEMA_VERSION,
@@ -178,10 +178,10 @@ impl Fit {
             model_df: stats.model_df,
             residual_df: stats.residual_df,
             intercept: self.spec().has_intercept(),
-            covariance: self.covariance_kind.label(),
-            clusters: self.cluster_count,
+            covariance: self.covariance_kind().label(),
+            clusters: self.cluster_count(),
             level,
-            solver: self.solution.method,
+            solver: self.solution().method(),
             coefficients,
             aliased: self.aliased_names().into_iter().map(str::to_string).collect(),
             r_squared: stats.r_squared,
@@ -196,7 +196,7 @@ impl Fit {
             aic: stats.aic,
             bic: stats.bic,
             condition_number: stats.condition_number,
-            data: self.provenance.clone(),
+            data: self.provenance().clone(),
         })
     }
 }

@@ -118,12 +118,12 @@ impl Fit {
     /// Predicts every row of `frame` that has all term values.
     pub fn predict(&self, frame: &Frame, level: f64) -> Result<Predictions> {
         let log_target = self.spec().target_transform() == TargetTransform::Log;
-        let r = &self.solution.residuals;
+        let r = self.solution().residuals();
         Predictor {
-            recipe: &self.design.recipe,
-            kept: &self.solution.kept,
-            coefficients: &self.solution.coefficients,
-            covariance: &self.covariance,
+            recipe: self.design().recipe(),
+            kept: self.solution().kept(),
+            coefficients: self.solution().coefficients(),
+            covariance: self.covariance(),
             residual_variance: self.residual_std_error().powi(2),
             df_t: self.df_t(),
             smearing: log_target.then(|| r.iter().map(|v| v.exp()).sum::<f64>() / r.len() as f64),

@@ -76,8 +76,8 @@ fn non_finite_values_can_be_read_as_missing_and_the_account_says_so() {
     let frame = load_csv(&p, &CsvOptions::default().non_finite_as_missing()).expect("load");
     let model = fit(&frame, &spec()).expect("fit");
     let reference = fit(&load_csv(&clean, &CsvOptions::default()).expect("load"), &spec()).expect("fit");
-    assert_eq!(model.solution().coefficients, reference.solution().coefficients, "same rows, same fit");
-    let dropped = &model.design().dropped;
+    assert_eq!(model.solution().coefficients(), reference.solution().coefficients(), "same rows, same fit");
+    let dropped = model.design().dropped();
     assert_eq!(dropped.total, 1);
     assert_eq!(dropped.non_finite_by_column, vec![("price".to_string(), 1), ("area".to_string(), 1)]);
     assert!(
@@ -111,7 +111,7 @@ fn parquet_and_in_memory_frames_follow_the_same_rule() {
     let parquet = load_parquet(&path).expect("load");
     let m = message(fit(&parquet, &spec()));
     assert!(m.contains("`price`") && m.contains("data row 13"), "{m}");
-    assert_eq!(fit(&parquet.non_finite_as_missing(), &spec()).expect("fit").design().dropped.total, 1);
+    assert_eq!(fit(&parquet.non_finite_as_missing(), &spec()).expect("fit").design().dropped().total, 1);
 
     let in_memory = Frame::from_dataframe(df, "built in a test");
     let m = message(fit(&in_memory, &spec()));
@@ -238,7 +238,7 @@ fn months_since_terms_follow_the_hand_computed_calendar() {
     let model = fit(&frame, &ModelSpec::new("price").term(Term::months_since("sale_date", "2023-01-01"))).expect("fit");
     let names = model.estimated_names();
     assert_eq!(names[1], "sale_date (months since 2023-01-01)");
-    let b = &model.solution().coefficients;
+    let b = model.solution().coefficients();
     assert!((b[0] - 100.0).abs() < 1e-10 && (b[1] - 2.0).abs() < 1e-12, "{b:?}");
 
     // Days since, year, quarter and month of the year.

@@ -209,3 +209,101 @@ fn an_upward_or_sideways_import_is_caught() {
         ]
     );
 }
+
+/// The types of each top-level module that declare `pub(crate)` fields, as
+/// `(module, type)`: a `struct` (of any visibility) whose body holds a field
+/// written `pub(crate) name:`.
+fn types_with_crate_fields(sources: &[(String, String, String)]) -> Vec<(String, String)> {
+    let mut out = Vec::new();
+    for (module, _, text) in sources {
+        let mut rest = text.as_str();
+        while let Some(at) = rest.find("struct ") {
+            let after = &rest[at + "struct ".len()..];
+            let name: String = after.chars().take_while(|c| c.is_ascii_alphanumeric() || *c == '_').collect();
+            let body = match (after.find('{'), after.find(';')) {
+                (Some(open), semicolon) if semicolon.is_none_or(|s| open < s) => {
+                    let close = after[open..].find("\n}").map_or(after.len(), |c| open + c);
+                    &after[open..close]
+                }
+                _ => "",
+            };
+            let crate_field = body
+                .lines()
+                .any(|l| l.trim_start().starts_with("pub(crate) ") && l.contains(':') && !l.contains("fn "));
+            if !name.is_empty() && crate_field {
+                out.push((module.clone(), name));
+            }
+            rest = after;
+        }
+    }
+    out.sort();
+    out.dedup();
+    out
+}
+
+/// Every file that names, from another top-level module, a type whose
+/// fields are open to the whole crate (`pub(crate)`): such a type's data is
+/// behind its methods only by convention, so a layer above could read or
+/// write it directly. Reported as `module → Type's pub(crate) fields (file)`.
+fn reach_ins(sources: &[(String, String, String)]) -> Vec<String> {
+    let open_types = types_with_crate_fields(sources);
+    let mut out = Vec::new();
+    for (module, file, text) in sources {
+        if EXEMPT.contains(&module.as_str()) {
+            continue;
+        }
+        let code: String =
+            text.lines().map(|line| line.split("//").next().unwrap_or("")).collect::<Vec<_>>().join("\n");
+        for (owner, name) in &open_types {
+            if owner == module {
+                continue;
+            }
+            let named = code.match_indices(name.as_str()).any(|(at, _)| {
+                let before = code[..at].chars().last().is_none_or(|c| !(c.is_ascii_alphanumeric() || c == '_'));
+                let after =
+                    code[at + name.len()..].chars().next().is_none_or(|c| !(c.is_ascii_alphanumeric() || c == '_'));
+                before && after
+            });
+            if named {
+                out.push(format!(
+                    "{module} → {name}'s pub(crate) fields ({file}): give {name} methods, or keep it inside {owner}"
+                ));
+            }
+        }
+    }
+    out.sort();
+    out.dedup();
+    out
+}
+
+#[test]
+fn no_layer_reaches_into_another_layers_fields() {
+    let root = plumbline_tests::repo_root().join("analysis").join("src");
+    let mut sources = Vec::new();
+    read_sources(&root, &root, &mut sources);
+    let found = reach_ins(&sources);
+    assert!(found.is_empty(), "types whose pub(crate) fields another layer can reach:\n{}", found.join("\n"));
+}
+
+#[test]
+fn a_reach_into_crate_fields_is_caught() {
+    let source = |module: &str, text: &str| (module.to_string(), format!("{module}/x.rs"), text.to_string());
+    let sources = vec![
+        // `fit` opens a field to the crate; `predict` names the type.
+        source("fit", "pub struct Fit {\n    pub(crate) design: Design,\n    kept: usize,\n}\n"),
+        source("predict", "use crate::fit::Fit;\nfn f(fit: &Fit) -> usize { fit.design.n() }\n"),
+        // Private fields and methods are fine, and so is a type named only in a comment.
+        source(
+            "model",
+            "pub struct Design {\n    columns: Vec<f64>,\n}\nimpl Design { pub(crate) fn n(&self) -> usize { 0 } }\n",
+        ),
+        source("render", "// a Fit is shown elsewhere\nuse crate::model::Design;\n"),
+        // A type named inside a longer identifier is not a reach-in.
+        source("value", "struct FitLike;\n"),
+    ];
+    assert_eq!(types_with_crate_fields(&sources), vec![("fit".to_string(), "Fit".to_string())]);
+    assert_eq!(
+        reach_ins(&sources),
+        vec!["predict → Fit's pub(crate) fields (predict/x.rs): give Fit methods, or keep it inside fit".to_string()]
+    );
+}

@@ -83,7 +83,7 @@ proptest! {
         let y: Vec<f64> = x1.iter().zip(&x2).map(|(a, b)| 4.0 + 2.0 * a - 3.0 * b).collect();
         let spec = ModelSpec::new("y").numeric("x1").numeric("x2");
         let Ok(model) = fit(&frame(&[("y", y), ("x1", x1), ("x2", x2)]), &spec) else { return Ok(()) };
-        prop_assert!(model.solution().residuals.iter().all(|r| r.abs() < 1e-12 && !r.is_nan()));
+        prop_assert!(model.solution().residuals().iter().all(|r| r.abs() < 1e-12 && !r.is_nan()));
         let stats = model.statistics();
         prop_assert!(!stats.r_squared.is_nan() && (stats.r_squared - 1.0).abs() < 1e-12);
         prop_assert!(!stats.residual_std_error.is_nan());

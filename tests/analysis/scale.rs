@@ -115,7 +115,7 @@ fn predictions_of_a_fit_read_in_batches_equal_the_in_memory_predictions() {
 #[test]
 fn partitions_factored_apart_and_merged_in_a_tree_equal_the_single_pass_fit() {
     let (frame, reference) = in_memory(CovarianceKind::Hc1);
-    let recipe = reference.design().recipe.clone();
+    let recipe = reference.design().recipe().clone();
     let n = frame.height();
     for k in [1usize, 7, 64] {
         // Partition i holds rows i, i + k, i + 2k, …: interleaved, as a hash
@@ -147,7 +147,7 @@ fn partitions_factored_apart_and_merged_in_a_tree_equal_the_single_pass_fit() {
             .collect();
         let second = tree(residuals, |a, b| a.merge(&b)).expect("some partitions");
         let mut dropped = DroppedRows::default();
-        designs.iter().for_each(|d| dropped.absorb(&d.dropped));
+        designs.iter().for_each(|d| dropped.absorb(d.dropped()));
         let assembled =
             finish(first, second, recipe.clone(), &CovarianceKind::Hc1, dropped, frame.provenance().clone(), k)
                 .expect("assembled fit");

@@ -59,7 +59,7 @@ fn model_values_retransform_as_documented() {
     let model = fit(&frame, &ModelSpec::new("price").log_target().numeric("area").numeric("months")).expect("fit");
     let medians = model_values(&model, &frame, Retransform::Median).expect("values");
     let means = model_values(&model, &frame, Retransform::SmearingMean).expect("values");
-    let residuals = &model.solution().residuals;
+    let residuals = model.solution().residuals();
     let smear = residuals.iter().map(|r| r.exp()).sum::<f64>() / residuals.len() as f64;
     for (m, s) in medians.iter().zip(&means) {
         let (m, s) = (m.expect("median"), s.expect("mean"));
@@ -231,7 +231,7 @@ fn every_page_builds_the_value_up_exactly_from_the_typical_home() {
 fn a_twin_of_a_sale_gets_its_time_adjusted_price_back() {
     let (sales, model, _) = demo_model_e();
     let dates = sales.date_column("sale_date").expect("dates");
-    let rows = &model.design().rows_used;
+    let rows = model.design().rows_used();
     let row = *rows
         .iter()
         .find(|&&r| dates[r].is_some_and(|d| d.to_string().as_str() >= "2025-06-01"))

@@ -166,7 +166,7 @@ fn model_charts() {
 fn distribution_charts() {
     let (frame, model) = longley();
     let size = PlotSize::default();
-    let residuals = model.solution().residuals.clone();
+    let residuals = model.solution().residuals().to_vec();
     check("histogram", || plot::histogram(&residuals, "residual", size).expect("draw"), 0.05, 0.7);
     check(
         "heatmap",

@@ -196,7 +196,7 @@ pub(super) struct Candidates<'a> {
 impl<'a> Candidates<'a> {
     pub fn read(fit: &'a Fit, sales: &'a Frame, options: &PageOptions) -> Result<Self> {
         let design = fit.design();
-        let rows = &design.rows_used;
+        let rows = design.rows_used();
         let to = dates::require_iso_date("the valuation date", &options.valuation_date)?;
         let from = to.checked_sub_months(Months::new(options.rule.months_back)).ok_or_else(|| Error::OutOfRange {
             what: "the comparables' window".into(),
@@ -237,7 +237,7 @@ impl<'a> Candidates<'a> {
         // Time first, then the model's terms in order.
         let mut order: Vec<usize> = (0..model.terms.len()).filter(|&t| model.terms[t].is_time).collect();
         order.extend((0..model.terms.len()).filter(|&t| !model.terms[t].is_time));
-        let k = self.design.columns.len();
+        let k = self.design.columns().len();
         let mut scored = Vec::new();
         for (i, &row) in self.rows.iter().enumerate() {
             let (Some(date), Some(price)) = (self.dates[row], self.prices[row]) else { continue };
@@ -255,7 +255,7 @@ impl<'a> Candidates<'a> {
                     continue;
                 }
             }
-            let x: Vec<f64> = (0..k).map(|j| self.design.columns[j].hi[i]).collect();
+            let x: Vec<f64> = (0..k).map(|j| self.design.columns()[j].hi[i]).collect();
             let moves = model.term_moves(&subject.x, &x);
             let ordered: Vec<f64> = order.iter().map(|&t| moves[t]).collect();
             let steps = step_through(price, &ordered, model.multiplicative);

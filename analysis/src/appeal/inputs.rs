@@ -64,9 +64,9 @@ impl<'a> ModelRows<'a> {
             parcels.require_column(column)?;
         }
         let solution = fit.solution();
-        let recipe = &fit.design().recipe;
+        let recipe = fit.design().recipe();
         let mut coefficients = vec![0.0; recipe.column_names.len()];
-        for (&j, &b) in solution.kept.iter().zip(&solution.coefficients) {
+        for (&j, &b) in solution.kept().iter().zip(solution.coefficients()) {
             coefficients[j] = b;
         }
         let terms = fit
@@ -133,7 +133,7 @@ impl<'a> ModelRows<'a> {
         match &options.reference {
             Reference::Parcel(id) => self.subject(parcels, id, options),
             Reference::Typical => {
-                let rows = &self.fit.design().rows_used;
+                let rows = self.fit.design().rows_used();
                 let (numbers, labels) = term_columns_read(self.fit.spec());
                 let mut home = sales.subset(&rows[..1], "the typical home of the sales")?;
                 for column in numbers {

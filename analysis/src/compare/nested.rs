@@ -47,8 +47,8 @@ pub struct NestedTest {
 
 /// Tests whether `full` improves significantly on `restricted`.
 pub fn nested_test(restricted: &Fit, full: &Fit) -> Result<NestedTest> {
-    let (r, f) = (&restricted.design, &full.design);
-    if r.rows_used != f.rows_used || r.target != f.target || r.weights != f.weights {
+    let (r, f) = (&restricted.design(), &full.design());
+    if r.rows_used() != f.rows_used() || r.target() != f.target() || r.weights() != f.weights() {
         return Err(Error::Comparison(format!(
             "the fits use different rows, targets or weights ({} rows and {} rows); refit both on the same rows \
              (drop rows missing any column of either model first)",
@@ -56,20 +56,20 @@ pub fn nested_test(restricted: &Fit, full: &Fit) -> Result<NestedTest> {
             f.n_rows()
         )));
     }
-    let full_columns: Vec<_> = full.solution.kept.iter().map(|&j| f.columns[j].clone()).collect();
-    for &j in &restricted.solution.kept {
-        let column = &r.columns[j];
+    let full_columns: Vec<_> = full.solution().kept().iter().map(|&j| f.columns()[j].clone()).collect();
+    for &j in restricted.solution().kept() {
+        let column = &r.columns()[j];
         let norm: f64 = column.hi.iter().map(|v| v * v).sum::<f64>().sqrt();
         let projection = auxiliary_regression(&full_columns, &column.hi);
-        if projection.weighted_rss.sqrt() > 1e-9 * norm.max(f64::MIN_POSITIVE) {
+        if projection.weighted_rss().sqrt() > 1e-9 * norm.max(f64::MIN_POSITIVE) {
             return Err(Error::Comparison(format!(
                 "the models are not nested: column `{}` of the first is not a combination of the second's columns",
                 column.name
             )));
         }
     }
-    let k_r = restricted.solution.kept.len();
-    let k_f = full.solution.kept.len();
+    let k_r = restricted.solution().kept().len();
+    let k_f = full.solution().kept().len();
     if k_f <= k_r {
         return Err(Error::Comparison(format!(
             "the second model must have more coefficients than the first ({k_f} vs {k_r}); list the smaller model first"
@@ -78,7 +78,7 @@ pub fn nested_test(restricted: &Fit, full: &Fit) -> Result<NestedTest> {
     let q = k_f - k_r;
     let n = r.n_rows();
     let df = n - k_f;
-    let (rss_r, rss_f) = (restricted.solution.weighted_rss, full.solution.weighted_rss);
+    let (rss_r, rss_f) = (restricted.solution().weighted_rss(), full.solution().weighted_rss());
     let f_statistic = ((rss_r - rss_f) / q as f64) / (rss_f / df as f64);
     let lr_statistic = n as f64 * (rss_r / rss_f).ln();
     let lr_p_value = ChiSquared::new(q as f64).map(|d| d.sf(lr_statistic.max(0.0))).unwrap_or(f64::NAN);

@@ -62,20 +62,20 @@ fn aux_fit(columns: &[DesignColumn], y: &[f64]) -> (f64, f64, usize) {
     let solution = auxiliary_regression(columns, y);
     let mean = y.iter().sum::<f64>() / y.len() as f64;
     let tss: f64 = y.iter().map(|v| (v - mean).powi(2)).sum();
-    let ess = tss - solution.weighted_rss;
+    let ess = tss - solution.weighted_rss();
     let r2 = if tss > 0.0 { ess / tss } else { 0.0 };
-    (r2, ess, solution.kept.len())
+    (r2, ess, solution.kept().len())
 }
 
 impl Fit {
     /// The weighted kept design columns, with a constant added when the model has none.
     fn auxiliary_base(&self) -> Vec<DesignColumn> {
         let data = self.weighted_rows();
-        let k = self.solution.kept.len();
+        let k = self.solution().kept().len();
         let mut columns: Vec<DesignColumn> = (0..k)
             .map(|a| {
                 column(
-                    self.design.columns[self.solution.kept[a]].name.as_str(),
+                    self.design().columns()[self.solution().kept()[a]].name.as_str(),
                     data.rows.iter().map(|r| r[a]).collect(),
                 )
             })
@@ -115,7 +115,7 @@ impl Fit {
     pub fn breusch_pagan_studentized(&self) -> TestResult {
         /// The cache key of this test's result.
         struct Studentized(TestResult);
-        self.derived.get_or_compute(|| Studentized(self.compute_breusch_pagan_studentized())).0.clone()
+        self.derived().get_or_compute(|| Studentized(self.compute_breusch_pagan_studentized())).0.clone()
     }
 
     fn compute_breusch_pagan_studentized(&self) -> TestResult {
@@ -184,9 +184,9 @@ impl Fit {
         let data = self.weighted_rows();
         let e = &data.residuals;
         let n = e.len();
-        let k = self.solution.kept.len();
+        let k = self.solution().kept().len();
         let d = e.windows(2).map(|w| (w[1] - w[0]).powi(2)).sum::<f64>() / e.iter().map(|v| v * v).sum::<f64>();
-        let c = &self.solution.unscaled_covariance;
+        let c = self.solution().unscaled_covariance();
         // B = XᵀAX = (ΔX)ᵀ(ΔX);  G = (AX)ᵀ(AX).
         let x = &data.rows;
         let mut b = vec![vec![0.0; k]; k];
@@ -250,24 +250,24 @@ impl Fit {
 
     /// Ramsey's RESET: do powers of the fitted values explain what the model missed?
     pub fn reset_test(&self) -> TestResult {
-        let n = self.design.n_rows();
-        let fitted: Vec<f64> = (0..n).map(|i| self.design.target[i] - self.solution.residuals[i]).collect();
+        let n = self.design().n_rows();
+        let fitted: Vec<f64> = (0..n).map(|i| self.design().target()[i] - self.solution().residuals()[i]).collect();
         let mut columns: Vec<DesignColumn> =
-            self.solution.kept.iter().map(|&j| self.design.columns[j].clone()).collect();
+            self.solution().kept().iter().map(|&j| self.design().columns()[j].clone()).collect();
         columns.push(column("fitted^2", fitted.iter().map(|v| v * v).collect()));
         columns.push(column("fitted^3", fitted.iter().map(|v| v * v * v).collect()));
         let tolerance = crate::fit::default_rank_tolerance(n, columns.len());
         let augmented = crate::fit::solver::solve(
             &columns,
-            &self.design.target,
-            self.design.weights.as_deref(),
+            self.design().target(),
+            self.design().weights(),
             crate::fit::Precision::Auto,
             tolerance,
         );
-        let q = augmented.kept.len() - self.solution.kept.len();
-        let df2 = (n - augmented.kept.len()) as f64;
-        let rss_r = self.solution.weighted_rss;
-        let rss_u = augmented.weighted_rss;
+        let q = augmented.kept().len() - self.solution().kept().len();
+        let df2 = (n - augmented.kept().len()) as f64;
+        let rss_r = self.solution().weighted_rss();
+        let rss_u = augmented.weighted_rss();
         let statistic = if q > 0 && rss_u > 0.0 { ((rss_r - rss_u) / q as f64) / (rss_u / df2) } else { 0.0 };
         TestResult {
             name: "RESET".into(),
@@ -283,7 +283,7 @@ impl Fit {
     pub fn assumption_tests(&self) -> Vec<TestResult> {
         /// The cache key of the whole set.
         struct AllTests(Vec<TestResult>);
-        self.derived.get_or_compute(|| AllTests(self.compute_assumption_tests())).0.clone()
+        self.derived().get_or_compute(|| AllTests(self.compute_assumption_tests())).0.clone()
     }
 
     fn compute_assumption_tests(&self) -> Vec<TestResult> {

@@ -65,13 +65,13 @@ impl Fit {
     /// VIF/GVIF per term and the condition indices of the design (computed
     /// once per fit).
     pub fn collinearity(&self) -> Collinearity {
-        (*self.derived.get_or_compute(|| self.compute_collinearity())).clone()
+        (*self.derived().get_or_compute(|| self.compute_collinearity())).clone()
     }
 
     fn compute_collinearity(&self) -> Collinearity {
-        let kept = &self.solution.kept;
-        let columns = &self.design.columns;
-        let n = self.design.n_rows();
+        let kept = self.solution().kept();
+        let columns = self.design().columns();
+        let n = self.design().n_rows();
         // Non-intercept kept columns, centred and scaled to unit length.
         let slopes: Vec<usize> = kept.iter().copied().filter(|&j| columns[j].name != INTERCEPT_NAME).collect();
         let standardized: Vec<Vec<f64>> = slopes
@@ -107,7 +107,7 @@ impl Fit {
             }
         };
         let mut terms = Vec::new();
-        for span in &self.design.recipe.term_spans {
+        for span in &self.design().recipe().term_spans {
             let inside: Vec<usize> = all.iter().copied().filter(|&a| span.columns.contains(&slopes[a])).collect();
             if inside.is_empty() {
                 continue;
@@ -127,7 +127,7 @@ impl Fit {
 
         // Condition indices of the unit-length-scaled design (intercept included).
         // (Weighted fits: the design of the transformed model, rows times √w.)
-        let root_w: Vec<f64> = (0..n).map(|i| self.design.weights.as_ref().map_or(1.0, |w| w[i].sqrt())).collect();
+        let root_w: Vec<f64> = (0..n).map(|i| self.design().weights().map_or(1.0, |w| w[i].sqrt())).collect();
         let norms: Vec<f64> = kept
             .iter()
             .map(|&j| columns[j].hi.iter().zip(&root_w).map(|(v, r)| (v * r).powi(2)).sum::<f64>().sqrt())
@@ -149,7 +149,7 @@ impl Fit {
         indices.sort_by(f64::total_cmp);
         Collinearity {
             terms,
-            condition_number: self.solution.condition_number,
+            condition_number: self.solution().condition_number(),
             condition_indices: indices,
             centered_condition_number,
         }

@@ -73,7 +73,7 @@ impl Fit {
         };
         let influence = self.influence();
         let n = influence.rows.len();
-        let k = self.solution.kept.len();
+        let k = self.solution().kept().len();
         let (studentized_cutoff, leverage_cutoff, cooks_cutoff) =
             (STUDENTIZED_CUTOFF, leverage_cutoff(k, n), cooks_cutoff(n));
         let mut rows: Vec<FlaggedRow> = influence

@@ -52,17 +52,17 @@ pub struct Influence {
 impl Fit {
     /// Influence measures of every row (computed once per fit).
     pub fn influence(&self) -> Influence {
-        (*self.derived.get_or_compute(|| self.compute_influence())).clone()
+        (*self.derived().get_or_compute(|| self.compute_influence())).clone()
     }
 
     fn compute_influence(&self) -> Influence {
         let data = self.weighted_rows();
-        let c = &self.solution.unscaled_covariance;
+        let c = self.solution().unscaled_covariance();
         let h = leverages(&data.rows, c);
         let n = data.rows.len();
-        let k = self.solution.kept.len();
+        let k = self.solution().kept().len();
         let df = (n - k) as f64;
-        let s2 = self.solution.weighted_rss / df;
+        let s2 = self.solution().weighted_rss() / df;
         let s = s2.sqrt();
         let mut rows = Vec::with_capacity(n);
         let mut dfbetas = Vec::with_capacity(n);
@@ -90,7 +90,7 @@ impl Fit {
                 .collect();
             dfbetas.push(row_dfbetas);
             rows.push(InfluenceRow {
-                row: self.design.rows_used[i] + 1,
+                row: self.design().rows_used()[i] + 1,
                 residual: e,
                 leverage: hi,
                 standardized,

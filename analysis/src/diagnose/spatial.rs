@@ -143,7 +143,7 @@ impl Fit {
     /// leaving it out would change the weights.
     pub(crate) fn places(&self, frame: &Frame, options: &SpatialOptions) -> Result<FitPlaces> {
         self.require_fitting_frame(frame)?;
-        let rows = &self.design.rows_used;
+        let rows = self.design().rows_used();
         let (xs, ys) = frame.places_at(
             (&options.x_column, &options.y_column),
             rows,
@@ -174,14 +174,15 @@ impl Fit {
             options.style,
         )?;
         let rows = self.weighted_rows();
-        let k = self.solution.kept.len();
+        let k = self.solution().kept().len();
         let columns: Vec<Vec<f64>> = (0..k).map(|a| rows.rows.iter().map(|r| r[a]).collect()).collect();
-        let moran = moran_test_of_residuals(&rows.residuals, &columns, &self.solution.unscaled_covariance, &weights)?;
+        let moran =
+            moran_test_of_residuals(&rows.residuals, &columns, self.solution().unscaled_covariance(), &weights)?;
         let by_group = match &places.groups {
             None => Vec::new(),
             Some(groups) => {
                 let mut members: BTreeMap<&str, Vec<f64>> = BTreeMap::new();
-                for (g, r) in groups.iter().zip(&self.solution.residuals) {
+                for (g, r) in groups.iter().zip(self.solution().residuals()) {
                     members.entry(g.as_str()).or_default().push(*r);
                 }
                 members

@@ -58,14 +58,14 @@ impl FitOptions {
 /// A fitted least-squares model.
 #[derive(Debug, Clone)]
 pub struct Fit {
-    pub(crate) design: Design,
-    pub(crate) solution: Solution,
-    pub(crate) covariance: Vec<Vec<f64>>,
-    pub(crate) covariance_kind: CovarianceKind,
-    pub(crate) cluster_count: Option<usize>,
-    pub(crate) provenance: Provenance,
+    design: Design,
+    solution: Solution,
+    covariance: Vec<Vec<f64>>,
+    covariance_kind: CovarianceKind,
+    cluster_count: Option<usize>,
+    provenance: Provenance,
     /// Derived results computed once and shared by clones (see [`derived`]).
-    pub(crate) derived: std::sync::Arc<derived::Derived>,
+    derived: std::sync::Arc<derived::Derived>,
 }
 
 /// Fits `spec` to `frame` by ordinary (or, with weights, weighted) least
@@ -85,12 +85,12 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
     let n = design.n_rows();
 
     if spec.has_intercept() {
-        let first = design.target[0];
-        if design.target.iter().all(|&v| v == first) {
+        let first = design.target()[0];
+        if design.target().iter().all(|&v| v == first) {
             return Err(Error::ConstantTarget { target: spec.target_label(), value: first });
         }
     }
-    let p = design.columns.len();
+    let p = design.columns().len();
     let tolerance = options.rank_tolerance.unwrap_or_else(|| default_rank_tolerance(n, p));
     if !(tolerance > 0.0 && tolerance < 1.0) {
         return Err(Error::OutOfRange {
@@ -99,13 +99,12 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
             value: tolerance.to_string(),
         });
     }
-    let solution =
-        solver::solve(&design.columns, &design.target, design.weights.as_deref(), options.precision, tolerance);
-    if solution.kept.is_empty() {
+    let solution = solver::solve(design.columns(), design.target(), design.weights(), options.precision, tolerance);
+    if solution.kept().is_empty() {
         return Err(Error::SingularDesign { detail: "every design column is zero on the rows used".into() });
     }
-    if n <= solution.kept.len() {
-        return Err(Error::TooFewRows { rows: n, columns: solution.kept.len() });
+    if n <= solution.kept().len() {
+        return Err(Error::TooFewRows { rows: n, columns: solution.kept().len() });
     }
 
     let (covariance, cluster_count) =
@@ -123,9 +122,9 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
 
 pub(crate) fn weighted_rows(design: &Design, solution: &Solution) -> WeightedRows {
     let n = design.n_rows();
-    let root = |i: usize| design.weights.as_ref().map_or(1.0, |w| w[i].sqrt());
-    let rows = (0..n).map(|i| solution.kept.iter().map(|&j| design.columns[j].hi[i] * root(i)).collect()).collect();
-    let residuals = solution.residuals.iter().enumerate().map(|(i, r)| r * root(i)).collect();
+    let root = |i: usize| design.weights().map_or(1.0, |w| w[i].sqrt());
+    let rows = (0..n).map(|i| solution.kept().iter().map(|&j| design.columns()[j].hi[i] * root(i)).collect()).collect();
+    let residuals = solution.residuals().iter().enumerate().map(|(i, r)| r * root(i)).collect();
     WeightedRows { rows, residuals }
 }
 
@@ -136,12 +135,12 @@ fn estimate_covariance(
     frame: &Frame,
     cluster_column: Option<&str>,
 ) -> Result<(Vec<Vec<f64>>, Option<usize>)> {
-    let c = &solution.unscaled_covariance;
+    let c = solution.unscaled_covariance();
     let n = design.n_rows();
-    let k = solution.kept.len();
+    let k = solution.kept().len();
     Ok(match kind {
         CovarianceKind::Classical => {
-            let s2 = solution.weighted_rss / (n - k) as f64;
+            let s2 = solution.weighted_rss() / (n - k) as f64;
             (c.iter().map(|row| row.iter().map(|v| v * s2).collect()).collect(), None)
         }
         CovarianceKind::Hc0 | CovarianceKind::Hc1 | CovarianceKind::Hc2 | CovarianceKind::Hc3 => {
@@ -158,7 +157,7 @@ fn estimate_covariance(
             let labels = frame.label_column(column)?;
             let mut ids: std::collections::BTreeMap<String, usize> = std::collections::BTreeMap::new();
             let groups: Vec<usize> = design
-                .rows_used
+                .rows_used()
                 .iter()
                 .map(|&r| {
                     let label = labels[r].clone().unwrap_or_default();
@@ -191,7 +190,7 @@ impl Fit {
 
     /// The specification that was fitted.
     pub fn spec(&self) -> &ModelSpec {
-        &self.design.recipe.spec
+        &self.design.recipe().spec
     }
 
     /// Provenance of the fitting data.
@@ -219,14 +218,26 @@ impl Fit {
         &self.covariance
     }
 
+    /// For cluster-robust standard errors, the number of clusters on the rows used.
+    pub fn cluster_count(&self) -> Option<usize> {
+        self.cluster_count
+    }
+
+    /// The results derived from this fit once and shared by its clones
+    /// (influence, collinearity, assumption tests): the layers that compute
+    /// them store them here ([`derived::Derived::get_or_compute`]).
+    pub(crate) fn derived(&self) -> &derived::Derived {
+        &self.derived
+    }
+
     /// Names of the estimated design columns, in design order.
     pub fn estimated_names(&self) -> Vec<&str> {
-        self.solution.kept.iter().map(|&j| self.design.columns[j].name.as_str()).collect()
+        self.solution.kept().iter().map(|&j| self.design.columns()[j].name.as_str()).collect()
     }
 
     /// Names of design columns left out as linearly dependent on the others.
     pub fn aliased_names(&self) -> Vec<&str> {
-        self.solution.aliased.iter().map(|&j| self.design.columns[j].name.as_str()).collect()
+        self.solution.aliased().iter().map(|&j| self.design.columns()[j].name.as_str()).collect()
     }
 
     /// The same model with another covariance estimator (no refit of the
@@ -260,7 +271,7 @@ impl Fit {
 
     /// Leverages (hat values) `hᵢ` of the rows used, in design row order.
     pub fn leverages(&self) -> Vec<f64> {
-        covariance::leverages(&self.weighted_rows().rows, &self.solution.unscaled_covariance)
+        covariance::leverages(&self.weighted_rows().rows, self.solution.unscaled_covariance())
     }
 
     /// The weighted rows and residuals of the kept columns (computed once).

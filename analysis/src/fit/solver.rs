@@ -55,26 +55,70 @@ pub enum SolverMethod {
     },
 }
 
-/// The solution of a (weighted) least-squares problem.
+/// The solution of a (weighted) least-squares problem. Built only by the
+/// solvers of this module; read through its accessors.
 #[derive(Debug, Clone)]
 pub struct Solution {
     /// Indices (into the design columns) of the columns estimated, ascending.
-    pub kept: Vec<usize>,
+    kept: Vec<usize>,
     /// Indices of the columns found linearly dependent on the kept ones.
-    pub aliased: Vec<usize>,
+    aliased: Vec<usize>,
     /// Estimates for the kept columns, in the order of `kept`.
-    pub coefficients: Vec<f64>,
+    coefficients: Vec<f64>,
     /// `(XᵀWX)⁻¹` restricted to the kept columns (original units), row-major.
-    pub unscaled_covariance: Vec<Vec<f64>>,
+    unscaled_covariance: Vec<Vec<f64>>,
     /// Raw residuals `y − Xb` (unweighted), one per design row.
-    pub residuals: Vec<f64>,
+    residuals: Vec<f64>,
     /// `Σ wᵢ rᵢ²`, accumulated in double-double.
-    pub weighted_rss: f64,
+    weighted_rss: f64,
     /// 2-norm condition number of the weighted design with columns scaled to
     /// unit length (Belsley, Kuh & Welsch 1980, *Regression Diagnostics*, §3.2).
-    pub condition_number: f64,
+    condition_number: f64,
     /// The algorithm used.
-    pub method: SolverMethod,
+    method: SolverMethod,
+}
+
+impl Solution {
+    /// Indices (into the design columns) of the columns estimated, ascending.
+    pub fn kept(&self) -> &[usize] {
+        &self.kept
+    }
+
+    /// Indices of the columns found linearly dependent on the kept ones.
+    pub fn aliased(&self) -> &[usize] {
+        &self.aliased
+    }
+
+    /// Estimates for the kept columns, in the order of [`Solution::kept`].
+    pub fn coefficients(&self) -> &[f64] {
+        &self.coefficients
+    }
+
+    /// `(XᵀWX)⁻¹` restricted to the kept columns (original units), row by row.
+    pub fn unscaled_covariance(&self) -> &[Vec<f64>] {
+        &self.unscaled_covariance
+    }
+
+    /// Raw residuals `y − Xb` (unweighted), one per design row.
+    pub fn residuals(&self) -> &[f64] {
+        &self.residuals
+    }
+
+    /// `Σ wᵢ rᵢ²`, accumulated in double-double.
+    pub fn weighted_rss(&self) -> f64 {
+        self.weighted_rss
+    }
+
+    /// 2-norm condition number of the weighted, unit-scaled design
+    /// (Belsley, Kuh & Welsch 1980, §3.2).
+    pub fn condition_number(&self) -> f64 {
+        self.condition_number
+    }
+
+    /// The algorithm used.
+    pub fn method(&self) -> SolverMethod {
+        self.method
+    }
 }
 
 /// The default numerical-rank tolerance for an `n × p` design.

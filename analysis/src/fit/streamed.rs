@@ -63,23 +63,23 @@ impl FactorAggregate {
         if n == 0 {
             return;
         }
-        let p = design.columns.len();
-        let weight = |i: usize| design.weights.as_ref().map_or(1.0, |w| w[i]);
+        let p = design.columns().len();
+        let weight = |i: usize| design.weights().map_or(1.0, |w| w[i]);
         let root: Vec<f64> = (0..n).map(|i| DoubleDouble::from(weight(i)).sqrt().to_f64()).collect();
         let piece = tsqr::factor_rows(n, p + 1, tsqr::available_threads(), |i, j| {
             if j < p {
-                design.columns[j].hi[i] * root[i]
+                design.columns()[j].hi[i] * root[i]
             } else {
-                design.target[i] * root[i]
+                design.target()[i] * root[i]
             }
         });
         self.factor = std::mem::replace(&mut self.factor, TallSkinnyQr::new(p + 1)).merge(&piece);
         self.rows += n;
         for i in 0..n {
             self.total_weight += DoubleDouble::from(weight(i));
-            self.weighted_target += DoubleDouble::from_product(weight(i), design.target[i]);
+            self.weighted_target += DoubleDouble::from_product(weight(i), design.target()[i]);
         }
-        if let Some(w) = &design.weights {
+        if let Some(w) = &design.weights() {
             self.sum_log_weight += w.iter().map(|v| v.ln()).sum::<f64>();
         }
     }
@@ -169,16 +169,16 @@ impl ResidualAggregate {
             return;
         }
         let kept = &first.small.kept;
-        let residuals = super::solver::residuals_dd(&design.columns, kept, &first.coefficients, &design.target);
+        let residuals = super::solver::residuals_dd(design.columns(), kept, &first.coefficients, design.target());
         let centre = first.centre();
-        let weighted = super::solver::weighted_residuals(&residuals, design.weights.as_deref());
-        for (g, sum) in self.gradient.iter_mut().zip(super::solver::gradient(&design.columns, kept, &weighted)) {
+        let weighted = super::solver::weighted_residuals(&residuals, design.weights());
+        for (g, sum) in self.gradient.iter_mut().zip(super::solver::gradient(design.columns(), kept, &weighted)) {
             *g += DoubleDouble::from(sum);
         }
         let sums = pulp::Arch::new().dispatch(RowSums {
             residuals: &residuals,
-            target: &design.target,
-            weights: design.weights.as_deref(),
+            target: design.target(),
+            weights: design.weights(),
             centre,
         });
         self.rss += sums.rss;
@@ -186,7 +186,7 @@ impl ResidualAggregate {
         self.exp_residual_sum += sums.exp_residual_sum;
         if let Some(middle) = &mut self.middle {
             let k = kept.len();
-            let scaled = Mat::<f64>::from_fn(n, k, |i, a| design.columns[kept[a]].hi[i] * weighted[i]);
+            let scaled = Mat::<f64>::from_fn(n, k, |i, a| design.columns()[kept[a]].hi[i] * weighted[i]);
             let product = scaled.transpose() * &scaled;
             for a in 0..k {
                 for b in 0..k {

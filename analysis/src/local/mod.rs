@@ -258,12 +258,12 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
         )));
     }
     let n = design.n_rows();
-    let k = design.columns.len();
-    let rows: Vec<Vec<f64>> = (0..n).map(|i| design.columns.iter().map(|c| c.hi[i]).collect()).collect();
-    let target = design.target.clone();
+    let k = design.columns().len();
+    let rows: Vec<Vec<f64>> = (0..n).map(|i| design.columns().iter().map(|c| c.hi[i]).collect()).collect();
+    let target = design.target().to_vec();
     let (xs, ys) = frame.places_at(
         (&options.x_column, &options.y_column),
-        &design.rows_used,
+        design.rows_used(),
         options.coordinates,
         "the local fit (every sale needs its place)",
         "`--coordinates geographic` (in code, `LocalOptions::geographic()`)",
@@ -271,7 +271,7 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
     let labels = match &options.label_column {
         Some(column) => {
             let groups = frame.label_column(column)?;
-            let used: Vec<Option<String>> = design.rows_used.iter().map(|&r| groups[r].clone()).collect();
+            let used: Vec<Option<String>> = design.rows_used().iter().map(|&r| groups[r].clone()).collect();
             group_labels(&used, &xs, &ys)
         }
         None => Vec::new(),
@@ -286,16 +286,16 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
         BandwidthChoice::LeastAicc => search::least_aicc(&data, options.kernel, k)?,
     };
     let points =
-        require_all(at_every_sale(&data, options.kernel, bandwidth, true), bandwidth, |i| design.rows_used[i])?;
+        require_all(at_every_sale(&data, options.kernel, bandwidth, true), bandwidth, |i| design.rows_used()[i])?;
     let sums = totals(&data, &points);
     let residual_df = n as f64 - 2.0 * sums.trace_s + sums.trace_sts;
     let sigma = (sums.rss / residual_df).sqrt();
-    let terms: Vec<String> = design.columns.iter().map(|c| c.name.clone()).collect();
+    let terms: Vec<String> = design.columns().iter().map(|c| c.name.clone()).collect();
     let local_rows: Vec<LocalRow> = points
         .iter()
         .enumerate()
         .map(|(i, p)| LocalRow {
-            row: design.rows_used[i] + 1,
+            row: design.rows_used()[i] + 1,
             place: places.place(i),
             coefficients: p.coefficients.clone(),
             std_errors: p.unscaled_variances.iter().map(|v| sigma * v.sqrt()).collect(),
@@ -319,7 +319,7 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
         bandwidth,
         search: trace,
         n,
-        spread: spread(&terms, &points, &local_rows, &global.solution().coefficients),
+        spread: spread(&terms, &points, &local_rows, global.solution().coefficients()),
         terms,
         rss: sums.rss,
         effective_parameters: sums.trace_s,
@@ -331,7 +331,7 @@ pub fn fit_local(frame: &Frame, spec: &ModelSpec, options: &LocalOptions) -> Res
         global: GlobalComparison {
             aicc: aicc(n, global_stats.ss_residual, k as f64),
             rss: global_stats.ss_residual,
-            moran: moran_test(&global.solution().residuals, &neighbours, MoranAssumption::Randomisation)?,
+            moran: moran_test(global.solution().residuals(), &neighbours, MoranAssumption::Randomisation)?,
         },
         variation: Vec::new(),
         labels,
@@ -393,7 +393,7 @@ impl LocalFit {
     /// local residuals. A place whose local design is singular is an error.
     pub fn predict(&self, frame: &Frame, level: f64) -> Result<Predictions> {
         crate::stats::check_level(level)?;
-        let recipe = &self.global.design().recipe;
+        let recipe = self.global.design().recipe();
         let applied = recipe.apply(frame)?;
         let options = &self.summary.options;
         let (xs, ys) = (frame.numeric_column(&options.x_column)?, frame.numeric_column(&options.y_column)?);

@@ -76,23 +76,55 @@ pub struct TermSpan {
 }
 
 /// The design matrix `X` (column-wise), target `y` and weights of a fit.
+/// Built only by this module (from a frame, or a recipe's fitting design);
+/// read through its accessors.
 #[derive(Debug, Clone)]
 pub struct Design {
     /// The columns of `X`, intercept first when the model has one.
-    pub columns: Vec<DesignColumn>,
+    columns: Vec<DesignColumn>,
     /// The target, transformed as the specification asks.
-    pub target: Vec<f64>,
+    target: Vec<f64>,
     /// Case weights, when the specification names a weight column.
-    pub weights: Option<Vec<f64>>,
+    weights: Option<Vec<f64>>,
     /// Original 0-based frame row of each design row.
-    pub rows_used: Vec<usize>,
+    rows_used: Vec<usize>,
     /// Rows dropped for missing values.
-    pub dropped: DroppedRows,
+    dropped: DroppedRows,
     /// The learned encodings, for coding new data the same way.
-    pub recipe: DesignRecipe,
+    recipe: DesignRecipe,
 }
 
 impl Design {
+    /// The columns of `X`, intercept first when the model has one.
+    pub fn columns(&self) -> &[DesignColumn] {
+        &self.columns
+    }
+
+    /// The target, transformed as the specification asks.
+    pub fn target(&self) -> &[f64] {
+        &self.target
+    }
+
+    /// Case weights, when the specification names a weight column.
+    pub fn weights(&self) -> Option<&[f64]> {
+        self.weights.as_deref()
+    }
+
+    /// Original 0-based frame row of each design row.
+    pub fn rows_used(&self) -> &[usize] {
+        &self.rows_used
+    }
+
+    /// Rows dropped for missing values.
+    pub fn dropped(&self) -> &DroppedRows {
+        &self.dropped
+    }
+
+    /// The learned encodings, for coding new data the same way.
+    pub fn recipe(&self) -> &DesignRecipe {
+        &self.recipe
+    }
+
     /// Rows in the design.
     pub fn n_rows(&self) -> usize {
         self.target.len()

@@ -25,10 +25,10 @@ pub fn fit_line(fit: &Fit, frame: &Frame, column: &str, level: f64, size: PlotSi
     crate::stats::check_level(level)?;
     let design = fit.design();
     let spans: Vec<(std::ops::Range<usize>, &TermEncoding)> = design
-        .recipe
+        .recipe()
         .term_spans
         .iter()
-        .zip(&design.recipe.encodings)
+        .zip(&design.recipe().encodings)
         .filter(|(_, e)| matches!(e, TermEncoding::Numeric { column: c, .. } if c == column))
         .map(|(s, e)| (s.columns.clone(), e))
         .collect();
@@ -38,16 +38,16 @@ pub fn fit_line(fit: &Fit, frame: &Frame, column: &str, level: f64, size: PlotSi
         )));
     }
     let raw = frame.numeric_column(column)?;
-    let x: Vec<f64> = design.rows_used.iter().map(|&r| raw[r].unwrap_or(f64::NAN)).collect();
-    let y = &design.target;
+    let x: Vec<f64> = design.rows_used().iter().map(|&r| raw[r].unwrap_or(f64::NAN)).collect();
+    let y = design.target();
     let x_range = padded_range(x.iter().copied());
     let (lo, hi) =
         (x.iter().cloned().fold(f64::INFINITY, f64::min), x.iter().cloned().fold(f64::NEG_INFINITY, f64::max));
     let grid: Vec<f64> = (0..=120).map(|i| lo + (hi - lo) * i as f64 / 120.0).collect();
 
     // Design rows for the grid: column means, then the varied terms.
-    let kept = &fit.solution().kept;
-    let means: Vec<f64> = design.columns.iter().map(|c| c.hi.iter().sum::<f64>() / c.hi.len() as f64).collect();
+    let kept = fit.solution().kept();
+    let means: Vec<f64> = design.columns().iter().map(|c| c.hi.iter().sum::<f64>() / c.hi.len() as f64).collect();
     let mut rows: Vec<Vec<f64>> = vec![means; grid.len()];
     let numbers: BTreeMap<String, Vec<f64>> = [(column.to_string(), grid.clone())].into_iter().collect();
     let labels = BTreeMap::new();
@@ -69,7 +69,7 @@ pub fn fit_line(fit: &Fit, frame: &Frame, column: &str, level: f64, size: PlotSi
     let mut pi = Vec::with_capacity(grid.len());
     for (g, row) in grid.iter().zip(&rows) {
         let x0: Vec<f64> = kept.iter().map(|&j| row[j]).collect();
-        let estimate: f64 = x0.iter().zip(&fit.solution().coefficients).map(|(a, b)| a * b).sum();
+        let estimate: f64 = x0.iter().zip(fit.solution().coefficients()).map(|(a, b)| a * b).sum();
         let se = quadratic_form(fit.covariance(), &x0).max(0.0).sqrt();
         line.push((*g, estimate));
         ci.push((*g, estimate - crit * se, estimate + crit * se));

@@ -65,7 +65,7 @@ pub fn residual_map(fit: &Fit, frame: &Frame, options: &SpatialOptions, size: Pl
             100.0 * projection.worst_scale_error
         )
     });
-    let residuals = &fit.solution().residuals;
+    let residuals = fit.solution().residuals();
     let n = residuals.len() as f64;
     let sd = (residuals.iter().map(|r| r * r).sum::<f64>() / n).sqrt().max(f64::MIN_POSITIVE);
     let (x_range, y_range) = equal_scale(&places.xs, &places.ys, size);

@@ -155,12 +155,12 @@ impl ReviewData {
     /// What the fit alone tells: model values, misses, studentized residuals
     /// and Cook's distances; rows named `row N`, no labels, time or groups.
     pub fn of_fit(fit: &Fit) -> ReviewData {
-        let rows = &fit.design().rows_used;
+        let rows = fit.design().rows_used();
         let log_target = fit.spec().target_transform() == TargetTransform::Log;
-        let residuals = &fit.solution().residuals;
-        let fitted: Vec<f64> = fit.design().target.iter().zip(residuals).map(|(y, e)| y - e).collect();
+        let residuals = fit.solution().residuals();
+        let fitted: Vec<f64> = fit.design().target().iter().zip(residuals).map(|(y, e)| y - e).collect();
         let model_value = if log_target { fitted.iter().map(|v| v.exp()).collect() } else { fitted };
-        let miss = if log_target { residuals.iter().map(|e| 100.0 * e.exp_m1()).collect() } else { residuals.clone() };
+        let miss = if log_target { residuals.iter().map(|e| 100.0 * e.exp_m1()).collect() } else { residuals.to_vec() };
         let target = fit.spec().target();
         let (miss_title, value_title) = if log_target {
             (format!("{target} above model value, %"), format!("model value of {target}"))
@@ -193,7 +193,7 @@ impl ReviewData {
     pub fn gather(fit: &Fit, frame: &Frame, options: &ReviewOptions) -> Result<ReviewData> {
         fit.require_fitting_frame(frame)?;
         let mut data = ReviewData::of_fit(fit);
-        let rows = &fit.design().rows_used;
+        let rows = fit.design().rows_used();
         let id_column = options.id_column.as_deref();
         // The order of `Fit::flagged_rows`: Cook's distance descending, ties
         // by data row; only those above 4/n (NaN never is).

@@ -15,7 +15,7 @@ pub fn fit_markdown(fit: &Fit, level: f64) -> crate::Result<String> {
         prov.describe(),
         prov.sha256,
         super::numbers::format_count(stats.n_obs),
-        fit.design().dropped.describe(),
+        fit.design().dropped().describe(),
         fit.covariance_description()
     ));
     out.push_str(&format!(

@@ -125,7 +125,7 @@ pub(crate) fn figure_groups(fit: &Fit) -> Vec<FigureGroup> {
         heading: "numerics",
         items: vec![
             ("condition number".into(), format_significant(stats.condition_number, 4)),
-            ("solver".into(), solver_words(fit.solution().method)),
+            ("solver".into(), solver_words(fit.solution().method())),
         ],
     };
     vec![fit_group, together, comparing, numerics]

@@ -114,7 +114,7 @@ pub fn fit_html(fit: &Fit, level: f64) -> crate::Result<String> {
     let stats = fit.statistics();
     let spec = fit.spec();
     let prov = fit.provenance();
-    let dropped = &fit.design().dropped;
+    let dropped = fit.design().dropped();
     let pct = percent(level);
     let mut out = String::new();
     card_start(&mut out, &format!("Least-squares fit of {}", spec.target_label()));
@@ -125,7 +125,7 @@ pub fn fit_html(fit: &Fit, level: f64) -> crate::Result<String> {
         format_count(stats.n_obs),
         escape(&dropped.describe())
     ));
-    let terms: Vec<String> = fit.design().recipe.term_spans.iter().map(|s| s.label.clone()).collect();
+    let terms: Vec<String> = fit.design().recipe().term_spans.iter().map(|s| s.label.clone()).collect();
     out.push_str(&format!(
         "<div style=\"margin:6px 0\">Terms: {}{}{}. Standard errors: {}.</div>\n",
         escape(&terms.join(", ")),

@@ -79,7 +79,7 @@ pub fn fit_text(fit: &Fit, level: f64) -> Result<String> {
     let stats = fit.statistics();
     let spec = fit.spec();
     let prov = fit.provenance();
-    let dropped = &fit.design().dropped;
+    let dropped = fit.design().dropped();
     let mut out = String::new();
 
     out.push_str(&format!("Least-squares fit of {}\n", spec.target_label()));

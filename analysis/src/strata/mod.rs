@@ -182,7 +182,7 @@ pub fn fit_by_with(frame: &Frame, spec: &ModelSpec, column: &str, options: &FitO
     for (label, rows) in &groups {
         let subset = frame.subset(rows, &format!("{column} = {label}"))?;
         let outcome = match fit_with(&subset, spec, options).and_then(|fit| {
-            check_levels(&fit.design().recipe)?;
+            check_levels(fit.design().recipe())?;
             Ok(fit)
         }) {
             Ok(fit) => StratumOutcome::Fitted(StratumModel::InMemory(Box::new(fit))),

@@ -130,7 +130,7 @@ fn move_along_trend(
              so there is nothing to adjust by; add it as a term"
         ))
     })?;
-    let slope = fit.solution().coefficients[position];
+    let slope = fit.solution().coefficients()[position];
     let steps: Vec<Option<f64>> = match (&date_term, to) {
         (Some(part), TimePoint::Date(text)) => {
             let to_date = dates::require_iso_date("the valuation date", text)?;
