@@ -5,6 +5,7 @@ request is answered, its idle status published (iopub flushed), and the process
 ends. Each test starts its own kernel, after the kernels of other modules ended
 (kernels share the engine's build directory).
 """
+import pathlib
 import time
 
 from jupyter_client.manager import start_new_kernel
@@ -13,6 +14,25 @@ from conftest import install_kernelspec
 from kernel_messages import TIMEOUT, run
 
 install_kernelspec()
+
+
+def descendants_of(pid):
+    """Every live process below `pid`, read from /proc (Linux)."""
+    parents = {}
+    for entry in pathlib.Path("/proc").iterdir():
+        if entry.name.isdigit():
+            try:
+                fields = (entry / "stat").read_text().split(")")[-1].split()
+                parents[int(entry.name)] = int(fields[1])
+            except (OSError, ValueError, IndexError):
+                continue
+    found, frontier = [], [pid]
+    while frontier:
+        parent = frontier.pop()
+        children = [p for p, pp in parents.items() if pp == parent]
+        found += children
+        frontier += children
+    return found
 
 
 def test_a_fresh_kernel_shows_its_preparation_then_runs_the_first_cell():
@@ -38,6 +58,8 @@ def test_shutdown_flushes_iopub_and_ends_the_process():
     try:
         reply, _ = run(kc, 'println!("one cell");', timeout=TIMEOUT)
         assert reply["content"]["status"] == "ok"
+        descendants = descendants_of(km.provisioner.process.pid)
+        assert descendants, "the kernel runs its cells in a process of its own"
         message = kc.session.msg("shutdown_request", {"restart": False})
         kc.control_channel.send(message)
         reply = kc.get_control_msg(timeout=30)
@@ -51,8 +73,15 @@ def test_shutdown_flushes_iopub_and_ends_the_process():
                 idle = m
         assert idle is not None, "the shutdown request's idle status was not published"
         process = km.provisioner.process
+        asked = time.monotonic()
         process.wait(timeout=30)
+        print(f"the kernel process ended {time.monotonic() - asked:.2f} s after its shutdown reply was read")
         assert process.returncode == 0
+        # Nothing it started is left running: the cell process and anything the engine ran.
+        time.sleep(0.5)  # the cell process is killed with the kernel; give the kernel's SIGKILL time to land
+        left = [pid for pid in descendants if pathlib.Path(f"/proc/{pid}").exists()
+                and "Z" not in pathlib.Path(f"/proc/{pid}/stat").read_text().split(")")[-1].split()[0]]
+        assert not left, f"processes of the kernel still running after it ended: {left}"
     finally:
         kc.stop_channels()
         if km.is_alive():

@@ -56,14 +56,17 @@ pub fn run(
                 let build_dir = config.build_dir.clone();
                 let engine = PreparedEngine::start(config);
                 let (answered_tx, answered) = tokio::sync::oneshot::channel();
-                start_next_standby_later(&engine, answered, build_dir);
-                let hooks = ServeHooks { first_cell_answered: Some(answered_tx), ..ServeHooks::default() };
+                let mut companions = tokio::task::JoinSet::new();
+                start_next_standby_later(&mut companions, &engine, answered, build_dir);
+                let hooks = ServeHooks { companions, first_cell_answered: Some(answered_tx), ..ServeHooks::default() };
                 crate::server::serve(connection, engine, hooks).await
             })
         }
         None => runtime.block_on(wait_as_standby(config, launch_environment)),
     };
-    // Tasks still blocked on sockets or on the engine thread end with the process.
+    // Every task the kernel spawned has ended (`serve` waits for them); what
+    // may remain are blocking calls into the engine thread (completion,
+    // inspection), which cannot be cancelled and end with the process.
     runtime.shutdown_background();
     served.map_err(|e| CommandError::Runtime(e.to_string()))?;
     Ok(String::new())
@@ -143,7 +146,8 @@ async fn wait_as_standby(
     // The launcher's line `interrupt` interrupts; its end ends this kernel.
     let (ended_tx, ended_rx) = tokio::sync::oneshot::channel();
     let interrupter = engine.session.interrupter();
-    tokio::spawn(async move {
+    let mut companions = tokio::task::JoinSet::new();
+    companions.spawn(async move {
         use tokio::io::AsyncBufReadExt;
         let mut lines = tokio::io::BufReader::new(stream).lines();
         while let Ok(Some(line)) = lines.next_line().await {
@@ -154,8 +158,8 @@ async fn wait_as_standby(
         let _ = ended_tx.send(());
     });
     let (answered_tx, answered) = tokio::sync::oneshot::channel();
-    start_next_standby_later(&engine, answered, build_dir);
-    let hooks = ServeHooks { ended_elsewhere: Some(ended_rx), first_cell_answered: Some(answered_tx) };
+    start_next_standby_later(&mut companions, &engine, answered, build_dir);
+    let hooks = ServeHooks { companions, ended_elsewhere: Some(ended_rx), first_cell_answered: Some(answered_tx) };
     crate::server::serve(connection, engine, hooks).await
 }
 
@@ -168,12 +172,13 @@ const STANDBY_START_WITHOUT_A_CELL: std::time::Duration = std::time::Duration::f
 /// passed without one): preparing a standby takes a core for most of a
 /// minute, which the analyst's first cell should not have to share.
 fn start_next_standby_later(
+    tasks: &mut tokio::task::JoinSet<()>,
     engine: &PreparedEngine,
     first_cell_answered: tokio::sync::oneshot::Receiver<()>,
     build_dir: PathBuf,
 ) {
     let ready = engine.preparation_watch();
-    tokio::spawn(async move {
+    tasks.spawn(async move {
         if PreparedEngine::settled_in(ready).await.is_err() {
             return;
         }

@@ -13,6 +13,10 @@
 //!   behind a running cell;
 //! * stdin (ROUTER): bound; cells do not ask for input.
 //!
+//! Every task above (and the caller's companions, [`ServeHooks`]) sits in
+//! one `JoinSet` that [`serve`] owns; at shutdown it ends them all and waits
+//! for them, bounded, then for the socket library's writers.
+//!
 //! The engine thread owns the evaluation engine (see `eval::Session`). A
 //! cell's output reaches iopub through that cell's own event stream, so it
 //! always carries the cell's request as parent and precedes its reply. Lines
@@ -36,10 +40,10 @@ use std::sync::{Arc, Mutex, OnceLock};
 use std::time::Instant;
 use zeromq::{PubSocket, RepSocket, RouterSocket, Socket, SocketRecv, SocketSend, ZmqMessage};
 
-/// How long the sockets may write their queued messages at exit (see the
-/// end of [`serve`]): 0.3 s. Measured on the test machine: without it the
-/// shutdown reply was lost in 2 of 7 runs, with it in none of 5.
-const EXIT_LINGER: std::time::Duration = std::time::Duration::from_millis(300);
+/// The longest the kernel waits at shutdown for its tasks, and then for the
+/// socket library's writers, to end (see the end of [`serve`]): 2 s each. A
+/// task still running then is reported on stderr and ends with the process.
+const TASKS_END_WITHIN: std::time::Duration = std::time::Duration::from_secs(2);
 
 /// Why the kernel could not serve.
 #[derive(Debug, thiserror::Error)]
@@ -162,6 +166,10 @@ impl PreparedEngine {
 /// What a caller of [`serve`] hears and says besides the protocol.
 #[derive(Default)]
 pub struct ServeHooks {
+    /// The caller's own tasks for this kernel (a launcher's line reader, the
+    /// next standby's start): [`serve`] owns them from here on and ends
+    /// them with its own at shutdown.
+    pub companions: tokio::task::JoinSet<()>,
     /// When it fires, the kernel ends as on a shutdown request (a standby's
     /// launcher went away).
     pub ended_elsewhere: Option<tokio::sync::oneshot::Receiver<()>>,
@@ -173,7 +181,7 @@ pub struct ServeHooks {
 /// a shutdown request (or `hooks.ended_elsewhere`); then stops the cell
 /// process and flushes iopub before returning.
 pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: ServeHooks) -> Result<(), ServeError> {
-    let ServeHooks { ended_elsewhere, mut first_cell_answered } = hooks;
+    let ServeHooks { companions: mut tasks, ended_elsewhere, mut first_cell_answered } = hooks;
     let signer = Signer::new(&connection.key);
     let session_id = uuid::Uuid::new_v4().to_string();
     let mut shell = RouterSocket::new();
@@ -191,7 +199,7 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
     // queued before it has been sent.
     let (iopub_tx, mut iopub_rx) = tokio::sync::mpsc::unbounded_channel::<Outgoing>();
     let publisher_signer = signer.clone();
-    tokio::spawn(async move {
+    tasks.spawn(async move {
         while let Some(outgoing) = iopub_rx.recv().await {
             match outgoing {
                 Outgoing::Publish(message) => {
@@ -207,7 +215,7 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
     });
 
     // Heartbeat.
-    tokio::spawn(async move {
+    tasks.spawn(async move {
         while let Ok(ping) = heartbeat.recv().await {
             if heartbeat.send(ping).await.is_err() {
                 break;
@@ -232,7 +240,7 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
     shared.status(None, "idle");
 
     let stray_shared = Arc::downgrade(&shared);
-    tokio::spawn(async move {
+    tasks.spawn(async move {
         while let Some(line) = stray_rx.recv().await {
             let Some(shared) = stray_shared.upgrade() else { break };
             let parent = shared.latest_cell.lock().ok().and_then(|c| c.clone());
@@ -242,7 +250,7 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
 
     // SIGINT interrupts the running cell (and does nothing while idle).
     let interrupter = shared.engine.interrupter();
-    tokio::spawn(async move {
+    tasks.spawn(async move {
         while tokio::signal::ctrl_c().await.is_ok() {
             interrupter.interrupt();
         }
@@ -253,7 +261,7 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
     if let Some(ended) = ended_elsewhere {
         let stop = stop_tx.clone();
         let engine = shared.engine.clone();
-        tokio::spawn(async move {
+        tasks.spawn(async move {
             if ended.await.is_ok() {
                 engine.terminate();
                 let _ = stop.send(()).await;
@@ -264,7 +272,7 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
     // Control, on its own task.
     let control_shared = shared.clone();
     let control_stop = stop_tx.clone();
-    tokio::spawn(async move {
+    tasks.spawn(async move {
         loop {
             let Ok(raw) = control.recv().await else { break };
             let Some(request) = handlers::decode(&control_shared, to_frames(raw)) else { continue };
@@ -284,13 +292,13 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
     });
 
     // Stdin is bound so that clients can connect; cells never request input.
-    tokio::spawn(async move { while stdin.recv().await.is_ok() {} });
+    tasks.spawn(async move { while stdin.recv().await.is_ok() {} });
 
     // Shell: a reader queues verified requests in arrival order.
     let (mut shell_send, mut shell_recv) = shell.split();
     let (queue_tx, mut queue) = tokio::sync::mpsc::unbounded_channel::<Message>();
     let reader_shared = shared.clone();
-    tokio::spawn(async move {
+    tasks.spawn(async move {
         loop {
             match shell_recv.recv().await {
                 Ok(raw) => {
@@ -352,19 +360,39 @@ pub async fn serve(connection: ConnectionFile, engine: PreparedEngine, hooks: Se
         }
     }
 
-    // Shutdown: stop the cell process, then wait until the publisher has
-    // handed everything queued to the socket.
+    // Shutdown, in order: stop the cell process; wait until the publisher
+    // has handed everything queued to the iopub socket; end every task of the
+    // kernel (each owns a socket or a channel end, so the sockets close with
+    // them) and wait for them; then wait for the socket library's writers.
     shared.engine.terminate();
     let (flushed_tx, flushed) = tokio::sync::oneshot::channel();
     if shared.iopub.send(Outgoing::Flush(flushed_tx)).is_ok() {
         let _ = flushed.await;
     }
-    // The zeromq crate queues each outgoing message per peer and writes it
-    // from a task of its own, and has no flush; so, as libzmq's ZMQ_LINGER
-    // does, the sockets get a short grace period to write what is queued (the
-    // shutdown reply, the last statuses) before the process exits. Only the
-    // exit waits on this clock; no output is ordered by it.
     drop((shell_send, shared));
-    tokio::time::sleep(EXIT_LINGER).await;
+    tasks.abort_all();
+    let ended = tokio::time::timeout(TASKS_END_WITHIN, async { while tasks.join_next().await.is_some() {} }).await;
+    if ended.is_err() {
+        eprintln!("plumbline kernel: {} task(s) did not end within {:?} of shutdown", tasks.len(), TASKS_END_WITHIN);
+    }
+    socket_writers_done(TASKS_END_WITHIN).await;
     Ok(())
+}
+
+/// Waits (at most `bound`) until no task is left on this runtime: the
+/// zeromq crate writes each peer's queue from a task of its own, which
+/// drains what is queued (the shutdown reply, the last statuses) and ends
+/// once its socket is closed; it offers no flush to await, so the kernel
+/// watches the runtime's count of live tasks fall to zero instead, checking
+/// each millisecond. All of the kernel's own tasks have ended by then.
+async fn socket_writers_done(bound: std::time::Duration) {
+    let metrics = tokio::runtime::Handle::current().metrics();
+    let deadline = Instant::now() + bound;
+    while metrics.num_alive_tasks() > 0 && Instant::now() < deadline {
+        tokio::time::sleep(std::time::Duration::from_millis(1)).await;
+    }
+    let left = metrics.num_alive_tasks();
+    if left > 0 {
+        eprintln!("plumbline kernel: {left} socket task(s) still writing {bound:?} after shutdown; the exit ends them");
+    }
 }
