@@ -323,15 +323,8 @@ impl Report for ValueRoll {
         if let Some(sales) = &self.sales_source {
             sheet.context.push(format!("sales: {sales}"));
         }
-        let mut values: Vec<f64> = self.parcels.iter().filter_map(|p| p.value).collect();
-        values.sort_by(f64::total_cmp);
-        let q = |p: f64| {
-            if values.is_empty() {
-                "—".to_string()
-            } else {
-                money(crate::stats::quantile_of_sorted(&values, p))
-            }
-        };
+        let quantiles = self.value_quantiles(&[0.0, 0.25, 0.5, 0.75, 1.0]);
+        let q = |i: usize| quantiles.as_ref().map_or_else(|| "—".to_string(), |q| money(q[i]));
         // Parcels without a value, counted by reason (a version 1 roll gives none:
         // its only reason was a missing term value).
         let mut reasons: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
@@ -350,11 +343,11 @@ impl Report for ValueRoll {
                 rows,
                 vec![
                     vec!["parcels with a sale".into(), format_count(self.sold())],
-                    vec!["lowest value".into(), q(0.0)],
-                    vec!["lower quartile".into(), q(0.25)],
-                    vec!["median value".into(), q(0.5)],
-                    vec!["upper quartile".into(), q(0.75)],
-                    vec!["highest value".into(), q(1.0)],
+                    vec!["lowest value".into(), q(0)],
+                    vec!["lower quartile".into(), q(1)],
+                    vec!["median value".into(), q(2)],
+                    vec!["upper quartile".into(), q(3)],
+                    vec!["highest value".into(), q(4)],
                 ],
             ]
             .concat(),

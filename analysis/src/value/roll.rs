@@ -60,6 +60,17 @@ impl ValueRoll {
         self.parcels.iter().filter(|p| p.value.is_some()).count()
     }
 
+    /// The `p`-quantiles (0–1) of the parcels' values, by
+    /// [`crate::stats::quantile_of_sorted`]; `None` when no parcel has a value.
+    pub fn value_quantiles(&self, p: &[f64]) -> Option<Vec<f64>> {
+        let mut values: Vec<f64> = self.parcels.iter().filter_map(|parcel| parcel.value).collect();
+        if values.is_empty() {
+            return None;
+        }
+        values.sort_by(f64::total_cmp);
+        Some(p.iter().map(|&p| crate::stats::quantile_of_sorted(&values, p)).collect())
+    }
+
     /// Parcels with a sale.
     pub fn sold(&self) -> usize {
         self.parcels.iter().filter(|p| p.sale.is_some()).count()
