@@ -21,6 +21,8 @@ pub struct ReferenceHome {
 pub struct BuildUpStep {
     /// The model term, as the fit names it.
     pub term: String,
+    /// What the term measures, in plain words (`living area`, `distance from Lantern Green`).
+    pub characteristic: String,
     /// The parcel's inputs to the term (`column = value`).
     pub parcel: String,
     /// The reference home's inputs to the term.
@@ -72,6 +74,8 @@ pub(super) fn build_up(model: &ModelRows<'_>, reference: &ModelledParcel, subjec
         .enumerate()
         .map(|(t, ((amount, factor, running_value), term))| BuildUpStep {
             term: term.label.clone(),
+            // Both homes are valued as of the same date, so the time trend moves nothing here.
+            characteristic: if term.is_time { "date of the value".to_string() } else { term.characteristic() },
             parcel: subject.inputs[t].clone(),
             reference: reference.inputs[t].clone(),
             model_move: moves[t],

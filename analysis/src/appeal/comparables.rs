@@ -107,6 +107,8 @@ impl Default for ComparableRule {
 pub struct Adjustment {
     /// The model term (the time trend first: the sale moved to the valuation date).
     pub term: String,
+    /// What the term measures, in plain words.
+    pub characteristic: String,
     /// Whether this is the time trend on the sale date (the market's change
     /// between the sale and the valuation date).
     pub time_trend: bool,
@@ -277,6 +279,7 @@ impl<'a> Candidates<'a> {
                     let sale = term.inputs(self.sales, row)?;
                     Ok(Adjustment {
                         term: term.label.clone(),
+                        characteristic: term.characteristic(),
                         time_trend: term.is_time,
                         sale,
                         subject: subject.inputs[t].clone(),

@@ -193,14 +193,35 @@ impl<'a> ModelRows<'a> {
 }
 
 impl TermColumns {
+    /// The characteristic the term measures, in plain words for a lay
+    /// reader: the column's name without transforms (`log(living_area)` →
+    /// `living area`), the place a distance is measured from, and for the
+    /// time trend the market's change between a sale and the valuation date.
+    pub fn characteristic(&self) -> String {
+        fn words(term: &Term, is_time: bool) -> String {
+            match term {
+                Term::Numeric { column, .. } | Term::Category { column, .. } => column.replace('_', " "),
+                Term::Date { .. } if is_time => "the market's change since the sale".to_string(),
+                Term::Date { column, .. } => column.replace('_', " "),
+                Term::Distance { point, .. } => format!("distance from {}", point.name),
+                Term::Interaction(a, b) => format!("{} × {}", words(a, false), words(b, false)),
+            }
+        }
+        words(&self.term, self.is_time)
+    }
+
     /// The term's inputs at row `row` of `frame` as a lay reader checks them:
     /// a distance term's distance from its place (it reads two coordinate
-    /// columns), otherwise each column read as `column = value`.
+    /// columns; km for a geographic place, the coordinates' units otherwise),
+    /// otherwise each column read as `column = value`.
     pub fn inputs(&self, frame: &Frame, row: usize) -> Result<String> {
         if let Term::Distance { x, y, point, .. } = &self.term {
             let (xs, ys) = (frame.numeric_column(x)?, frame.numeric_column(y)?);
             return Ok(match (xs[row], ys[row]) {
-                (Some(xv), Some(yv)) => format!("{:.3} from {}", point.distance(xv, yv), point.name),
+                (Some(xv), Some(yv)) => match point.coordinates {
+                    crate::spatial::Coordinates::Geographic => format!("{:.3} km", point.distance(xv, yv)),
+                    crate::spatial::Coordinates::Planar => format!("{:.3}", point.distance(xv, yv)),
+                },
                 _ => "—".to_string(),
             });
         }

@@ -81,7 +81,7 @@ fn build_up_chart(build_up: &BuildUp) -> String {
     let mut before = start;
     let mut spans = Vec::new();
     for step in &build_up.steps {
-        spans.push((step.term.as_str(), before, step.running_value));
+        spans.push((step.characteristic.as_str(), before, step.running_value));
         before = step.running_value;
     }
     let (lo, hi) = spans.iter().fold((start, start), |(lo, hi), (_, a, b)| (lo.min(a.min(*b)), hi.max(a.max(*b))));
@@ -175,7 +175,7 @@ fn build_up_html(out: &mut String, page: &ParcelPage, multiplicative: bool) {
         };
         out.push_str(&format!(
             "<tr>{}{}{}{}{}</tr>\n",
-            cell(&escape(&step.term), false),
+            cell(&escape(&step.characteristic), false),
             cell(&escape(&shown_inputs(&step.parcel)), false),
             cell(&escape(&shown_inputs(&step.reference)), false),
             cell(&worth, true),
@@ -220,10 +220,7 @@ fn comparable_html(out: &mut String, number: usize, sale: &AdjustedSale, unit: &
     for a in sale.adjustments.iter().filter(|a| a.amount.round() != 0.0) {
         out.push_str(&format!(
             "<tr>{}{}{}{}</tr>\n",
-            cell(
-                &escape(&if a.time_trend { "the market, sale to valuation date".to_string() } else { a.term.clone() }),
-                false
-            ),
+            cell(&escape(&a.characteristic), false),
             cell(&escape(&shown_inputs(&a.sale)), false),
             cell(&escape(&shown_inputs(&a.subject)), false),
             cell(&signed_money(a.amount), true)
@@ -374,11 +371,11 @@ pub fn parcel_pages_text(pages: &ParcelPages) -> String {
         ));
         let b = &page.build_up;
         out.push_str(&format!("  from {}: {}\n", b.reference.name, money(b.reference.value)));
-        let width = b.steps.iter().map(|s| s.term.chars().count()).max().unwrap_or(8).max(8);
+        let width = b.steps.iter().map(|s| s.characteristic.chars().count()).max().unwrap_or(8).max(8);
         for s in &b.steps {
             out.push_str(&format!(
                 "    {:<width$}  {:>10}  → {:>10}   ({} against {})\n",
-                s.term,
+                s.characteristic,
                 signed_money(s.amount),
                 money(s.running_value),
                 shown_inputs(&s.parcel),
