@@ -61,7 +61,7 @@ impl ValueRoll {
     }
 
     /// The `p`-quantiles (0–1) of the parcels' values, by
-    /// [`crate::stats::quantile_of_sorted`]; `None` when no parcel has a value.
+    /// the quantile of sorted data every layer shares (`stats`); `None` when no parcel has a value.
     pub fn value_quantiles(&self, p: &[f64]) -> Option<Vec<f64>> {
         let mut values: Vec<f64> = self.parcels.iter().filter_map(|parcel| parcel.value).collect();
         if values.is_empty() {
