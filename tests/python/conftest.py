@@ -102,3 +102,30 @@ def heteroskedastic_data(tmp_path):
         "y": y, "x1": x1, "x2": x2, "w": w, "g": [f"c{c}" for c in cluster]})
     X = np.column_stack([np.ones(n), x1, x2])
     return path, X, y, w, cluster
+
+
+def descendants_of(pid):
+    """Every live process below `pid` (children, their children, …), read from /proc (Linux)."""
+    parents = {}
+    for entry in pathlib.Path("/proc").iterdir():
+        if entry.name.isdigit():
+            try:
+                fields = (entry / "stat").read_text().split(")")[-1].split()
+                parents[int(entry.name)] = int(fields[1])
+            except (OSError, ValueError, IndexError):
+                continue
+    found, frontier = [], [pid]
+    while frontier:
+        parent = frontier.pop()
+        children = [p for p, pp in parents.items() if pp == parent]
+        found += children
+        frontier += children
+    return found
+
+
+def alive(pid):
+    """Whether process `pid` runs (a zombie, ended but not yet reaped, does not)."""
+    try:
+        return pathlib.Path(f"/proc/{pid}/stat").read_text().split(")")[-1].split()[0] != "Z"
+    except OSError:
+        return False

@@ -5,34 +5,14 @@ request is answered, its idle status published (iopub flushed), and the process
 ends. Each test starts its own kernel, after the kernels of other modules ended
 (kernels share the engine's build directory).
 """
-import pathlib
 import time
 
 from jupyter_client.manager import start_new_kernel
 
-from conftest import install_kernelspec
+from conftest import alive, descendants_of, install_kernelspec
 from kernel_messages import TIMEOUT, run
 
 install_kernelspec()
-
-
-def descendants_of(pid):
-    """Every live process below `pid`, read from /proc (Linux)."""
-    parents = {}
-    for entry in pathlib.Path("/proc").iterdir():
-        if entry.name.isdigit():
-            try:
-                fields = (entry / "stat").read_text().split(")")[-1].split()
-                parents[int(entry.name)] = int(fields[1])
-            except (OSError, ValueError, IndexError):
-                continue
-    found, frontier = [], [pid]
-    while frontier:
-        parent = frontier.pop()
-        children = [p for p, pp in parents.items() if pp == parent]
-        found += children
-        frontier += children
-    return found
 
 
 def test_a_fresh_kernel_shows_its_preparation_then_runs_the_first_cell():
@@ -79,8 +59,7 @@ def test_shutdown_flushes_iopub_and_ends_the_process():
         assert process.returncode == 0
         # Nothing it started is left running: the cell process and anything the engine ran.
         time.sleep(0.5)  # the cell process is killed with the kernel; give the kernel's SIGKILL time to land
-        left = [pid for pid in descendants if pathlib.Path(f"/proc/{pid}").exists()
-                and "Z" not in pathlib.Path(f"/proc/{pid}/stat").read_text().split(")")[-1].split()[0]]
+        left = [pid for pid in descendants if alive(pid)]
         assert not left, f"processes of the kernel still running after it ended: {left}"
     finally:
         kc.stop_channels()

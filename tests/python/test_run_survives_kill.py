@@ -11,7 +11,6 @@ rename(2) is atomic), so this test checks the property from outside, as a user w
 """
 import json
 import os
-import pathlib
 import random
 import signal
 import subprocess
@@ -19,7 +18,7 @@ import time
 
 import nbformat
 
-from conftest import plumbline_binary
+from conftest import alive, descendants_of, plumbline_binary
 
 CELLS = [
     'let sales: Vec<f64> = (1..=1000).map(|i| 100_000.0 + 37.0 * i as f64).collect();',
@@ -35,32 +34,6 @@ def notebook_text():
     return json.dumps({"cells": cells, "metadata": {"kernelspec": {"name": "plumbline", "language": "rust",
                                                                    "display_name": "Plumbline (Rust)"}},
                        "nbformat": 4, "nbformat_minor": 5}, indent=1) + "\n"
-
-
-def descendants_of(pid):
-    parents = {}
-    for entry in pathlib.Path("/proc").iterdir():
-        if entry.name.isdigit():
-            try:
-                fields = (entry / "stat").read_text().split(")")[-1].split()
-                parents[int(entry.name)] = (int(fields[1]), fields[0])
-            except (OSError, ValueError, IndexError):
-                continue
-    found, frontier = [], [pid]
-    while frontier:
-        parent = frontier.pop()
-        children = [p for p, (pp, _) in parents.items() if pp == parent]
-        found += children
-        frontier += children
-    return found
-
-
-def alive(pid):
-    try:
-        state = pathlib.Path(f"/proc/{pid}/stat").read_text().split(")")[-1].split()[0]
-        return state != "Z"
-    except OSError:
-        return False
 
 
 def run_in_place(path, kill_after=None):

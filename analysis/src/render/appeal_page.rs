@@ -14,7 +14,6 @@ use super::html::escape;
 use super::prose::VALUATION_CAUTION;
 use crate::appeal::{AdjustedSale, BuildUp, ParcelPage, ParcelPages};
 use crate::documents::{document_json, DocumentKind};
-use crate::grouping::group_digits;
 
 const INK: &str = "#222b3a";
 const MUTED: &str = "#5b6777";
@@ -30,15 +29,7 @@ const PRINT_STYLE: &str = "<style>\n@page { size: A4; margin: 14mm 12mm; }\n\
 box-shadow: none !important; margin: 0 !important; }\n  .pl-parcel:first-of-type { break-before: auto; \
 page-break-before: auto; }\n}\n.pl-keep { break-inside: avoid; page-break-inside: avoid; }\n</style>\n";
 
-/// An amount of money, whole units with digit grouping (`412,300`).
-fn money(amount: f64) -> String {
-    if !amount.is_finite() {
-        return "—".into();
-    }
-    let rounded = amount.round();
-    let sign = if rounded < 0.0 { "−" } else { "" };
-    format!("{sign}{}", group_digits(rounded.abs() as u64))
-}
+use super::numbers::format_money as money;
 
 /// A signed amount (`+8,300`, `−12,100`, `0`).
 fn signed_money(amount: f64) -> String {

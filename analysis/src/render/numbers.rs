@@ -29,6 +29,21 @@ pub fn format_count(n: usize) -> String {
     crate::grouping::group_digits(n as u64)
 }
 
+/// An amount of money in whole units with digit groups (`412,300`,
+/// `−8,100`, a true minus sign); beyond 10¹⁵ in significant digits, and `—`
+/// when not finite. Shared by the valuation checks and the appeal pages.
+pub(crate) fn format_money(amount: f64) -> String {
+    if !amount.is_finite() {
+        return "—".into();
+    }
+    let rounded = amount.round();
+    if rounded.abs() >= 1e15 {
+        return format_significant(amount, 4);
+    }
+    let sign = if rounded < 0.0 { "−" } else { "" };
+    format!("{sign}{}", crate::grouping::group_digits(rounded.abs() as u64))
+}
+
 /// Like [`format_significant`], without trailing zeros after the decimal
 /// point (`1870`, `83.5`), for tables where values of one column differ in scale.
 pub fn format_trimmed(value: f64, digits: usize) -> String {

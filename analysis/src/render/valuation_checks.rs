@@ -220,13 +220,7 @@ fn statistics_cells(s: Option<&RatioStatistics>) -> Vec<String> {
     }
 }
 
-fn money(x: f64) -> String {
-    if (0.0..1e15).contains(&x) {
-        crate::grouping::group_digits(x.round() as u64)
-    } else {
-        format_significant(x, 4)
-    }
-}
+use super::numbers::format_money as money;
 
 impl Report for TierStudy {
     fn bundle(&self) -> MimeBundle {
