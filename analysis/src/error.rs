@@ -488,6 +488,22 @@ pub enum Error {
         cause: polars::error::PolarsError,
     },
 
+    /// A load or a design would take more memory than the budget allows
+    /// (see [`crate::data::MemoryBudget`]); refused before the memory is taken.
+    #[error("{what} would need about {} of memory, more than the {} one step may take ({budget_source}); {advice}", bytes_text(*.needed), bytes_text(*.budget))]
+    OverMemory {
+        /// What would take the memory, e.g. "reading `sales.csv`".
+        what: String,
+        /// The estimate, in bytes.
+        needed: u64,
+        /// The budget, in bytes.
+        budget: u64,
+        /// Where the budget came from.
+        budget_source: String,
+        /// How to do the same with less memory.
+        advice: String,
+    },
+
     /// Reference data for an accuracy check is missing or malformed.
     #[error("reference data: {0}")]
     ReferenceData(String),
@@ -550,6 +566,20 @@ fn overflow_note(value: f64) -> &'static str {
         " (an infinite value, or a number beyond ±1.8e308 written in the file)"
     } else {
         ""
+    }
+}
+
+/// Bytes as people read them: `1.5 GB`, `820 MB`, `12 kB` (powers of 1024,
+/// as memory is counted).
+fn bytes_text(bytes: u64) -> String {
+    let b = bytes as f64;
+    let (gib, mib) = ((1u64 << 30) as f64, (1u64 << 20) as f64);
+    if b >= gib {
+        format!("{:.1} GB", b / gib)
+    } else if b >= mib {
+        format!("{:.0} MB", b / mib)
+    } else {
+        format!("{:.0} kB", (b / 1024.0).max(1.0))
     }
 }
 

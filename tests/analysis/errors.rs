@@ -156,3 +156,53 @@ fn bad_confidence_level_is_rejected() {
     let m = message(model.coefficients(95.0));
     assert!(m.contains("between 0 and 1"), "{m}");
 }
+
+/// Limits a user can hit (issue "hostile input"): a category of 10⁵ levels
+/// on 2·10⁵ sales would make a dense design of 2·10⁵ × 10⁵ numbers (160 GB,
+/// about 480 GB with the solver's copies). It must be refused before any
+/// column is built, naming the term, not end in the process being killed.
+#[test]
+fn a_category_of_a_hundred_thousand_levels_is_refused_before_memory_runs_out() {
+    use plumbline::polars::prelude::{Column, DataFrame};
+    let rows = 200_000usize;
+    let price: Vec<f64> = (0..rows).map(|i| 100_000.0 + (i % 977) as f64 * 250.0).collect();
+    let area: Vec<f64> = (0..rows).map(|i| 900.0 + (i % 1_301) as f64).collect();
+    let street: Vec<String> = (0..rows).map(|i| format!("street {:05}", i / 2)).collect();
+    let data = DataFrame::new(
+        rows,
+        vec![
+            Column::new("price".into(), price),
+            Column::new("area".into(), area),
+            Column::new("street".into(), street),
+        ],
+    )
+    .expect("frame");
+    let frame = Frame::from_dataframe(data, "a town of 100,000 streets");
+    let started = std::time::Instant::now();
+    let m = message(fit(&frame, &ModelSpec::new("price").numeric("area").category("street")));
+    assert!(m.contains("a design of 200000 rows and 100001 columns") && m.contains("of memory"), "{m}");
+    assert!(m.contains("`street` alone makes 99999 columns"), "{m}");
+    // Refused before the columns are built (building them takes minutes).
+    eprintln!("refused in {:.2} s", started.elapsed().as_secs_f64());
+}
+
+/// A model with more columns than rows: refused with both counts, whatever
+/// the design's rank.
+#[test]
+fn more_columns_than_rows_is_explained() {
+    let dir = scratch_dir("widemodel");
+    let columns = 40;
+    let mut text = (0..columns).map(|c| format!("x{c}")).collect::<Vec<_>>().join(",") + ",y\n";
+    for r in 0..30u64 {
+        let row: Vec<String> = (0..columns as u64).map(|c| ((r * 7919 + c * 104_729) % 1_000).to_string()).collect();
+        text += &format!("{},{}\n", row.join(","), r * r % 97);
+    }
+    let p = write_file(&dir, "wide.csv", &text);
+    let frame = load_csv(&p, &CsvOptions::default()).expect("load");
+    let mut spec = ModelSpec::new("y");
+    for c in 0..columns {
+        spec = spec.numeric(format!("x{c}"));
+    }
+    let m = message(fit(&frame, &spec));
+    assert!(m.contains("30 rows but 41 coefficients"), "{m}");
+}

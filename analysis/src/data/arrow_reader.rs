@@ -2,7 +2,7 @@
 //! through polars' own IPC reader.
 
 use super::provenance::{sha256_hex, SourceKind, SourceStamp, HASH_OF_FILE_BYTES};
-use super::{read_bytes, Frame, Provenance};
+use super::{read_bytes, Frame, MemoryBudget, Provenance};
 use crate::error::{Error, Result};
 use polars::prelude::{IpcReader, SerReader};
 use std::io::Cursor;
@@ -13,6 +13,14 @@ use std::path::Path;
 /// memory. Arrow has no text lines, so errors name data rows only.
 pub fn load_arrow(path: impl AsRef<Path>) -> Result<Frame> {
     let path = path.as_ref();
+    // The file's bytes and the frame decoded from them are in memory at once;
+    // uncompressed Arrow takes about its file size again once decoded.
+    let file_size = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
+    MemoryBudget::current()?.check(
+        file_size.saturating_mul(2),
+        || format!("reading `{}` into memory", path.display()),
+        "convert it to Parquet and read only the columns the model uses (`load_parquet_columns`), or raise the limit",
+    )?;
     let bytes = read_bytes(path)?;
     let data = IpcReader::new(Cursor::new(&bytes))
         .finish()

@@ -28,7 +28,7 @@
 use super::dates::{parse_date, parse_iso_date, to_epoch_days, ISO_DATE_FORMAT};
 use super::text_encoding::{InvalidUtf8, TextEncoding};
 use super::values::{number_hint, parse_formatted_number, NonFinite};
-use super::{Frame, Provenance};
+use super::{Frame, MemoryBudget, Provenance};
 use crate::error::{Error, Result};
 use polars::prelude::{
     ChunkedBuilder, Column, DataFrame, Float64Type, Int32Type, Int64Type, IntoColumn, IntoSeries,
@@ -168,12 +168,24 @@ pub fn load_csv(path: impl AsRef<Path>, options: &CsvOptions) -> Result<Frame> {
     let mut lines: Vec<u64> = Vec::new();
     let mut late_text: Vec<usize> = Vec::new();
 
+    let budget = MemoryBudget::current()?;
+    let mut memory = 0u64;
     if let Some((first, line)) = reader.pending_first.take() {
         context.push_record(&first, line, &mut columns, &mut lines, &mut late_text)?;
     }
     let sha256 = read_in_two_stages(reader.csv, |record| {
         let line = record.position().map_or(0, |p| p.line());
-        context.push_record(record, line, &mut columns, &mut lines, &mut late_text)
+        context.push_record(record, line, &mut columns, &mut lines, &mut late_text)?;
+        memory += record_memory(record);
+        if lines.len().is_multiple_of(MEMORY_CHECK_RECORDS) {
+            budget.check(
+                memory,
+                || format!("reading `{}` (stopped at line {line}, with the rest still to read)", path.display()),
+                "read only the columns the model uses (`load_parquet_columns` for Parquet), fit the file in row \
+                 batches (`plumbline fit` on a folder, `fit_batches`), or raise the limit",
+            )?;
+        }
+        Ok(())
     })?;
 
     if !late_text.is_empty() {
@@ -184,6 +196,17 @@ pub fn load_csv(path: impl AsRef<Path>, options: &CsvOptions) -> Result<Frame> {
     let data = DataFrame::new(height, data_columns)?;
     let provenance = Provenance::for_file_hash(path, sha256, height, names.len());
     Ok(Frame::from_parts(data, provenance, Some(lines)).with_non_finite(options.non_finite))
+}
+
+/// Records between two checks of the memory taken against the budget.
+const MEMORY_CHECK_RECORDS: usize = 4096;
+
+/// The memory one record takes once loaded, over-estimated so that the check
+/// errs on the side of a message: its bytes (text kept as written) plus a
+/// 16-byte slot per field (polars' string view; a number takes 8) plus its
+/// 8-byte file line.
+fn record_memory(record: &csv::ByteRecord) -> u64 {
+    (record.as_slice().len() + 16 * record.len() + 8) as u64
 }
 
 /// Records per batch handed from the splitting thread to the parsing one.

@@ -18,6 +18,8 @@
 //!   dates and the sale-date arithmetic of date terms.
 //! * [`profile()`] — a per-column summary (type, missing, min/median/max, levels).
 //! * [`Screen`] — rows kept by a stated rule, with a record of the rows set aside.
+//! * [`MemoryBudget`] — the most memory one load or design may take, so that
+//!   a file larger than memory ends in a message, not a killed process.
 //! * [`RowBatches`] — a CSV or Parquet file, or a directory of them, read in
 //!   bounded batches for fits of data larger than memory.
 
@@ -29,6 +31,7 @@ pub mod dates;
 mod frame;
 #[cfg(feature = "sqlite")]
 mod geopackage;
+mod memory;
 mod parquet_reader;
 mod postgres_reader;
 pub mod profile;
@@ -44,6 +47,7 @@ pub use arrow_reader::load_arrow;
 pub use batches::RowBatches;
 pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
+pub use memory::{MemoryBudget, MEMORY_LIMIT_VARIABLE};
 pub use parquet_reader::{load_parquet, load_parquet_columns};
 pub use postgres_reader::load_postgres;
 pub use profile::{profile, ColumnProfile};

@@ -1,7 +1,8 @@
 //! Apache Parquet into a [`Frame`], through polars' Parquet reader.
 
-use super::{read_bytes, sha256_hex, Frame, Provenance};
+use super::{read_bytes, sha256_hex, Frame, MemoryBudget, Provenance};
 use crate::error::{Error, Result};
+use polars::io::parquet::read::FileMetadata;
 use polars::prelude::{ParquetReader, SerReader};
 use std::io::Cursor;
 use std::path::Path;
@@ -22,30 +23,57 @@ pub fn load_parquet_columns(path: impl AsRef<Path>, columns: &[String]) -> Resul
     read_parquet(path.as_ref(), Some(columns))
 }
 
+/// What to do when a Parquet file is larger than the memory budget.
+const PARQUET_ADVICE: &str = "read only the columns the model uses (`load_parquet_columns`; the command line \
+     does so), fit the file in row batches (`plumbline fit` on a folder, `fit_batches`), or raise the limit";
+
 fn read_parquet(path: &Path, columns: Option<&[String]>) -> Result<Frame> {
+    let budget = MemoryBudget::current()?;
+    let reading = || format!("reading `{}` into memory", path.display());
+    let file_size = std::fs::metadata(path).map(|m| m.len()).unwrap_or(0);
+    budget.check(file_size, reading, PARQUET_ADVICE)?;
     let bytes = read_bytes(path)?;
     let unreadable = |cause| Error::ParquetUnreadable { path: path.to_path_buf(), cause };
+    let mut reader = ParquetReader::new(Cursor::new(&bytes));
+    let schema = reader.schema().map_err(unreadable)?;
+    let width = schema.len();
+    let wanted: Option<Vec<String>> =
+        columns.filter(|wanted| wanted.iter().all(|c| schema.contains(c.as_str()))).map(|wanted| {
+            schema.iter_names().filter(|n| wanted.iter().any(|c| c == n.as_str())).map(|n| n.to_string()).collect()
+        });
+    let decoded_size = {
+        let metadata = reader.get_metadata().map_err(unreadable)?;
+        let names: Vec<String> = match &wanted {
+            Some(names) => names.clone(),
+            None => schema.iter_names().map(|n| n.to_string()).collect(),
+        };
+        uncompressed_size(metadata, &names)
+    };
+    budget.check(file_size.saturating_add(decoded_size), reading, PARQUET_ADVICE)?;
     let (sha256, decoded) = std::thread::scope(|scope| {
         let hashing = scope.spawn(|| sha256_hex(&bytes));
-        let decoded = (|| {
-            let mut reader = ParquetReader::new(Cursor::new(&bytes));
-            let schema = reader.schema()?;
-            let width = schema.len();
-            let wanted: Option<Vec<String>> =
-                columns.filter(|wanted| wanted.iter().all(|c| schema.contains(c.as_str()))).map(|wanted| {
-                    schema
-                        .iter_names()
-                        .filter(|n| wanted.iter().any(|c| c == n.as_str()))
-                        .map(|n| n.to_string())
-                        .collect()
-                });
-            let reader = ParquetReader::new(Cursor::new(&bytes)).with_columns(wanted);
-            reader.finish().map(|data| (data, width))
-        })();
+        let decoded = ParquetReader::new(Cursor::new(&bytes)).with_columns(wanted).finish();
         // Hashing a byte slice cannot fail; a panic there is a bug, re-raised here.
         (hashing.join().unwrap_or_else(|e| std::panic::resume_unwind(e)), decoded)
     });
-    let (data, width) = decoded.map_err(unreadable)?;
+    let data = decoded.map_err(unreadable)?;
     let provenance = Provenance::for_file_hash(path, sha256, data.height(), width);
     Ok(Frame::from_parts(data, provenance, None))
+}
+
+/// The uncompressed size the file's metadata gives for the columns `names`,
+/// over every row group: about the memory their decoded values take. A
+/// negative size (a damaged file) counts as none; the sum saturates.
+fn uncompressed_size(metadata: &FileMetadata, names: &[String]) -> u64 {
+    let mut total = 0u64;
+    for group in &metadata.row_groups {
+        let chunks = group.parquet_columns();
+        for name in names {
+            for &index in group.columns_idxs_under_root_iter(name).unwrap_or(&[]) {
+                let size = chunks.get(index).map_or(0, |c| c.uncompressed_size().max(0) as u64);
+                total = total.saturating_add(size);
+            }
+        }
+    }
+    total
 }

@@ -99,12 +99,14 @@ pub fn fit_with(frame: &Frame, spec: &ModelSpec, options: &FitOptions) -> Result
             value: tolerance.to_string(),
         });
     }
+    // More coefficients than rows can never be estimated, whatever the rank:
+    // refused before solving, with the design's own count.
+    if n <= p {
+        return Err(Error::TooFewRows { rows: n, columns: p });
+    }
     let solution = solver::solve(design.columns(), design.target(), design.weights(), options.precision, tolerance);
     if solution.kept().is_empty() {
         return Err(Error::SingularDesign { detail: "every design column is zero on the rows used".into() });
-    }
-    if n <= solution.kept().len() {
-        return Err(Error::TooFewRows { rows: n, columns: solution.kept().len() });
     }
 
     let (covariance, cluster_count) =

@@ -495,6 +495,7 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
             )
         })
         .collect();
+    check_design_memory(spec, &encodings, complete.rows.len())?;
     let mut moved = take_untransformed(spec, &encodings, &mut complete.numbers);
     let values =
         RowValues { numbers: &complete.numbers, labels: &complete.labels, rows: &complete.rows, line_of: &line_of };
@@ -507,6 +508,35 @@ pub fn build_design(frame: &Frame, spec: &ModelSpec, also_require: &[&str]) -> R
     }
     let recipe = DesignRecipe { spec: spec.clone(), encodings, column_names, term_spans, numeric_ranges };
     Ok(Design { columns, target, weights, rows_used: complete.rows, dropped: complete.dropped, recipe })
+}
+
+/// Copies of the design a fit holds at its peak, for the memory check: the
+/// design's columns, the solver's working copy, and its triangular factor and
+/// Householder vectors (as large as the design at worst).
+const DESIGN_COPIES: u64 = 3;
+
+/// Refuses a design larger than the memory budget before any column is
+/// built: `rows × columns × 8 bytes × DESIGN_COPIES`, naming the widest term
+/// (a category of many levels is the usual cause).
+fn check_design_memory(spec: &ModelSpec, encodings: &[TermEncoding], rows: usize) -> Result<()> {
+    let width: usize = usize::from(spec.has_intercept())
+        + encodings.iter().map(TermEncoding::width).fold(0usize, usize::saturating_add);
+    let needed = (rows as u64).saturating_mul(width as u64).saturating_mul(8 * DESIGN_COPIES);
+    let widest = spec.terms().iter().zip(encodings).max_by_key(|(_, e)| e.width());
+    let advice = match widest {
+        Some((term, encoding)) if encoding.width() > 1 => format!(
+            "the term `{}` alone makes {} columns; group its rare levels into one, fit one model per market \
+             area (`fit_by`), or leave it out",
+            term.label(),
+            encoding.width()
+        ),
+        _ => "use fewer terms, or fewer rows (a sample, or one market area at a time)".into(),
+    };
+    crate::data::MemoryBudget::current()?.check(
+        needed,
+        || format!("a design of {rows} rows and {width} columns"),
+        &advice,
+    )
 }
 
 fn check_degrees(terms: &[Term]) -> Result<()> {

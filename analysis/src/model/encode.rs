@@ -238,13 +238,31 @@ fn category_encoding(
 }
 
 impl TermEncoding {
+    /// How many design columns this term contributes: one per numeric
+    /// column, its degree for a polynomial, one per coded level for a
+    /// category, the product of both sides for an interaction. Known before
+    /// any column is built, so that a design too large for memory is refused
+    /// first.
+    pub fn width(&self) -> usize {
+        match self {
+            TermEncoding::Numeric {
+                transform: Transform::Polynomial(degree) | Transform::OrthogonalPolynomial(degree),
+                ..
+            } => *degree as usize,
+            TermEncoding::Numeric { .. } => 1,
+            TermEncoding::Category { coded_levels, .. } => coded_levels.len(),
+            TermEncoding::Interaction(a, b) => a.width().saturating_mul(b.width()),
+        }
+    }
+
     /// The design columns this term contributes, evaluated on `values`' rows.
     pub fn columns(&self, values: &RowValues) -> Result<Vec<GeneratedColumn>> {
         match self {
             TermEncoding::Numeric { column, transform, params } => numeric_columns(column, *transform, params, values),
             TermEncoding::Category { column, coded_levels, all_levels, .. } => {
                 let labels = values.labels(column);
-                if let Some((i, unseen)) = labels.iter().enumerate().find(|(_, l)| !all_levels.contains(l)) {
+                let known: std::collections::HashSet<&str> = all_levels.iter().map(String::as_str).collect();
+                if let Some((i, unseen)) = labels.iter().enumerate().find(|(_, l)| !known.contains(l.as_str())) {
                     return Err(Error::Prediction(format!(
                         "data row {} has level `{unseen}` of `{column}`, which the fitting data did not contain (known levels: {})",
                         values.rows[i] + 1,

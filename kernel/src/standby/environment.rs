@@ -29,7 +29,8 @@ pub enum VariableRole {
     /// `PLUMBLINE_STANDBY*`, [`crate::eval::ENGINE_VARIABLES`]): never compared,
     /// never passed.
     PerLaunch,
-    /// Everything else (`LANG`, `LC_*`, `TERM`, `SHELL`, `TZ`, `PG*`, …):
+    /// Everything else (`LANG`, `LC_*`, `TERM`, `SHELL`, `TZ`, `PG*`, …, and
+    /// the memory budget `PLUMBLINE_MEMORY_LIMIT`, read afresh by each load):
     /// cells may read it, so the standby's cell process takes the launcher's
     /// value.
     Cells,
@@ -43,6 +44,11 @@ pub fn role(name: &str) -> VariableRole {
         || crate::eval::ENGINE_VARIABLES.contains(&name);
     if per_launch {
         return VariableRole::PerLaunch;
+    }
+    // Read afresh by every load and fit in the cells, so it shapes nothing
+    // the engine prepared.
+    if name == plumbline::data::MEMORY_LIMIT_VARIABLE {
+        return VariableRole::Cells;
     }
     let engine = ["PLUMBLINE_", "CARGO", "RUSTC", "RUSTUP_", "EVCXR_", "LD_", "MALLOC_", "POLARS_", "RAYON_"]
         .iter()
