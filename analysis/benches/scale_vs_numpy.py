@@ -22,6 +22,12 @@ written as 100 Parquet files of 2 x 10^6 rows, fitted with
 child's peak resident memory (getrusage), against the 32 GB the same numbers
 take in memory as f64.
 
+Part 3 (`--roll`) — a county's value roll: the demo town's sales fitted, then
+10^7 parcels (Parquet, 5 files) valued by `plumbline value --parcel-batch-rows
+100000` into a Parquet roll; prints its wall time and peak resident memory
+beside the parcels' own size as f64 in memory (a limit a user can hit: the
+roll must stay within bounded memory, not grow with the parcels).
+
 A benchmark, not a test: it asserts nothing. The fitting core beside a bare
 faer QR is `cargo bench -p plumbline-analysis --bench fit_large`.
 
@@ -29,6 +35,7 @@ Usage:
   cargo build --release -p plumbline-kernel
   pip install numpy scipy pyarrow
   python3 analysis/benches/scale_vs_numpy.py [--rows 1000000] [--stream] [--stream-rows 200000000]
+                                            [--roll] [--roll-parcels 10000000]
 Data go to $PLUMBLINE_BENCH_DIR (default: the system temp dir) and are reused.
 """
 import argparse
@@ -210,18 +217,76 @@ def part_two(rows):
     print(f"  rows used {document['n_obs']:,}   R² {document['r_squared']:.6f}")
 
 
+def parcel_directory(parcels):
+    """Parcels drawn like the demo town's (invented): the characteristics the model uses."""
+    import numpy as np
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    files = 5
+    directory = DATA / f"plumbline-roll-{parcels}"
+    marker = directory / "COMPLETE"
+    if marker.exists():
+        return directory
+    directory.mkdir(parents=True, exist_ok=True)
+    rng = np.random.default_rng(20261205)
+    districts = np.array(["Brambleknot", "Corvel Heights", "Mossgrieve", "Pellowick", "Tidewright Quay", "Wickerholm"])
+    per_file = parcels // files
+    for k in range(files):
+        ids = np.arange(k * per_file, (k + 1) * per_file)
+        pq.write_table(pa.table({
+            "parcel_id": pa.array([f"P-{i:08d}" for i in ids]),
+            "living_area": rng.uniform(700, 3600, per_file).round(),
+            "lot_size": rng.uniform(2500, 20000, per_file).round(),
+            "age": rng.integers(0, 90, per_file).astype(np.int64),
+            "quality": rng.integers(1, 6, per_file).astype(np.int64),
+            "district": pa.array(districts[rng.integers(0, len(districts), per_file)]),
+        }), directory / f"parcels-{k}.parquet", row_group_size=500_000)
+    marker.write_text("done\n")
+    return directory
+
+
+def part_three(parcels):
+    directory = parcel_directory(parcels)
+    size = sum(p.stat().st_size for p in directory.glob("*.parquet"))
+    out = DATA / "plumbline-roll-values.parquet"
+    sales = REPO / "notebooks-demo" / "data" / "sales.csv"
+    command = [BIN, "value", str(sales), "--target", "sale_price", "--log-target",
+               "--log", "living_area", "--log", "lot_size", "--terms", "age,quality", "--category", "district",
+               "--parcels", str(directory), "--id", "parcel_id", "--out", str(out),
+               "--parcel-batch-rows", "100000"]
+    measured = subprocess.run([sys.executable, "-c", MEASURE, *command], capture_output=True, text=True)
+    if measured.returncode != 0:
+        raise SystemExit(measured.stderr)
+    import json
+
+    report = json.loads(measured.stdout)
+    if report["status"] != 0:
+        raise SystemExit(report["err"])
+    print(f"{parcels:,} parcels in {directory} ({size / 1e9:.2f} GB of Parquet; "
+          f"{parcels * 5 * 8 / 1e9:.1f} GB as f64 in memory)")
+    print(f"  plumbline value --parcel-batch-rows 100000   {report['elapsed']:8.1f} s   "
+          f"peak RSS {report['peak_kib'] / 1024:.0f} MiB   roll {out.stat().st_size / 1e9:.2f} GB")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, default=1_000_000)
     parser.add_argument("--stream", action="store_true", help="also run the larger-than-memory fit")
     parser.add_argument("--stream-rows", type=int, default=200_000_000)
+    parser.add_argument("--roll", action="store_true", help="also value a county's roll of parcels")
+    parser.add_argument("--roll-parcels", type=int, default=10_000_000)
+    parser.add_argument("--skip-in-memory", action="store_true", help="leave out part one")
     args = parser.parse_args()
     if not pathlib.Path(BIN).exists():
         raise SystemExit(f"no plumbline binary at {BIN}; build it with `cargo build --release -p plumbline-kernel` "
                          "or set PLUMBLINE_BIN")
-    part_one(args.rows)
+    if not args.skip_in_memory:
+        part_one(args.rows)
     if args.stream:
         part_two(args.stream_rows)
+    if args.roll:
+        part_three(args.roll_parcels)
 
 
 if __name__ == "__main__":
