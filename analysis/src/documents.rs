@@ -236,6 +236,52 @@ pub trait DocumentKind: Serialize + DeserializeOwned + Clone {
     const MIME: &'static str;
     /// What it is, in words, for error messages.
     const WHAT: &'static str;
+
+    /// Checks what the types alone cannot: that the numbers agree with one
+    /// another as this build writes them (an interval holds its estimate…).
+    /// The reason names the field. By default there is nothing to check.
+    fn check_consistent(&self) -> std::result::Result<(), String> {
+        Ok(())
+    }
+}
+
+/// The coefficients of a fit read back must be as a fit writes them: each
+/// standard error non-negative and each interval holding its estimate. A
+/// document edited by hand that breaks this would make `plumbline diff` call
+/// a coefficient moved when compared with itself; it is refused instead,
+/// naming the coefficient.
+fn check_fit_summary(summary: &FitSummary, place: &str) -> std::result::Result<(), String> {
+    for c in &summary.coefficients {
+        if !(c.std_error >= 0.0) {
+            return Err(format!("{place}coefficient `{}` has a negative standard error ({})", c.term, c.std_error));
+        }
+        if !(c.ci_low <= c.estimate && c.estimate <= c.ci_high) {
+            return Err(format!(
+                "{place}coefficient `{}` has the interval [{}, {}], which does not hold its estimate {}",
+                c.term, c.ci_low, c.ci_high, c.estimate
+            ));
+        }
+    }
+    Ok(())
+}
+
+impl DocumentKind for StratifiedSummary {
+    const SCHEMA: &'static str = "plumbline.stratified-fit";
+    const VERSION: u32 = 1;
+    const MIME: &'static str = STRATIFIED_FIT_JSON_MIME;
+    const WHAT: &'static str = "stratified-fit";
+
+    fn check_consistent(&self) -> std::result::Result<(), String> {
+        for stratum in &self.strata {
+            if let Some(fit) = &stratum.fit {
+                check_fit_summary(fit, &format!("group `{}`: ", stratum.group))?;
+            }
+        }
+        match &self.pooled {
+            Some(pooled) => check_fit_summary(pooled, "the pooled model: "),
+            None => Ok(()),
+        }
+    }
 }
 
 /// A document made of a result's own fields plus `schema` and
@@ -269,7 +315,9 @@ pub fn document_json<T: DocumentKind>(body: &T) -> Result<String> {
 pub fn read_document<T: DocumentKind>(document: Value, origin: &str) -> Result<Versioned<T>> {
     let what = format!("the {} document in {origin}", T::WHAT);
     check_version(&document, T::SCHEMA, T::VERSION, &what)?;
-    typed(document, what)
+    let read: Versioned<T> = typed(document, what.clone())?;
+    read.body.check_consistent().map_err(|reason| Error::Document { what, reason })?;
+    Ok(read)
 }
 
 macro_rules! document_kind {
@@ -293,7 +341,6 @@ document_kind!(HoldoutAccuracy, "plumbline.holdout-accuracy", 1, HOLDOUT_ACCURAC
 document_kind!(ValueRoll, "plumbline.value-roll", 2, VALUE_ROLL_JSON_MIME, "value-roll");
 document_kind!(SalesChasingCheck, "plumbline.sales-chasing", 1, SALES_CHASING_JSON_MIME, "sales-chasing");
 document_kind!(ParcelPages, "plumbline.parcel-pages", 1, PARCEL_PAGES_JSON_MIME, "parcel-pages");
-document_kind!(StratifiedSummary, "plumbline.stratified-fit", 1, STRATIFIED_FIT_JSON_MIME, "stratified-fit");
 // Local fit 2: both models scored on held-out sales (`holdout`), when asked
 // for; version 1 documents read unchanged.
 document_kind!(LocalSummary, "plumbline.local-fit", 2, LOCAL_FIT_JSON_MIME, "local-fit");
@@ -328,7 +375,9 @@ pub fn read_fit(mut document: Value, origin: &str) -> Result<FitDocument> {
             }
         }
     }
-    typed(document, what)
+    let read: FitDocument = typed(document, what.clone())?;
+    check_fit_summary(&read.summary, "").map_err(|reason| Error::Document { what, reason })?;
+    Ok(read)
 }
 
 /// Reads a comparison document (versions 2 and 3 read alike: version 3 only

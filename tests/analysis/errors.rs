@@ -206,3 +206,27 @@ fn more_columns_than_rows_is_explained() {
     let m = message(fit(&frame, &spec));
     assert!(m.contains("30 rows but 41 coefficients"), "{m}");
 }
+
+/// Every row's line is the one an editor shows, whatever ends the lines:
+/// `\r\n` (Windows exports), a lone `\r` (old Mac files, some spreadsheet
+/// exports), a mixture, a quoted field across lines. A finding of the CSV
+/// fuzz target, which saw two rows claim line 1; with `\r\n` every row named
+/// the line before its own.
+#[test]
+fn lines_ended_by_a_lone_carriage_return_are_counted() {
+    let dir = scratch_dir("lonecr");
+    for (name, text, expected) in [
+        ("mac.csv", "y,a\r1,2\r2,x\r3,4\r", [2, 3, 4]),
+        ("windows.csv", "y,a\r\n1,2\r\n2,x\r\n3,4\r\n", [2, 3, 4]),
+        ("mixed.csv", "y,a\r\n1,2\r2,x\n3,4\r\n", [2, 3, 4]),
+        // The second row's quoted field holds a line end: the third row is on line 5.
+        ("quoted.csv", "y,a\r\n1,2\r\n2,\"x\r\n\"\r\n3,4\r\n", [2, 3, 5]),
+    ] {
+        let p = write_file(&dir, name, text);
+        let frame = load_csv(&p, &CsvOptions::default()).expect("load");
+        let lines: Vec<Option<u64>> = (0..frame.height()).map(|r| frame.source_line(r)).collect();
+        assert_eq!(lines, expected.map(Some), "{name}");
+        let m = message(fit(&frame, &ModelSpec::new("y").numeric("a")));
+        assert!(m.contains("line 3"), "{name}: {m}");
+    }
+}

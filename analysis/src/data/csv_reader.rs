@@ -236,9 +236,7 @@ fn read_in_two_stages(
                 let mut batch = empty_rx.try_recv().unwrap_or_default();
                 batch.resize_with(BATCH_RECORDS, csv::ByteRecord::new);
                 let mut filled = 0;
-                while filled < BATCH_RECORDS
-                    && csv.read_byte_record(&mut batch[filled]).map_err(|e| malformed(&splitter_path, &e))?
-                {
+                while filled < BATCH_RECORDS && next_record(&mut csv, &mut batch[filled], &splitter_path)? {
                     filled += 1;
                 }
                 let last = filled < BATCH_RECORDS;
@@ -260,17 +258,57 @@ fn read_in_two_stages(
     })
 }
 
-/// A file opened for reading, hashing every byte read through it.
+/// A file opened for reading, hashing every byte read through it, and
+/// noting the line ends the `csv` parser's line count misses.
+///
+/// The parser ends a record at `\r\n`, `\n` or a lone `\r` (old Mac files,
+/// and some spreadsheet exports), but counts lines by the `\n`s it has
+/// consumed; and a record after `\r\n` starts at that `\n`, not yet
+/// consumed. So every row of a Windows file would name the line before its
+/// own, and every row of a file of lone `\r`s line 1 (both found by the CSV
+/// fuzz target). The lone `\r`s and the `\n`s of `\r\n` are noted here as
+/// they pass, and [`physical_line`] corrects the parser's line with them,
+/// so that every row's line is the one an editor shows.
 struct HashingReader {
     file: std::fs::File,
     hasher: Sha256,
     path: std::path::PathBuf,
+    /// Bytes read so far.
+    offset: u64,
+    /// A `\r` that was the last byte read: lone or not, the next byte says.
+    pending_cr: Option<u64>,
+    /// Offsets of lone `\r`s not yet passed by a record.
+    lone_crs: std::collections::VecDeque<u64>,
+    /// Lone `\r`s already passed by the records read.
+    lone_crs_passed: u64,
+    /// Offsets of the `\n`s of `\r\n` not yet passed by a record.
+    crlf_newlines: std::collections::VecDeque<u64>,
 }
 
 impl Read for HashingReader {
     fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
         let n = self.file.read(buf)?;
-        self.hasher.update(&buf[..n]);
+        let bytes = &buf[..n];
+        self.hasher.update(bytes);
+        if let Some(cr) = self.pending_cr.take() {
+            match bytes.first() {
+                Some(b'\n') => self.crlf_newlines.push_back(self.offset),
+                _ => self.lone_crs.push_back(cr),
+            }
+        }
+        for (i, _) in bytes.iter().enumerate().filter(|(_, &b)| b == b'\r') {
+            match bytes.get(i + 1) {
+                Some(b'\n') => self.crlf_newlines.push_back(self.offset + i as u64 + 1),
+                Some(_) => self.lone_crs.push_back(self.offset + i as u64),
+                None if n > 0 => self.pending_cr = Some(self.offset + i as u64),
+                None => {}
+            }
+        }
+        if n == 0 {
+            // The end of the file: a last `\r` was lone.
+            self.lone_crs.extend(self.pending_cr.take());
+        }
+        self.offset += n as u64;
         Ok(n)
     }
 }
@@ -278,7 +316,31 @@ impl Read for HashingReader {
 impl HashingReader {
     fn open(path: &Path) -> Result<Self> {
         let file = std::fs::File::open(path).map_err(|e| super::unreadable(path, e))?;
-        Ok(Self { file, hasher: Sha256::new(), path: path.to_path_buf() })
+        Ok(Self {
+            file,
+            hasher: Sha256::new(),
+            path: path.to_path_buf(),
+            offset: 0,
+            pending_cr: None,
+            lone_crs: std::collections::VecDeque::new(),
+            lone_crs_passed: 0,
+            crlf_newlines: std::collections::VecDeque::new(),
+        })
+    }
+
+    /// The line ends the parser has not counted at a record starting at
+    /// byte `byte`: the lone carriage returns before it, and one more when it
+    /// starts at the `\n` of a `\r\n`. Positions must be asked for in file
+    /// order (records are read in order).
+    fn uncounted_line_ends(&mut self, byte: u64) -> u64 {
+        while self.lone_crs.front().is_some_and(|&cr| cr < byte) {
+            self.lone_crs.pop_front();
+            self.lone_crs_passed += 1;
+        }
+        while self.crlf_newlines.front().is_some_and(|&newline| newline < byte) {
+            self.crlf_newlines.pop_front();
+        }
+        self.lone_crs_passed + u64::from(self.crlf_newlines.front() == Some(&byte))
     }
 
     /// Reads what is left (nothing, after a complete parse) and returns the
@@ -289,8 +351,33 @@ impl HashingReader {
     }
 }
 
-fn malformed(path: &Path, e: &csv::Error) -> Error {
-    Error::CsvMalformed { path: path.to_path_buf(), line: e.position().map_or(0, |p| p.line()), reason: e.to_string() }
+/// The file line of `position` as an editor counts it: the parser's line
+/// plus the line ends it has not counted ([`HashingReader`]).
+fn physical_line(csv: &mut csv::Reader<HashingReader>, position: &csv::Position) -> u64 {
+    position.line() + csv.get_mut().uncounted_line_ends(position.byte())
+}
+
+/// Reads the next record into `record` with its position's line made the
+/// editor's line ([`physical_line`]); `false` at the end of the file.
+fn next_record(csv: &mut csv::Reader<HashingReader>, record: &mut csv::ByteRecord, path: &Path) -> Result<bool> {
+    match csv.read_byte_record(record) {
+        Ok(false) => Ok(false),
+        Ok(true) => {
+            if let Some(position) = record.position().cloned() {
+                let mut fixed = position.clone();
+                fixed.set_line(physical_line(csv, &position));
+                record.set_position(Some(fixed));
+            }
+            Ok(true)
+        }
+        Err(e) => {
+            let line = match e.position().cloned() {
+                Some(position) => physical_line(csv, &position),
+                None => 0,
+            };
+            Err(Error::CsvMalformed { path: path.to_path_buf(), line, reason: e.to_string() })
+        }
+    }
 }
 
 /// A reader positioned after the header: the column names, and the first
@@ -310,7 +397,7 @@ fn read_header(path: &Path, options: &CsvOptions) -> Result<HeaderRead> {
         .from_reader(HashingReader::open(path)?);
     let no_columns = || Error::NoColumns { path: path.to_path_buf(), delimiter: options.delimiter as char };
     let mut record = csv::ByteRecord::new();
-    if !csv.read_byte_record(&mut record).map_err(|e| malformed(path, &e))? {
+    if !next_record(&mut csv, &mut record, path)? {
         return Err(no_columns());
     }
     let line = record.position().map_or(1, |p| p.line());
@@ -460,7 +547,7 @@ impl ReadContext<'_> {
             push(&first);
         }
         let mut record = csv::ByteRecord::new();
-        while reader.csv.read_byte_record(&mut record).map_err(|e| malformed(self.path, &e))? {
+        while next_record(&mut reader.csv, &mut record, self.path)? {
             push(&record);
         }
         for (index, builder) in builders {

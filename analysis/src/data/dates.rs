@@ -22,6 +22,7 @@
 //! trends.
 
 use chrono::{Datelike, NaiveDate};
+use polars::prelude::{DataFrame, DataType, TimeUnit};
 
 /// The ISO 8601 calendar-date format, the default for date columns.
 pub const ISO_DATE_FORMAT: &str = "%Y-%m-%d";
@@ -29,6 +30,59 @@ pub const ISO_DATE_FORMAT: &str = "%Y-%m-%d";
 /// Days from 1970-01-01 to 0001-01-01 in chrono's proleptic Gregorian
 /// day numbering (`NaiveDate::num_days_from_ce` of 1970-01-01).
 const UNIX_EPOCH_DAYS_FROM_CE: i32 = 719_163;
+
+/// Refuses a date, date-time or time of day in `data` that lies outside
+/// the calendar (beyond chrono's years −262,143 to 262,142, or a time of day
+/// past midnight): a damaged or hand-made Parquet or Arrow file can hold any
+/// 32- or 64-bit number there, and showing such a value would otherwise stop
+/// the program. `source` names the file in the error.
+pub(crate) fn check_calendar_values(data: &DataFrame, source: &str) -> crate::Result<()> {
+    const NANOS_PER_DAY: i64 = 86_400_000_000_000;
+    for column in data.columns() {
+        let series = column.as_materialized_series();
+        let refuse = |row: usize, value: String, requirement: &str| crate::Error::OutOfRange {
+            what: format!("the value of column `{}` at data row {} of {source}", column.name(), row + 1),
+            requirement: requirement.into(),
+            value,
+        };
+        match series.dtype() {
+            DataType::Date => {
+                for (row, days) in series.date()?.physical().iter().enumerate() {
+                    if let Some(days) = days.filter(|&d| from_epoch_days(d).is_none()) {
+                        return Err(refuse(row, format!("{days} days from 1970-01-01"), CALENDAR_RANGE));
+                    }
+                }
+            }
+            DataType::Datetime(unit, _) => {
+                let per_day: i64 = match unit {
+                    TimeUnit::Nanoseconds => NANOS_PER_DAY,
+                    TimeUnit::Microseconds => NANOS_PER_DAY / 1_000,
+                    TimeUnit::Milliseconds => NANOS_PER_DAY / 1_000_000,
+                };
+                for (row, value) in series.datetime()?.physical().iter().enumerate() {
+                    let outside = |v: i64| {
+                        i32::try_from(v.div_euclid(per_day)).ok().and_then(|d| from_epoch_days(d).map(|_| d)).is_none()
+                    };
+                    if let Some(value) = value.filter(|&v| outside(v)) {
+                        return Err(refuse(row, format!("{value} ({unit:?} from 1970-01-01)"), CALENDAR_RANGE));
+                    }
+                }
+            }
+            DataType::Time => {
+                for (row, nanos) in series.time()?.physical().iter().enumerate() {
+                    if let Some(nanos) = nanos.filter(|n| !(0..NANOS_PER_DAY).contains(n)) {
+                        return Err(refuse(row, format!("{nanos} ns after midnight"), "a time of day within one day"));
+                    }
+                }
+            }
+            _ => {}
+        }
+    }
+    Ok(())
+}
+
+/// The calendar a date must lie in, as errors state it.
+const CALENDAR_RANGE: &str = "a date between the years -262143 and 262142";
 
 /// Parses `text` (trimmed) with a chrono format string.
 pub fn parse_date(text: &str, format: &str) -> Option<NaiveDate> {

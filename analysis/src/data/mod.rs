@@ -28,6 +28,7 @@ mod batches;
 mod cells;
 mod csv_reader;
 pub mod dates;
+mod decoder_guard;
 mod frame;
 #[cfg(feature = "sqlite")]
 mod geopackage;

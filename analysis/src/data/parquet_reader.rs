@@ -1,5 +1,6 @@
 //! Apache Parquet into a [`Frame`], through polars' Parquet reader.
 
+use super::decoder_guard::polars_guarded;
 use super::{read_bytes, sha256_hex, Frame, MemoryBudget, Provenance};
 use crate::error::{Error, Result};
 use polars::io::parquet::read::FileMetadata;
@@ -35,28 +36,29 @@ fn read_parquet(path: &Path, columns: Option<&[String]>) -> Result<Frame> {
     let bytes = read_bytes(path)?;
     let unreadable = |cause| Error::ParquetUnreadable { path: path.to_path_buf(), cause };
     let mut reader = ParquetReader::new(Cursor::new(&bytes));
-    let schema = reader.schema().map_err(unreadable)?;
+    let schema = polars_guarded(|| reader.schema()).map_err(unreadable)?;
     let width = schema.len();
     let wanted: Option<Vec<String>> =
         columns.filter(|wanted| wanted.iter().all(|c| schema.contains(c.as_str()))).map(|wanted| {
             schema.iter_names().filter(|n| wanted.iter().any(|c| c == n.as_str())).map(|n| n.to_string()).collect()
         });
     let decoded_size = {
-        let metadata = reader.get_metadata().map_err(unreadable)?;
+        let metadata = polars_guarded(|| reader.get_metadata().cloned()).map_err(unreadable)?;
         let names: Vec<String> = match &wanted {
             Some(names) => names.clone(),
             None => schema.iter_names().map(|n| n.to_string()).collect(),
         };
-        uncompressed_size(metadata, &names)
+        uncompressed_size(&metadata, &names)
     };
     budget.check(file_size.saturating_add(decoded_size), reading, PARQUET_ADVICE)?;
     let (sha256, decoded) = std::thread::scope(|scope| {
         let hashing = scope.spawn(|| sha256_hex(&bytes));
-        let decoded = ParquetReader::new(Cursor::new(&bytes)).with_columns(wanted).finish();
+        let decoded = polars_guarded(|| ParquetReader::new(Cursor::new(&bytes)).with_columns(wanted).finish());
         // Hashing a byte slice cannot fail; a panic there is a bug, re-raised here.
         (hashing.join().unwrap_or_else(|e| std::panic::resume_unwind(e)), decoded)
     });
     let data = decoded.map_err(unreadable)?;
+    super::dates::check_calendar_values(&data, &format!("`{}`", path.display()))?;
     let provenance = Provenance::for_file_hash(path, sha256, data.height(), width);
     Ok(Frame::from_parts(data, provenance, None))
 }

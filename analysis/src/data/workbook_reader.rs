@@ -11,6 +11,7 @@
 //! hash is of the file's bytes, like a CSV file's.
 
 use super::cells::{Cell, CellColumns};
+use super::decoder_guard::decode_guarded;
 use super::provenance::{sha256_hex, SourceKind, SourceStamp, HASH_OF_FILE_BYTES};
 use super::{read_bytes, Frame, Provenance};
 use crate::error::{Error, Result};
@@ -37,7 +38,9 @@ pub fn load_workbook(path: impl AsRef<Path>, sheet: Option<&str>) -> Result<Fram
     let path = path.as_ref();
     let bytes = read_bytes(path)?;
     let unreadable = |reason: String| Error::WorkbookUnreadable { path: path.to_path_buf(), reason };
-    let mut workbook: Xlsx<_> = Xlsx::new(Cursor::new(&bytes)).map_err(|e| unreadable(e.to_string()))?;
+    let damaged = |panic: String| unreadable(format!("the file is damaged (the decoder stopped: {panic})"));
+    let mut workbook: Xlsx<_> =
+        decode_guarded(|| Xlsx::new(Cursor::new(&bytes))).map_err(damaged)?.map_err(|e| unreadable(e.to_string()))?;
     let names = workbook.sheet_names();
     let sheet = match sheet {
         Some(name) if names.iter().any(|n| n == name) => name.to_string(),
@@ -57,7 +60,9 @@ pub fn load_workbook(path: impl AsRef<Path>, sheet: Option<&str>) -> Result<Fram
             }
         },
     };
-    let range = workbook.worksheet_range(&sheet).map_err(|e| unreadable(format!("sheet `{sheet}`: {e}")))?;
+    let range = decode_guarded(|| workbook.worksheet_range(&sheet))
+        .map_err(damaged)?
+        .map_err(|e| unreadable(format!("sheet `{sheet}`: {e}")))?;
     let (first_row, first_column) = range.start().unwrap_or((0, 0));
     let cell_error = |row: usize, column: usize, problem: String| Error::WorkbookCell {
         path: path.to_path_buf(),
