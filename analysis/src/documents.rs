@@ -246,12 +246,16 @@ pub trait DocumentKind: Serialize + DeserializeOwned + Clone {
 }
 
 /// The coefficients of a fit read back must be as a fit writes them: each
-/// standard error non-negative and each interval holding its estimate. A
+/// named once, each standard error non-negative and each interval holding
+/// its estimate. A
 /// document edited by hand that breaks this would make `plumbline diff` call
 /// a coefficient moved when compared with itself; it is refused instead,
 /// naming the coefficient.
 fn check_fit_summary(summary: &FitSummary, place: &str) -> std::result::Result<(), String> {
-    for c in &summary.coefficients {
+    for (i, c) in summary.coefficients.iter().enumerate() {
+        if summary.coefficients[..i].iter().any(|earlier| earlier.term == c.term) {
+            return Err(format!("{place}coefficient `{}` appears twice", c.term));
+        }
         if !(c.std_error >= 0.0) {
             return Err(format!("{place}coefficient `{}` has a negative standard error ({})", c.term, c.std_error));
         }

@@ -1,7 +1,7 @@
 //! Apache Arrow IPC files (`.arrow`, `.feather`, `.ipc`) into a [`Frame`],
 //! through polars' own IPC reader.
 
-use super::decoder_guard::polars_guarded;
+use super::decoder_guard::{check_decoded, polars_guarded};
 use super::provenance::{sha256_hex, SourceKind, SourceStamp, HASH_OF_FILE_BYTES};
 use super::{read_bytes, Frame, MemoryBudget, Provenance};
 use crate::error::{Error, Result};
@@ -23,8 +23,11 @@ pub fn load_arrow(path: impl AsRef<Path>) -> Result<Frame> {
         "convert it to Parquet and read only the columns the model uses (`load_parquet_columns`), or raise the limit",
     )?;
     let bytes = read_bytes(path)?;
-    let data = polars_guarded(|| IpcReader::new(Cursor::new(&bytes)).finish())
-        .map_err(|cause| Error::ArrowUnreadable { path: path.to_path_buf(), cause })?;
+    let data = polars_guarded(|| {
+        let data = IpcReader::new(Cursor::new(&bytes)).finish()?;
+        check_decoded(&data).map(|()| data)
+    })
+    .map_err(|cause| Error::ArrowUnreadable { path: path.to_path_buf(), cause })?;
     super::dates::check_calendar_values(&data, &format!("`{}`", path.display()))?;
     let stamp = SourceStamp::new(SourceKind::ArrowIpc, HASH_OF_FILE_BYTES);
     let provenance =

@@ -1,6 +1,6 @@
 //! Apache Parquet into a [`Frame`], through polars' Parquet reader.
 
-use super::decoder_guard::polars_guarded;
+use super::decoder_guard::{check_decoded, polars_guarded};
 use super::{read_bytes, sha256_hex, Frame, MemoryBudget, Provenance};
 use crate::error::{Error, Result};
 use polars::io::parquet::read::FileMetadata;
@@ -53,7 +53,10 @@ fn read_parquet(path: &Path, columns: Option<&[String]>) -> Result<Frame> {
     budget.check(file_size.saturating_add(decoded_size), reading, PARQUET_ADVICE)?;
     let (sha256, decoded) = std::thread::scope(|scope| {
         let hashing = scope.spawn(|| sha256_hex(&bytes));
-        let decoded = polars_guarded(|| ParquetReader::new(Cursor::new(&bytes)).with_columns(wanted).finish());
+        let decoded = polars_guarded(|| {
+            let data = ParquetReader::new(Cursor::new(&bytes)).with_columns(wanted).finish()?;
+            check_decoded(&data).map(|()| data)
+        });
         // Hashing a byte slice cannot fail; a panic there is a bug, re-raised here.
         (hashing.join().unwrap_or_else(|e| std::panic::resume_unwind(e)), decoded)
     });
