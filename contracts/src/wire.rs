@@ -1,6 +1,6 @@
 //! Contract of the kernel's wire layer: frames and signatures.
 //!
-//! Any list of frames decodes to a message or a [`WireError`] with a reason,
+//! Any list of frames decodes to a message or a [`plumbline_kernel::wire::WireError`] with a reason,
 //! under the session key and under no key; a message that decodes encodes
 //! and decodes again to the same message. Half of the inputs are re-signed
 //! with the session key before decoding, so that the fuzzer also reaches the
