@@ -11,9 +11,10 @@ const PLACE_WORDS: &[&str] =
     &["line ", "row ", "cell ", "column `", "column ", "term `", "field", "sheet", "schema", "version", "document"];
 
 /// Panics unless `error` is a typed refusal whose message names a place:
-/// `file` (the name of the input file, if there is one) or one of
-/// the place words (a line, row, cell, column, term, field…). An internal error that reached the user unexplained
-/// (`Error::Frame`, a polars error passed through) breaks the contract.
+/// `file` (the name of the input file, if there is one) or one of the place
+/// words (a line, row, cell, column, term, field…). An internal error that
+/// reached the user unexplained (`Error::Frame`, a polars error passed
+/// through) breaks the contract.
 pub fn assert_names_a_place(error: &Error, file: Option<&str>, input: &str) {
     let message = error.to_string();
     if let Error::Frame(inner) = error {
