@@ -39,6 +39,7 @@ Usage:
 Data go to $PLUMBLINE_BENCH_DIR (default: the system temp dir) and are reused.
 """
 import argparse
+import json
 import os
 import pathlib
 import statistics
@@ -127,7 +128,6 @@ def median_time(run, repeats=3):
 
 
 def part_one(rows):
-    import json
     import numpy as np
 
     regressors = 49
@@ -166,17 +166,36 @@ with tempfile.TemporaryFile() as out, tempfile.TemporaryFile() as err:
 """
 
 
+def data_folder(name):
+    """A folder of generated data under DATA, and whether it is complete from an earlier run."""
+    directory = DATA / name
+    directory.mkdir(parents=True, exist_ok=True)
+    return directory, (directory / "COMPLETE").exists()
+
+
+def measured(command):
+    """Runs `command` under a fresh small Python that only starts it and waits, and returns
+    its (seconds, peak KiB, stdout): Linux carries the pre-exec memory of the forked process
+    into the child's peak (ru_maxrss), so started from this process — which may hold part
+    one's arrays — the peak would be this process's, not plumbline's."""
+    run = subprocess.run([sys.executable, "-c", MEASURE, *command], capture_output=True, text=True)
+    if run.returncode != 0:
+        raise SystemExit(run.stderr)
+    report = json.loads(run.stdout)
+    if report["status"] != 0:
+        raise SystemExit(report["err"])
+    return report["elapsed"], report["peak_kib"], report["out"]
+
+
 def stream_directory(rows):
     import numpy as np
     import pyarrow as pa
     import pyarrow.parquet as pq
 
     per_file = 2_000_000
-    directory = DATA / f"plumbline-stream-{rows}x20"
-    marker = directory / "COMPLETE"
-    if marker.exists():
+    directory, complete = data_folder(f"plumbline-stream-{rows}x20")
+    if complete:
         return directory
-    directory.mkdir(parents=True, exist_ok=True)
     rng = np.random.default_rng(20261204)
     for k in range(rows // per_file):
         real = rng.uniform(0.0, 10.0, size=(per_file, 9))
@@ -187,7 +206,7 @@ def stream_directory(rows):
         columns.update({f"r{j}": real[:, j] for j in range(9)})
         columns.update({f"k{j}": small[:, j].astype(np.int16) for j in range(10)})
         pq.write_table(pa.table(columns), directory / f"part-{k:04d}.parquet", row_group_size=1_000_000)
-    marker.write_text("done\n")
+    (directory / "COMPLETE").write_text("done\n")
     return directory
 
 
@@ -197,19 +216,7 @@ def part_two(rows):
     terms = ",".join([f"r{j}" for j in range(9)] + [f"k{j}" for j in range(10)])
     command = [BIN, "fit", str(directory), "--target", "y", "--terms", terms, "--cov", "hc1",
                "--batch-rows", "1000000", "--format", "json"]
-    # The fit runs under a fresh, small Python that only starts it and waits:
-    # Linux carries the pre-exec memory of the forked process into the child's
-    # peak (ru_maxrss), so started from this process — which holds part one's
-    # arrays — the peak would be this process's, not plumbline's.
-    measured = subprocess.run([sys.executable, "-c", MEASURE, *command], capture_output=True, text=True)
-    if measured.returncode != 0:
-        raise SystemExit(measured.stderr)
-    import json
-
-    report = json.loads(measured.stdout)
-    elapsed, peak_kib, status, out, err = (report[k] for k in ("elapsed", "peak_kib", "status", "out", "err"))
-    if status != 0:
-        raise SystemExit(err)
+    elapsed, peak_kib, out = measured(command)
     document = json.loads(out)
     print(f"{rows:,} rows x 20 columns in {directory} ({size / 1e9:.1f} GB of Parquet; "
           f"{rows * 20 * 8 / 1e9:.0f} GB as f64 in memory)")
@@ -224,11 +231,9 @@ def parcel_directory(parcels):
     import pyarrow.parquet as pq
 
     files = 5
-    directory = DATA / f"plumbline-roll-{parcels}"
-    marker = directory / "COMPLETE"
-    if marker.exists():
+    directory, complete = data_folder(f"plumbline-roll-{parcels}")
+    if complete:
         return directory
-    directory.mkdir(parents=True, exist_ok=True)
     rng = np.random.default_rng(20261205)
     districts = np.array(["Brambleknot", "Corvel Heights", "Mossgrieve", "Pellowick", "Tidewright Quay", "Wickerholm"])
     per_file = parcels // files
@@ -242,7 +247,7 @@ def parcel_directory(parcels):
             "quality": rng.integers(1, 6, per_file).astype(np.int64),
             "district": pa.array(districts[rng.integers(0, len(districts), per_file)]),
         }), directory / f"parcels-{k}.parquet", row_group_size=500_000)
-    marker.write_text("done\n")
+    (directory / "COMPLETE").write_text("done\n")
     return directory
 
 
@@ -255,18 +260,11 @@ def part_three(parcels):
                "--log", "living_area", "--log", "lot_size", "--terms", "age,quality", "--category", "district",
                "--parcels", str(directory), "--id", "parcel_id", "--out", str(out),
                "--parcel-batch-rows", "100000"]
-    measured = subprocess.run([sys.executable, "-c", MEASURE, *command], capture_output=True, text=True)
-    if measured.returncode != 0:
-        raise SystemExit(measured.stderr)
-    import json
-
-    report = json.loads(measured.stdout)
-    if report["status"] != 0:
-        raise SystemExit(report["err"])
+    elapsed, peak_kib, _ = measured(command)
     print(f"{parcels:,} parcels in {directory} ({size / 1e9:.2f} GB of Parquet; "
           f"{parcels * 5 * 8 / 1e9:.1f} GB as f64 in memory)")
-    print(f"  plumbline value --parcel-batch-rows 100000   {report['elapsed']:8.1f} s   "
-          f"peak RSS {report['peak_kib'] / 1024:.0f} MiB   roll {out.stat().st_size / 1e9:.2f} GB")
+    print(f"  plumbline value --parcel-batch-rows 100000   {elapsed:8.1f} s   "
+          f"peak RSS {peak_kib / 1024:.0f} MiB   roll {out.stat().st_size / 1e9:.2f} GB")
 
 
 def main():

@@ -59,8 +59,14 @@ KINDS = [
     ("frame", 'println!("{m} a");\nlet head = sales.subset(&[0, 1, 2], "first rows")?;\nprintln!("{m} b");\nhead'),
     ("number", 'println!("{m} a");\nlet n = sales.height() * 2;\nprintln!("{m} b");\nn'),
 ]
+# Cells that fail on purpose: their code, the reply expected, and whether the
+# cell process (and so the variables) is lost.
+FAULT_CELLS = {
+    "aborted": ("std::process::abort();", lambda content: content["status"] == "error", True),
+    "panicked": ('panic!("on purpose")', lambda content: content.get("ename") == "panic", False),
+}
 # Rates of the faults, per cell.
-RATES = {"interrupt": 0.04, "abort": 0.03, "panic": 0.03, "restart": 0.01}
+RATES = {"interrupt": 0.04, "aborted": 0.03, "panicked": 0.03, "restart": 0.01}
 RUN_NOTEBOOK = {
     "nbformat": 4, "nbformat_minor": 5, "metadata": {"kernelspec": {"name": "plumbline", "display_name": "Plumbline"}},
     "cells": [
@@ -162,21 +168,16 @@ def one_kernel(index, args, tally, samples, stop):
                 setup()
                 continue
             draw -= RATES["interrupt"]
-            if draw < RATES["abort"]:
-                reply, _, _ = execute(kc, "std::process::abort();")
-                if reply["content"]["status"] != "error":
-                    tally.add("failed otherwise", f"{marker}: an abort replied {reply['content']['status']}")
-                tally.add("aborted")
-                setup()
+            fault = next((f for f in FAULT_CELLS if (draw := draw - RATES[f]) < 0), None)
+            if fault:
+                code, expected, state_lost = FAULT_CELLS[fault]
+                reply, _, _ = execute(kc, code)
+                if not expected(reply["content"]):
+                    tally.add("failed otherwise", f"{marker}: the {fault} cell replied {reply['content']}")
+                tally.add(fault)
+                if state_lost:
+                    setup()
                 continue
-            draw -= RATES["abort"]
-            if draw < RATES["panic"]:
-                reply, _, _ = execute(kc, 'panic!("on purpose")')
-                if reply["content"].get("ename") != "panic":
-                    tally.add("failed otherwise", f"{marker}: a panic replied {reply['content']}")
-                tally.add("panicked")
-                continue
-            draw -= RATES["panic"]
             if draw < RATES["restart"]:
                 km.restart_kernel(now=False)
                 kc.wait_for_ready(timeout=300)
