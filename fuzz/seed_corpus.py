@@ -136,14 +136,21 @@ def term_seeds():
 
 
 def wire_seeds():
-    # The target cuts its bytes into (re-sign, frames) with the `arbitrary`
-    # crate; a signed execute request written out frame after frame gives the
-    # fuzzer the frames' text to start from.
-    header = json.dumps({"msg_id": "a1", "session": "s1", "username": "analyst", "date": "2026-01-01T00:00:00Z",
-                         "msg_type": "execute_request", "version": "5.3"})
-    frames = [b"shell-peer", b"<IDS|MSG>", b"", header.encode(), b"{}", b"{}",
-              json.dumps({"code": "let x = 1;", "silent": False}).encode()]
-    put("wire_frames", b"\x01" + b"".join(bytes([len(f)]) + f for f in frames))
+    # contracts/src/wire.rs: a flag byte (1: re-sign with the session key), then
+    # frames, each a 16-bit little-endian length and its bytes.
+    def header(msg_type):
+        return json.dumps({"msg_id": "a1", "session": "s1", "username": "analyst",
+                           "date": "2026-01-01T00:00:00Z", "msg_type": msg_type, "version": "5.3"}).encode()
+
+    def framed(flag, frames):
+        return bytes([flag]) + b"".join(len(f).to_bytes(2, "little") + f for f in frames)
+
+    for msg_type, content in [("execute_request", {"code": "let x = 1;", "silent": False}),
+                              ("kernel_info_request", {}),
+                              ("complete_request", {"code": "sales.he", "cursor_pos": 8})]:
+        frames = [b"shell-peer", b"<IDS|MSG>", b"", header(msg_type), b"{}", b"{}", json.dumps(content).encode()]
+        put("wire_frames", framed(1, frames))
+        put("wire_frames", framed(0, frames))
 
 
 if __name__ == "__main__":
