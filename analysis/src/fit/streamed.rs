@@ -114,13 +114,14 @@ impl FirstSolution {
     /// [`FitOptions::rank_tolerance`] (`None`: the default for the design's size).
     pub fn from_aggregate(aggregate: FactorAggregate, recipe: &DesignRecipe, tolerance: Option<f64>) -> Result<Self> {
         let p = recipe.column_names.len();
+        // As in memory: more coefficients than rows is refused whatever the rank.
+        if aggregate.rows <= p {
+            return Err(Error::TooFewRows { rows: aggregate.rows, columns: p });
+        }
         let tolerance = tolerance.unwrap_or_else(|| default_rank_tolerance(aggregate.rows, p));
         let small = SmallFactor::from_augmented(aggregate.factor.r(), tolerance);
         if small.kept.is_empty() {
             return Err(Error::SingularDesign { detail: "every design column is zero on the rows used".into() });
-        }
-        if aggregate.rows <= small.kept.len() {
-            return Err(Error::TooFewRows { rows: aggregate.rows, columns: small.kept.len() });
         }
         let coefficients = small.solution();
         Ok(Self { small, coefficients, aggregate, with_intercept: recipe.spec.has_intercept() })
