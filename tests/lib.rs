@@ -156,3 +156,38 @@ pub fn frame_rows(frame: &plumbline::prelude::Frame) -> (Vec<(String, &'static s
         .collect();
     (columns, rows)
 }
+
+/// Relative agreement of fits assembled in different ways (issue acceptance
+/// of the fits from pieces and in query engines): 1e-12.
+pub const ASSEMBLED_TOLERANCE: f64 = 1e-12;
+
+/// Whether `a` and `b` agree to [`ASSEMBLED_TOLERANCE`] relative.
+pub fn close(a: f64, b: f64) -> bool {
+    (a - b).abs() <= ASSEMBLED_TOLERANCE * a.abs().max(b.abs()).max(f64::MIN_POSITIVE)
+}
+
+/// Asserts two fit summaries agree to [`ASSEMBLED_TOLERANCE`]: rows, dropped
+/// rows, aliased columns, every estimate and standard error, RSS, R² and F.
+pub fn assert_summaries_agree(
+    expected: &plumbline::inference::FitSummary,
+    got: &plumbline::inference::FitSummary,
+    what: &str,
+) {
+    assert_eq!(got.n_obs, expected.n_obs, "{what}: rows used");
+    assert_eq!(got.n_dropped, expected.n_dropped, "{what}: dropped rows");
+    assert_eq!(got.aliased, expected.aliased, "{what}: aliased columns");
+    assert_eq!(got.coefficients.len(), expected.coefficients.len(), "{what}: coefficient count");
+    for (e, g) in expected.coefficients.iter().zip(&got.coefficients) {
+        assert_eq!(e.term, g.term, "{what}: term order");
+        assert!(close(e.estimate, g.estimate), "{what}: {} estimate {} vs {}", e.term, g.estimate, e.estimate);
+        assert!(close(e.std_error, g.std_error), "{what}: {} std error {} vs {}", e.term, g.std_error, e.std_error);
+    }
+    assert!(
+        close(expected.ss_residual, got.ss_residual),
+        "{what}: RSS {} vs {}",
+        got.ss_residual,
+        expected.ss_residual
+    );
+    assert!(close(expected.r_squared, got.r_squared), "{what}: R² {} vs {}", got.r_squared, expected.r_squared);
+    assert!(close(expected.f_statistic.unwrap_or(0.0), got.f_statistic.unwrap_or(0.0)), "{what}: F");
+}

@@ -14,6 +14,7 @@
 use crate::data::{load_csv, CsvOptions};
 use crate::error::{Error, Result};
 use crate::fit::{fit_with, FitOptions, Precision};
+use crate::inference::{Coefficient, FitStatistics};
 use crate::model::{ModelSpec, Term};
 use serde::Serialize;
 use serde_json::Value;
@@ -80,6 +81,37 @@ fn score(estimate: f64, v: &Value, what: &str, dataset: &str) -> Result<f64> {
 
 /// Fits and scores every dataset listed in `certified.json` under `dir`.
 pub fn score_all(dir: &Path, precision: Precision) -> Result<Vec<DatasetScore>> {
+    score_all_with(dir, |csv, spec| {
+        let frame = load_csv(csv, &CsvOptions::default())?;
+        let options = FitOptions { precision, ..FitOptions::default() };
+        let model = fit_with(&frame, spec, &options)?;
+        Ok(ScoredFit {
+            coefficients: model.coefficients(0.95)?,
+            statistics: model.statistics(),
+            aliased: model.aliased_names().into_iter().map(String::from).collect(),
+        })
+    })
+}
+
+/// What a fit of one dataset gives the scorer.
+#[derive(Debug, Clone)]
+pub struct ScoredFit {
+    /// The coefficient table (any confidence level: only estimates and
+    /// standard errors are scored).
+    pub coefficients: Vec<Coefficient>,
+    /// Whole-fit statistics.
+    pub statistics: FitStatistics,
+    /// Names of aliased columns (reported when the count differs).
+    pub aliased: Vec<String>,
+}
+
+/// Scores every dataset in `dir` as fitted by `fit`, which is given each
+/// dataset's CSV file and model: the same scoring for any route to a fit (in
+/// memory, in batches, inside a query engine).
+pub fn score_all_with(
+    dir: &Path,
+    mut fit: impl FnMut(&Path, &ModelSpec) -> Result<ScoredFit>,
+) -> Result<Vec<DatasetScore>> {
     let certified_path = dir.join("certified.json");
     let text = std::fs::read_to_string(&certified_path).map_err(|e| {
         reference_error(format!(
@@ -92,12 +124,17 @@ pub fn score_all(dir: &Path, precision: Precision) -> Result<Vec<DatasetScore>> 
     let entries = root.as_object().ok_or_else(|| reference_error("certified.json must hold an object".into()))?;
     let mut scores = Vec::new();
     for (name, entry) in entries {
-        scores.push(score_dataset(dir, name, entry, precision)?);
+        scores.push(score_dataset(dir, name, entry, &mut fit)?);
     }
     Ok(scores)
 }
 
-fn score_dataset(dir: &Path, name: &str, entry: &Value, precision: Precision) -> Result<DatasetScore> {
+fn score_dataset(
+    dir: &Path,
+    name: &str,
+    entry: &Value,
+    fit: &mut impl FnMut(&Path, &ModelSpec) -> Result<ScoredFit>,
+) -> Result<DatasetScore> {
     let malformed = |what: &str| reference_error(format!("{name}: certified.json lacks {what}"));
     let csv = entry.get("csv").and_then(Value::as_str).ok_or_else(|| malformed("csv"))?;
     let model = entry.get("model").ok_or_else(|| malformed("model"))?;
@@ -111,7 +148,6 @@ fn score_dataset(dir: &Path, name: &str, entry: &Value, precision: Precision) ->
         .collect();
     let degree = model.get("polynomial_degree").and_then(Value::as_u64);
 
-    let frame = load_csv(dir.join(csv), &CsvOptions::default())?;
     let mut spec = ModelSpec::new("y");
     if !intercept {
         spec = spec.without_intercept();
@@ -124,10 +160,7 @@ fn score_dataset(dir: &Path, name: &str, entry: &Value, precision: Precision) ->
             }
         }
     }
-    let options = FitOptions { precision, ..FitOptions::default() };
-    let model = fit_with(&frame, &spec, &options)?;
-    let coefficients = model.coefficients(0.95)?;
-    let stats = model.statistics();
+    let ScoredFit { coefficients, statistics: stats, aliased } = fit(&dir.join(csv), &spec)?;
     let certified = entry.get("certified").ok_or_else(|| malformed("certified"))?;
     let parameters =
         certified.get("parameters").and_then(Value::as_array).ok_or_else(|| malformed("certified.parameters"))?;
@@ -136,7 +169,7 @@ fn score_dataset(dir: &Path, name: &str, entry: &Value, precision: Precision) ->
             "{name}: {} certified parameters but {} estimated (aliased: {:?})",
             parameters.len(),
             coefficients.len(),
-            model.aliased_names()
+            aliased
         )));
     }
     let mut coef_min = f64::INFINITY;

@@ -270,6 +270,16 @@ pub enum Error {
         columns: usize,
     },
 
+    /// The state of a fit from pieces, received from another process or
+    /// partition, cannot be read.
+    #[error("the {kind} state of a fit from pieces cannot be read: {detail}")]
+    DamagedState {
+        /// Which state (coding, factor, residual sums).
+        kind: String,
+        /// What is wrong with it.
+        detail: String,
+    },
+
     /// The target does not vary, so there is nothing to explain.
     #[error("target `{target}` has the same value ({value}) on every row used; there is no variation to explain")]
     ConstantTarget {

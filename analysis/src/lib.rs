@@ -62,6 +62,7 @@ pub mod predict;
 pub mod render;
 pub mod schema;
 pub mod spatial;
+pub mod state_bytes;
 pub mod stats;
 pub mod strata;
 pub mod value;

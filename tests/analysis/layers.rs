@@ -17,8 +17,9 @@ use std::path::Path;
 const LAYERS: &[&[&str]] = &[
     // The error type.
     &["error"],
-    // Foundations: extended arithmetic, document names, distributions and quantiles, digit grouping.
-    &["numeric", "schema", "stats", "grouping"],
+    // Foundations: extended arithmetic, document names, distributions and quantiles, digit grouping,
+    // the exact byte forms of states that cross processes.
+    &["numeric", "schema", "stats", "grouping", "state_bytes"],
     // Where parcels lie: spatial weights and Moran's I.
     &["spatial"],
     // Files to frames.

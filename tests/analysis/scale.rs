@@ -13,13 +13,7 @@ use plumbline::fit::{fit_batches, AssembledFit};
 use plumbline::model::{Design, DroppedRows};
 use plumbline::polars::prelude::ParquetWriter;
 use plumbline::prelude::*;
-use plumbline_tests::{demo_sales_csv, demo_spec, scratch_dir};
-
-const TOLERANCE: f64 = 1e-12;
-
-fn close(a: f64, b: f64) -> bool {
-    (a - b).abs() <= TOLERANCE * a.abs().max(b.abs()).max(f64::MIN_POSITIVE)
-}
+use plumbline_tests::{assert_summaries_agree, close, demo_sales_csv, demo_spec, scratch_dir};
 
 fn in_memory(covariance: CovarianceKind) -> (Frame, Fit) {
     let frame = load(demo_sales_csv()).expect("demo sales");
@@ -29,25 +23,11 @@ fn in_memory(covariance: CovarianceKind) -> (Frame, Fit) {
 }
 
 fn assert_agrees(reference: &Fit, assembled: &AssembledFit, what: &str) {
-    let expected = reference.summary(0.95).expect("summary");
-    let got = assembled.summary(0.95).expect("summary");
-    assert_eq!(got.n_obs, expected.n_obs, "{what}: rows");
-    assert_eq!(got.n_dropped, expected.n_dropped, "{what}: dropped rows");
-    assert_eq!(got.aliased, expected.aliased, "{what}: aliased columns");
-    assert_eq!(got.coefficients.len(), expected.coefficients.len(), "{what}: coefficient count");
-    for (e, g) in expected.coefficients.iter().zip(&got.coefficients) {
-        assert_eq!(e.term, g.term, "{what}: term order");
-        assert!(close(e.estimate, g.estimate), "{what}: {} estimate {} vs {}", e.term, g.estimate, e.estimate);
-        assert!(close(e.std_error, g.std_error), "{what}: {} SE {} vs {}", e.term, g.std_error, e.std_error);
-    }
-    assert!(
-        close(expected.ss_residual, got.ss_residual),
-        "{what}: RSS {} vs {}",
-        got.ss_residual,
-        expected.ss_residual
+    assert_summaries_agree(
+        &reference.summary(0.95).expect("summary"),
+        &assembled.summary(0.95).expect("summary"),
+        what,
     );
-    assert!(close(expected.r_squared, got.r_squared), "{what}: R² {} vs {}", got.r_squared, expected.r_squared);
-    assert!(close(expected.f_statistic.unwrap_or(0.0), got.f_statistic.unwrap_or(0.0)), "{what}: F");
 }
 
 /// Writes the demo sales as `parts` CSV files (header repeated) in a new directory.
@@ -153,6 +133,53 @@ fn partitions_factored_apart_and_merged_in_a_tree_equal_the_single_pass_fit() {
                 .expect("assembled fit");
         assert_agrees(&reference, &assembled, &format!("{k} partitions"));
     }
+}
+
+/// The states that cross processes read back to the last bit, in both
+/// precisions, and damaged bytes are refused with a typed error, never
+/// misread (the states a query engine's executors send each other).
+#[test]
+fn round_states_read_back_exactly_and_damaged_states_are_refused() {
+    let (frame, reference) = in_memory(CovarianceKind::Hc1);
+    let recipe = reference.design().recipe().clone();
+    let design = recipe.fitting_design(&frame).expect("design");
+    let p = recipe.column_names.len();
+    for mut factor in [FactorAggregate::new(p), FactorAggregate::new_extended(p)] {
+        factor.absorb(&design);
+        let bytes = factor.to_bytes();
+        let back = FactorAggregate::from_bytes(&bytes).expect("read back");
+        assert_eq!(back, factor, "a factor state moved on its way");
+        assert_eq!(back.to_bytes(), bytes);
+        for cut in [0, 4, 5, bytes.len() / 2, bytes.len() - 1] {
+            let error = FactorAggregate::from_bytes(&bytes[..cut]).expect_err("a cut state");
+            assert!(matches!(error, Error::DamagedState { .. }), "{error}");
+        }
+        let mut longer = bytes.clone();
+        longer.push(0);
+        assert!(FactorAggregate::from_bytes(&longer).is_err(), "trailing bytes");
+    }
+    let first = FirstSolution::from_aggregate(
+        {
+            let mut f = FactorAggregate::new(p);
+            f.absorb(&design);
+            f
+        },
+        &recipe,
+        None,
+    )
+    .expect("round one");
+    let mut sums = ResidualAggregate::new(&first, true);
+    sums.absorb(&design, &first);
+    let bytes = sums.to_bytes();
+    assert_eq!(ResidualAggregate::from_bytes(&bytes).expect("read back"), sums);
+    // Another state's bytes are not taken for these.
+    assert!(ResidualAggregate::from_bytes(&FactorAggregate::new(p).to_bytes()).is_err());
+    let mut learner = plumbline::model::design::RecipeLearner::new(&demo_spec()).expect("learner");
+    learner.absorb(&frame).expect("learn");
+    let bytes = learner.to_bytes();
+    let back = plumbline::model::design::RecipeLearner::from_bytes(&bytes, &demo_spec()).expect("read back");
+    assert_eq!(back.finish().expect("recipe"), learner.finish().expect("recipe"));
+    assert_eq!(back.to_bytes(), bytes);
 }
 
 /// Pairwise merges, level by level, as a distributed reduction would run them.

@@ -12,14 +12,8 @@
 
 use plumbline::prelude::*;
 use plumbline::strata::{fit_batches_by, fit_by_with, StratifiedFit, StratumOutcome};
-use plumbline_tests::{demo_sales_csv, scratch_dir, write_file};
+use plumbline_tests::{assert_summaries_agree, close, demo_sales_csv, scratch_dir, write_file};
 use std::collections::BTreeMap;
-
-const TOLERANCE: f64 = 1e-12;
-
-fn close(a: f64, b: f64) -> bool {
-    (a - b).abs() <= TOLERANCE * a.abs().max(b.abs()).max(f64::MIN_POSITIVE)
-}
 
 /// The model fitted within each district: every kind of term a group codes
 /// for itself (a log, a category with its own levels and reference, a date trend).
@@ -55,26 +49,13 @@ fn split_by_column(
     parts.into_iter().map(|(value, body)| (value.clone(), write_file(dir, &format!("{value}.csv"), &body))).collect()
 }
 
-fn assert_same_fit(expected: &FitSummary, got: &FitSummary, what: &str) {
-    assert_eq!(got.n_obs, expected.n_obs, "{what}: rows used");
-    assert_eq!(got.aliased, expected.aliased, "{what}: aliased");
-    assert_eq!(got.coefficients.len(), expected.coefficients.len(), "{what}: coefficient count");
-    for (e, g) in expected.coefficients.iter().zip(&got.coefficients) {
-        assert_eq!(e.term, g.term, "{what}: term order");
-        assert!(close(e.estimate, g.estimate), "{what}: {} estimate {} vs {}", e.term, g.estimate, e.estimate);
-        assert!(close(e.std_error, g.std_error), "{what}: {} std error {} vs {}", e.term, g.std_error, e.std_error);
-    }
-    assert!(close(expected.r_squared, got.r_squared), "{what}: R² {} vs {}", got.r_squared, expected.r_squared);
-    assert!(close(expected.ss_residual, got.ss_residual), "{what}: RSS");
-}
-
 fn assert_equals_separate_fits(set: &StratifiedFit, separate: &BTreeMap<String, std::path::PathBuf>, how: &str) {
     assert_eq!(set.strata().len(), separate.len(), "{how}: one stratum per district");
     for (district, file) in separate {
         let alone = fit_with(&load(file).expect("district file"), &spec(), &extended()).expect("separate fit");
         let stratum = set.stratum(district).unwrap_or_else(|| panic!("{how}: {district} missing"));
         let model = stratum.model().unwrap_or_else(|| panic!("{how}: {district} has no model"));
-        assert_same_fit(
+        assert_summaries_agree(
             &alone.summary(0.95).expect("summary"),
             &model.summary(0.95).expect("summary"),
             &format!("{how}, {district}"),
@@ -91,7 +72,7 @@ fn per_area_fits_in_memory_equal_separate_fits_of_each_area() {
     assert_equals_separate_fits(&set, &separate, "in memory");
     // The pooled model is the same specification on every fitted area's rows.
     let pooled = fit_with(&sales, &spec(), &extended()).expect("pooled");
-    assert_same_fit(
+    assert_summaries_agree(
         &pooled.summary(0.95).expect("summary"),
         &set.pooled().expect("pooled model").summary(0.95).expect("summary"),
         "pooled",

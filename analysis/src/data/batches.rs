@@ -127,29 +127,7 @@ impl RowBatches {
     /// the files' SHA-256 digests in order (a single file: its own digest),
     /// with the total rows. Reads every byte once.
     pub fn fingerprint(&self, rows: usize) -> Result<Provenance> {
-        let mut digests = Vec::with_capacity(self.files.len());
-        for file in &self.files {
-            let mut hasher = Sha256::new();
-            let mut input = std::fs::File::open(file).map_err(|e| unreadable(file, e))?;
-            let mut buffer = vec![0u8; 1 << 20];
-            loop {
-                let read = input.read(&mut buffer).map_err(|e| unreadable(file, e))?;
-                if read == 0 {
-                    break;
-                }
-                hasher.update(&buffer[..read]);
-            }
-            digests.push(hasher.finalize());
-        }
-        let sha256 = if digests.len() == 1 {
-            hex(&digests[0])
-        } else {
-            let mut outer = Sha256::new();
-            digests.iter().for_each(|d| outer.update(d));
-            hex(&outer.finalize())
-        };
-        let cols = self.numbers.len() + self.labels.len();
-        Ok(Provenance::for_file_hash(&self.place, sha256, rows, cols))
+        fingerprint_files(&self.place, &self.files, rows, self.numbers.len() + self.labels.len())
     }
 
     fn wanted(&self) -> Vec<String> {
@@ -260,4 +238,33 @@ impl RowBatches {
 
 fn hex(bytes: &[u8]) -> String {
     bytes.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// The provenance stamp of data spread over `files` (given as `place`): the
+/// SHA-256 of the one file, or of the files' digests in the order given;
+/// `rows` and `columns` as read. Every reader of such data (row batches, a
+/// query engine's partitions) stamps it this way, so their documents agree.
+pub fn fingerprint_files(place: &Path, files: &[PathBuf], rows: usize, columns: usize) -> Result<Provenance> {
+    let mut digests = Vec::with_capacity(files.len());
+    for file in files {
+        let mut hasher = Sha256::new();
+        let mut input = std::fs::File::open(file).map_err(|e| unreadable(file, e))?;
+        let mut buffer = vec![0u8; 1 << 20];
+        loop {
+            let read = input.read(&mut buffer).map_err(|e| unreadable(file, e))?;
+            if read == 0 {
+                break;
+            }
+            hasher.update(&buffer[..read]);
+        }
+        digests.push(hasher.finalize());
+    }
+    let sha256 = if digests.len() == 1 {
+        hex(&digests[0])
+    } else {
+        let mut outer = Sha256::new();
+        digests.iter().for_each(|d| outer.update(d));
+        hex(&outer.finalize())
+    };
+    Ok(Provenance::for_file_hash(place, sha256, rows, columns))
 }

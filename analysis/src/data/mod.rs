@@ -45,7 +45,7 @@ mod values;
 mod workbook_reader;
 
 pub use arrow_reader::load_arrow;
-pub use batches::RowBatches;
+pub use batches::{fingerprint_files, RowBatches};
 pub use csv_reader::{load_csv, ColumnType, CsvOptions};
 pub use frame::Frame;
 pub use memory::{MemoryBudget, MEMORY_LIMIT_VARIABLE};

@@ -141,13 +141,27 @@ pub fn solve(
         Precision::Extended => solve_extended(columns, y, weights, tolerance),
         Precision::Double => solve_blocked(columns, y, weights, tolerance)
             .unwrap_or_else(|| solve_double(columns, y, weights, tolerance)),
-        Precision::Auto if work <= 1e7 => solve_extended(columns, y, weights, tolerance),
+        Precision::Auto if extended_is_cheap(n, p) => solve_extended(columns, y, weights, tolerance),
         Precision::Auto => match solve_blocked(columns, y, weights, tolerance) {
             Some(solution) => solution,
             None if work <= 2e8 => solve_extended(columns, y, weights, tolerance),
             None => solve_double(columns, y, weights, tolerance),
         },
     }
+}
+
+/// The size of design, in `n·p²` multiply-adds, up to which the automatic
+/// precision always solves in double-double: there it costs milliseconds,
+/// and it needs no judgement of the condition number (a double factor with
+/// one refinement step loses digits on large-residual, ill-conditioned
+/// problems such as NIST's Wampler4–5 even below
+/// [`SEMINORMAL_CONDITION_LIMIT`]). Chosen from timings on this project's
+/// machine, not from a source.
+pub const EXTENDED_WORK_LIMIT: f64 = 1e7;
+
+/// Whether a design of `rows × columns` is within [`EXTENDED_WORK_LIMIT`].
+pub fn extended_is_cheap(rows: usize, columns: usize) -> bool {
+    (rows as f64) * (columns as f64) * (columns as f64) <= EXTENDED_WORK_LIMIT
 }
 
 /// The largest condition number (of the equilibrated design) at which the
@@ -480,13 +494,24 @@ pub(crate) struct SmallFactor {
 impl SmallFactor {
     /// From the factor `R` of the weighted `[X | y]` (`p + 1` columns, target last).
     pub(crate) fn from_augmented(r: faer::MatRef<'_, f64>, tolerance: f64) -> SmallFactor {
-        let p = r.ncols() - 1;
-        let rows = r.nrows();
+        Self::from_augmented_entries(r.nrows(), r.ncols(), |i, j| DoubleDouble::from(r[(i, j)]), tolerance)
+    }
+
+    /// From the factor of the weighted `[X | y]` given entry by entry in
+    /// double-double (`rows × width`, target last): a factor computed in
+    /// double-double keeps its digits into the small QR.
+    pub(crate) fn from_augmented_entries(
+        rows: usize,
+        width: usize,
+        entry: impl Fn(usize, usize) -> DoubleDouble,
+        tolerance: f64,
+    ) -> SmallFactor {
+        let p = width - 1;
         let scales: Vec<f64> =
-            (0..p).map(|j| power_of_two_scale((0..rows).map(|i| r[(i, j)].powi(2)).sum::<f64>().sqrt())).collect();
+            (0..p).map(|j| power_of_two_scale((0..rows).map(|i| entry(i, j).hi.powi(2)).sum::<f64>().sqrt())).collect();
         let scaled: Vec<Vec<DoubleDouble>> =
-            (0..p).map(|j| (0..rows).map(|i| DoubleDouble::from(r[(i, j)] * scales[j])).collect()).collect();
-        let rhs: Vec<DoubleDouble> = (0..rows).map(|i| DoubleDouble::from(r[(i, p)])).collect();
+            (0..p).map(|j| (0..rows).map(|i| entry(i, j).scale_pow2(scales[j])).collect()).collect();
+        let rhs: Vec<DoubleDouble> = (0..rows).map(|i| entry(i, p)).collect();
         let qr = dd_qr::factor(scaled, rhs, tolerance);
         let (kept, aliased, pivot_of_kept) = split_by_rank(&qr.permutation, qr.rank);
         let condition_number = condition_from_r(&qr.r);

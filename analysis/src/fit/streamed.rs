@@ -24,32 +24,116 @@
 //! HC2, HC3, cluster-robust errors and the row-level diagnostics need every
 //! row's leverage or group at once; a fit from pieces refuses them and says so.
 
-use super::solver::SmallFactor;
+use super::solver::{SmallFactor, SEMINORMAL_CONDITION_LIMIT};
 use super::{default_rank_tolerance, CovarianceKind, FitOptions, SolverMethod};
 use crate::data::{NonFinite, Provenance, RowBatches};
 use crate::error::{Error, Result};
 use crate::model::design::{columns_read, RecipeLearner};
 use crate::model::{Design, DesignRecipe, DroppedRows, ModelSpec};
 use crate::numeric::tsqr::{self, TallSkinnyQr};
-use crate::numeric::DoubleDouble;
+use crate::numeric::{dd_qr, DoubleDouble};
+use crate::state_bytes::{StateReader, StateWriter};
 use faer::Mat;
 
 /// Round one of a fit from pieces: the factor of the weighted `[X | y]` and
 /// the weight and target sums (see the module docs).
 #[derive(Debug, Clone, PartialEq)]
 pub struct FactorAggregate {
-    factor: TallSkinnyQr,
+    factor: Factor,
     rows: usize,
     total_weight: DoubleDouble,
     weighted_target: DoubleDouble,
     sum_log_weight: f64,
 }
 
+/// The triangular factor, in double or in double-double.
+#[derive(Debug, Clone, PartialEq)]
+enum Factor {
+    /// Blocked Householder TSQR in double (faer), the fast path.
+    Double(TallSkinnyQr),
+    /// TSQR in double-double ([`dd_qr::triangular_factor`]) on the design's
+    /// full values (both parts of powers and products): for designs whose
+    /// condition number exceeds [`SEMINORMAL_CONDITION_LIMIT`], where one
+    /// refinement step from a double factor cannot recover every digit.
+    Extended {
+        /// `R`, row-major, `min(rows, width) × width`.
+        r: Vec<Vec<DoubleDouble>>,
+        /// Columns of `[X | y]`.
+        width: usize,
+    },
+}
+
+impl Factor {
+    fn width(&self) -> usize {
+        match self {
+            Factor::Double(f) => f.width(),
+            Factor::Extended { width, .. } => *width,
+        }
+    }
+
+    /// The factor of both row sets (the same kind on both sides).
+    fn merge(self, other: &Factor) -> Factor {
+        match (self, other) {
+            (Factor::Double(a), Factor::Double(b)) => Factor::Double(a.merge(b)),
+            (Factor::Extended { r, width }, Factor::Extended { r: theirs, .. }) => {
+                Factor::Extended { r: stack_and_factor(&r, theirs, width, |_| None), width }
+            }
+            (mine, _) => mine,
+        }
+    }
+}
+
+/// The double-double factor of `mine` stacked on `theirs` and on `new_rows`
+/// further rows (`row(i)` gives row `i`, `None` past the last).
+fn stack_and_factor<'a>(
+    mine: &[Vec<DoubleDouble>],
+    theirs: &[Vec<DoubleDouble>],
+    width: usize,
+    row: impl Fn(usize) -> Option<&'a [DoubleDouble]>,
+) -> Vec<Vec<DoubleDouble>> {
+    let mut columns: Vec<Vec<DoubleDouble>> = vec![Vec::new(); width];
+    let mut push = |values: &[DoubleDouble]| {
+        for (column, &v) in columns.iter_mut().zip(values) {
+            column.push(v);
+        }
+    };
+    mine.iter().chain(theirs).for_each(|r| push(r));
+    let mut i = 0;
+    while let Some(values) = row(i) {
+        push(values);
+        i += 1;
+    }
+    dd_qr::triangular_factor(columns)
+}
+
 impl FactorAggregate {
     /// The aggregate of no rows, for designs of `columns` columns.
     pub fn new(columns: usize) -> Self {
+        Self::with_factor(Factor::Double(TallSkinnyQr::new(columns + 1)))
+    }
+
+    /// The aggregate of no rows whose factor is computed in double-double on
+    /// the design's full values: for designs whose condition number exceeds
+    /// [`SEMINORMAL_CONDITION_LIMIT`] (see [`FirstSolution::needs_extended`]).
+    pub fn new_extended(columns: usize) -> Self {
+        Self::with_factor(Factor::Extended { r: Vec::new(), width: columns + 1 })
+    }
+
+    /// The aggregate of no rows for `rows` rows of `columns` columns, in the
+    /// precision the automatic rule chooses: double-double where it is cheap
+    /// ([`super::solver::extended_is_cheap`]), double otherwise (then
+    /// [`FirstSolution::needs_extended`] tells whether to factor again).
+    pub fn for_rows(columns: usize, rows: usize) -> Self {
+        if super::solver::extended_is_cheap(rows, columns) {
+            Self::new_extended(columns)
+        } else {
+            Self::new(columns)
+        }
+    }
+
+    fn with_factor(factor: Factor) -> Self {
         Self {
-            factor: TallSkinnyQr::new(columns + 1),
+            factor,
             rows: 0,
             total_weight: DoubleDouble::ZERO,
             weighted_target: DoubleDouble::ZERO,
@@ -57,23 +141,53 @@ impl FactorAggregate {
         }
     }
 
+    /// Whether the factor is computed in double-double.
+    pub fn is_extended(&self) -> bool {
+        matches!(self.factor, Factor::Extended { .. })
+    }
+
     /// Takes in a design's rows (on all cores).
     pub fn absorb(&mut self, design: &Design) {
+        self.absorb_on(design, tsqr::available_threads());
+    }
+
+    /// Takes in a design's rows on up to `threads` threads (one inside a
+    /// query engine's partition, which is already one core's work).
+    pub fn absorb_on(&mut self, design: &Design, threads: usize) {
         let n = design.n_rows();
         if n == 0 {
             return;
         }
         let p = design.columns().len();
         let weight = |i: usize| design.weights().map_or(1.0, |w| w[i]);
-        let root: Vec<f64> = (0..n).map(|i| DoubleDouble::from(weight(i)).sqrt().to_f64()).collect();
-        let piece = tsqr::factor_rows(n, p + 1, tsqr::available_threads(), |i, j| {
-            if j < p {
-                design.columns()[j].hi[i] * root[i]
-            } else {
-                design.target()[i] * root[i]
+        match &mut self.factor {
+            Factor::Double(factor) => {
+                let root: Vec<f64> = (0..n).map(|i| DoubleDouble::from(weight(i)).sqrt().to_f64()).collect();
+                let piece = tsqr::factor_rows(n, p + 1, threads, |i, j| {
+                    if j < p {
+                        design.columns()[j].hi[i] * root[i]
+                    } else {
+                        design.target()[i] * root[i]
+                    }
+                });
+                *factor = std::mem::replace(factor, TallSkinnyQr::new(p + 1)).merge(&piece);
             }
-        });
-        self.factor = std::mem::replace(&mut self.factor, TallSkinnyQr::new(p + 1)).merge(&piece);
+            Factor::Extended { r, width } => {
+                let rows: Vec<Vec<DoubleDouble>> = (0..n)
+                    .map(|i| {
+                        let root = DoubleDouble::from(weight(i)).sqrt();
+                        let mut row: Vec<DoubleDouble> = design
+                            .columns()
+                            .iter()
+                            .map(|c| DoubleDouble::new(c.hi[i], c.lo.as_ref().map_or(0.0, |lo| lo[i])) * root)
+                            .collect();
+                        row.push(DoubleDouble::from(design.target()[i]) * root);
+                        row
+                    })
+                    .collect();
+                *r = stack_and_factor(r, &[], *width, |i| rows.get(i).map(Vec::as_slice));
+            }
+        }
         self.rows += n;
         for i in 0..n {
             self.total_weight += DoubleDouble::from(weight(i));
@@ -98,7 +212,92 @@ impl FactorAggregate {
     pub fn rows(&self) -> usize {
         self.rows
     }
+
+    /// The state's exact bytes ([`crate::state_bytes`]), for merging in
+    /// another process.
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut writer = StateWriter::new(FACTOR_TAG);
+        match &self.factor {
+            Factor::Double(factor) => {
+                let r = factor.r();
+                writer.count(0).count(r.nrows()).count(r.ncols()).count(factor.rows() as usize);
+                for i in 0..r.nrows() {
+                    for j in i..r.ncols() {
+                        writer.number(r[(i, j)]);
+                    }
+                }
+            }
+            Factor::Extended { r, width } => {
+                writer.count(1).count(r.len()).count(*width).count(self.rows);
+                for (i, row) in r.iter().enumerate() {
+                    for value in &row[i..] {
+                        writer.number(value.hi).number(value.lo);
+                    }
+                }
+            }
+        }
+        writer
+            .count(self.rows)
+            .number(self.total_weight.hi)
+            .number(self.total_weight.lo)
+            .number(self.weighted_target.hi)
+            .number(self.weighted_target.lo)
+            .number(self.sum_log_weight)
+            .finish()
+    }
+
+    /// Reads a state [`Self::to_bytes`] wrote; anything else is refused.
+    /// (Its width is checked against the design's when it is solved.)
+    pub fn from_bytes(bytes: &[u8]) -> Result<Self> {
+        let mut reader = StateReader::new(bytes, FACTOR_TAG, "factor")?;
+        let damaged = |detail: &str| Error::DamagedState { kind: "factor".into(), detail: detail.into() };
+        let (kind, height, width, factored) = (reader.count()?, reader.count()?, reader.count()?, reader.count()?);
+        // Entries are read one by one, so a damaged length ends in "it ends
+        // early"; the width alone must still not ask for an absurd matrix.
+        if width == 0 || width > 1 << 20 || height > width || height.saturating_mul(width) > bytes.len() {
+            return Err(damaged("its factor's shape"));
+        }
+        let factor = match kind {
+            0 => {
+                let mut r = Mat::<f64>::zeros(height, width);
+                for i in 0..height {
+                    for j in i..width {
+                        r[(i, j)] = reader.number()?;
+                    }
+                }
+                Factor::Double(
+                    TallSkinnyQr::from_parts(r, factored as u64).ok_or_else(|| damaged("its factor's shape"))?,
+                )
+            }
+            1 => {
+                if height != factored.min(width) {
+                    return Err(damaged("its factor's shape"));
+                }
+                let mut r = vec![vec![DoubleDouble::ZERO; width]; height];
+                for (i, row) in r.iter_mut().enumerate() {
+                    for value in &mut row[i..] {
+                        *value = DoubleDouble::new(reader.number()?, reader.number()?);
+                    }
+                }
+                Factor::Extended { r, width }
+            }
+            _ => return Err(damaged("its kind of factor")),
+        };
+        let rows = reader.count()?;
+        if kind == 1 && rows != factored {
+            return Err(damaged("its row count"));
+        }
+        let total_weight = DoubleDouble::new(reader.number()?, reader.number()?);
+        let weighted_target = DoubleDouble::new(reader.number()?, reader.number()?);
+        let sum_log_weight = reader.number()?;
+        reader.finish()?;
+        Ok(Self { factor, rows, total_weight, weighted_target, sum_log_weight })
+    }
 }
+
+/// The tags of the two rounds' states ([`crate::state_bytes`]).
+const FACTOR_TAG: &[u8; 4] = b"PLF1";
+const RESIDUAL_TAG: &[u8; 4] = b"PLR2";
 
 /// What round one decides: rank, aliased columns, first coefficients `b₀`.
 #[derive(Debug, Clone)]
@@ -114,17 +313,41 @@ impl FirstSolution {
     /// [`FitOptions::rank_tolerance`] (`None`: the default for the design's size).
     pub fn from_aggregate(aggregate: FactorAggregate, recipe: &DesignRecipe, tolerance: Option<f64>) -> Result<Self> {
         let p = recipe.column_names.len();
+        if aggregate.factor.width() != p + 1 {
+            return Err(Error::DamagedState {
+                kind: "factor".into(),
+                detail: format!("it has {} columns, the design {}", aggregate.factor.width() - 1, p),
+            });
+        }
         // As in memory: more coefficients than rows is refused whatever the rank.
         if aggregate.rows <= p {
             return Err(Error::TooFewRows { rows: aggregate.rows, columns: p });
         }
         let tolerance = tolerance.unwrap_or_else(|| default_rank_tolerance(aggregate.rows, p));
-        let small = SmallFactor::from_augmented(aggregate.factor.r(), tolerance);
+        let small = match &aggregate.factor {
+            Factor::Double(factor) => SmallFactor::from_augmented(factor.r(), tolerance),
+            Factor::Extended { r, width } => {
+                SmallFactor::from_augmented_entries(r.len(), *width, |i, j| r[i][j], tolerance)
+            }
+        };
         if small.kept.is_empty() {
             return Err(Error::SingularDesign { detail: "every design column is zero on the rows used".into() });
         }
         let coefficients = small.solution();
         Ok(Self { small, coefficients, aggregate, with_intercept: recipe.spec.has_intercept() })
+    }
+
+    /// Whether this solution came from a factor in double while the design's
+    /// condition number exceeds [`SEMINORMAL_CONDITION_LIMIT`]: one
+    /// refinement step cannot then recover every digit, and round one should
+    /// be run again with [`FactorAggregate::new_extended`].
+    pub fn needs_extended(&self) -> bool {
+        !self.aggregate.is_extended() && self.small.condition_number > SEMINORMAL_CONDITION_LIMIT
+    }
+
+    /// The condition number of the equilibrated kept design.
+    pub fn condition_number(&self) -> f64 {
+        self.small.condition_number
     }
 
     /// The weighted mean of the target (zero without an intercept, where the
@@ -195,6 +418,54 @@ impl ResidualAggregate {
                 }
             }
         }
+    }
+
+    /// The state's exact bytes ([`crate::state_bytes`]).
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut writer = StateWriter::new(RESIDUAL_TAG);
+        writer.count(self.gradient.len());
+        for g in &self.gradient {
+            writer.number(g.hi).number(g.lo);
+        }
+        writer
+            .number(self.rss.hi)
+            .number(self.rss.lo)
+            .number(self.ss_total.hi)
+            .number(self.ss_total.lo)
+            .number(self.exp_residual_sum);
+        match &self.middle {
+            Some(middle) => writer.count(1).numbers(middle),
+            None => writer.count(0),
+        };
+        writer.finish()
+    }
+
+    /// Reads a state [`Self::to_bytes`] wrote; anything else is refused.
+    /// (Its size is checked against the first solution in [`finish`].)
+    pub fn from_bytes(bytes: &[u8]) -> Result<Self> {
+        let mut reader = StateReader::new(bytes, RESIDUAL_TAG, "residual sums")?;
+        let damaged = |detail: &str| Error::DamagedState { kind: "residual sums".into(), detail: detail.into() };
+        let k = reader.count()?;
+        if k.saturating_mul(16) > bytes.len() {
+            return Err(damaged("its gradient's length"));
+        }
+        let mut gradient = Vec::with_capacity(k);
+        for _ in 0..k {
+            gradient.push(DoubleDouble::new(reader.number()?, reader.number()?));
+        }
+        let rss = DoubleDouble::new(reader.number()?, reader.number()?);
+        let ss_total = DoubleDouble::new(reader.number()?, reader.number()?);
+        let exp_residual_sum = reader.number()?;
+        let middle = match reader.count()? {
+            0 => None,
+            1 => Some(reader.numbers()?),
+            _ => return Err(damaged("its middle-matrix flag")),
+        };
+        reader.finish()?;
+        if middle.as_ref().is_some_and(|m| m.len() != k * k) {
+            return Err(damaged("its middle matrix's size"));
+        }
+        Ok(Self { gradient, rss, ss_total, exp_residual_sum, middle })
     }
 
     /// The aggregate of both pieces' rows.
@@ -322,8 +593,22 @@ pub fn finish(
     pieces: usize,
 ) -> Result<AssembledFit> {
     check_covariance_for_pieces(kind)?;
+    if second.gradient.len() != first.small.kept.len() {
+        return Err(Error::DamagedState {
+            kind: "residual sums".into(),
+            detail: format!(
+                "they hold {} columns, the first solution {}",
+                second.gradient.len(),
+                first.small.kept.len()
+            ),
+        });
+    }
     let gradient: Vec<f64> = second.gradient.iter().map(|g| g.to_f64()).collect();
-    let delta = first.small.seminormal_correction(&gradient);
+    // A factor in double-double gives b₀ to every digit already; the
+    // correction, whose gradient is summed in double, could only add the
+    // gradient's rounding amplified by κ² (ruinous on NIST's Filip).
+    let extended = first.aggregate.is_extended();
+    let delta = if extended { vec![0.0; gradient.len()] } else { first.small.seminormal_correction(&gradient) };
     let correction: DoubleDouble = delta.iter().zip(&second.gradient).map(|(&d, g)| g.mul_f64(d)).sum();
     let weighted_rss = (second.rss - correction).to_f64().max(0.0);
     let coefficients: Vec<f64> =
@@ -365,7 +650,7 @@ pub fn finish(
         sum_log_weight: first.aggregate.sum_log_weight,
         exp_residual_sum: second.exp_residual_sum,
         condition_number: first.small.condition_number,
-        method: SolverMethod::RefinedQr { refinement_steps: 1 },
+        method: if extended { SolverMethod::ExtendedQr } else { SolverMethod::RefinedQr { refinement_steps: 1 } },
         provenance,
         pieces,
         recipe,
@@ -401,12 +686,20 @@ pub fn fit_batches(
         learner.absorb(frame)
     })?;
     let recipe = learner.finish()?;
-    let mut factor = FactorAggregate::new(recipe.column_names.len());
+    let mut factor = FactorAggregate::for_rows(recipe.column_names.len(), learner.rows_kept());
     batches.for_each_batch(|frame| {
         factor.absorb(&recipe.fitting_design(frame)?);
         Ok(())
     })?;
-    let first = FirstSolution::from_aggregate(factor, &recipe, options.rank_tolerance)?;
+    let mut first = FirstSolution::from_aggregate(factor, &recipe, options.rank_tolerance)?;
+    if first.needs_extended() {
+        let mut factor = FactorAggregate::new_extended(recipe.column_names.len());
+        batches.for_each_batch(|frame| {
+            factor.absorb(&recipe.fitting_design(frame)?);
+            Ok(())
+        })?;
+        first = FirstSolution::from_aggregate(factor, &recipe, options.rank_tolerance)?;
+    }
     let mut second = ResidualAggregate::new(&first, options.covariance != CovarianceKind::Classical);
     batches.for_each_batch(|frame| {
         second.absorb(&recipe.fitting_design(frame)?, &first);

@@ -6,6 +6,7 @@ use crate::data::{dates, Frame};
 use crate::error::{Error, Result};
 use crate::spatial::geodesy::{check_lon_lat, refuse_degrees_as_planar};
 use crate::spatial::Coordinates;
+use crate::state_bytes::{StateReader, StateWriter};
 use chrono::NaiveDate;
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
@@ -773,6 +774,78 @@ impl RecipeLearner {
         self.rows_kept
     }
 
+    /// Adds what another learner of the same specification saw (another
+    /// partition's rows): level counts and kept rows summed, ranges widened,
+    /// dropped rows added. The result does not depend on the order of merges
+    /// except for the order in which dropped columns are listed.
+    pub fn merge(&mut self, other: &RecipeLearner) {
+        for (key, counts) in &other.level_counts {
+            let mine = self.level_counts.entry(key.clone()).or_default();
+            for (label, count) in counts {
+                *mine.entry(label.clone()).or_default() += count;
+            }
+        }
+        for (key, &(lo, hi)) in &other.ranges {
+            let range = self.ranges.entry(key.clone()).or_insert((f64::INFINITY, f64::NEG_INFINITY));
+            range.0 = range.0.min(lo);
+            range.1 = range.1.max(hi);
+        }
+        self.dropped.absorb(&other.dropped);
+        self.rows_kept += other.rows_kept;
+    }
+
+    /// What the learner saw, as exact bytes ([`crate::state_bytes`]); the
+    /// specification is not written (the reader is given it).
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut writer = StateWriter::new(LEARNER_TAG);
+        writer.count(self.level_counts.len());
+        for (key, counts) in &self.level_counts {
+            writer.text(key).count(counts.len());
+            for (label, &count) in counts {
+                writer.text(label).count(count);
+            }
+        }
+        writer.count(self.ranges.len());
+        for (key, &(lo, hi)) in &self.ranges {
+            writer.text(key).number(lo).number(hi);
+        }
+        writer.count(self.dropped.total);
+        for list in [&self.dropped.by_column, &self.dropped.non_finite_by_column] {
+            writer.count(list.len());
+            for (column, count) in list {
+                writer.text(column).count(*count);
+            }
+        }
+        writer.count(self.rows_kept).finish()
+    }
+
+    /// Reads what [`Self::to_bytes`] wrote, for `spec`.
+    pub fn from_bytes(bytes: &[u8], spec: &ModelSpec) -> Result<Self> {
+        let mut learner = Self::new(spec)?;
+        let mut reader = StateReader::new(bytes, LEARNER_TAG, "coding")?;
+        for _ in 0..reader.count()? {
+            let key = reader.text()?;
+            let mut counts = BTreeMap::new();
+            for _ in 0..reader.count()? {
+                counts.insert(reader.text()?, reader.count()?);
+            }
+            learner.level_counts.insert(key, counts);
+        }
+        for _ in 0..reader.count()? {
+            let key = reader.text()?;
+            learner.ranges.insert(key, (reader.number()?, reader.number()?));
+        }
+        learner.dropped.total = reader.count()?;
+        for list in [&mut learner.dropped.by_column, &mut learner.dropped.non_finite_by_column] {
+            for _ in 0..reader.count()? {
+                list.push((reader.text()?, reader.count()?));
+            }
+        }
+        learner.rows_kept = reader.count()?;
+        reader.finish()?;
+        Ok(learner)
+    }
+
     /// Rows dropped so far, by column.
     pub fn dropped(&self) -> &DroppedRows {
         &self.dropped
@@ -824,6 +897,9 @@ impl DroppedRows {
         }
     }
 }
+
+/// The tag of a learner's state ([`crate::state_bytes`]).
+const LEARNER_TAG: &[u8; 4] = b"PLC0";
 
 /// New rows coded by [`DesignRecipe::apply`].
 #[derive(Debug, Clone)]

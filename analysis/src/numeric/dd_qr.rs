@@ -103,6 +103,42 @@ pub fn factor(mut columns: Vec<Vec<DoubleDouble>>, mut rhs: Vec<DoubleDouble>, t
     PivotedQr { permutation, rank, r, qt_rhs, diagonal }
 }
 
+/// The triangular factor `R` of `A = Q R` by Householder QR without
+/// pivoting, in double-double: `A` given as `columns` (each of the same
+/// length `m`), `R` returned row-major, `min(m, w) × w`, zero below its
+/// diagonal. This is the merge step of a tall-skinny QR carried out in
+/// double-double (Demmel, Grigori, Hoemmen & Langou 2012, with the
+/// reflections of Businger & Golub 1965): stacking two factors and
+/// factoring again gives the factor of the union of their rows.
+pub fn triangular_factor(mut columns: Vec<Vec<DoubleDouble>>) -> Vec<Vec<DoubleDouble>> {
+    let w = columns.len();
+    let m = columns.first().map_or(0, Vec::len);
+    let steps = m.min(w);
+    for k in 0..steps {
+        let norm: DoubleDouble = columns[k][k..].iter().map(|&v| v * v).sum::<DoubleDouble>().sqrt();
+        if norm.to_f64() == 0.0 {
+            continue;
+        }
+        let alpha = if columns[k][k].is_negative() { norm } else { -norm };
+        let mut v: Vec<DoubleDouble> = columns[k][k..].to_vec();
+        v[0] -= alpha;
+        let v_norm_sq: DoubleDouble = v.iter().map(|&x| x * x).sum();
+        if v_norm_sq.to_f64() > 0.0 {
+            let two_over = DoubleDouble::from(2.0) / v_norm_sq;
+            for column in columns.iter_mut().skip(k + 1) {
+                let target = &mut column[k..];
+                let dot: DoubleDouble = v.iter().zip(target.iter()).map(|(&a, &b)| a * b).sum();
+                let factor = dot * two_over;
+                for (t, &vi) in target.iter_mut().zip(v.iter()) {
+                    *t -= factor * vi;
+                }
+            }
+        }
+        columns[k][k] = alpha;
+    }
+    (0..steps).map(|i| (0..w).map(|j| if j >= i { columns[j][i] } else { DoubleDouble::ZERO }).collect()).collect()
+}
+
 /// Solves `R x = b` for upper-triangular `R` by back substitution.
 pub fn back_substitute(r: &[Vec<DoubleDouble>], b: &[DoubleDouble]) -> Vec<DoubleDouble> {
     let k = b.len();

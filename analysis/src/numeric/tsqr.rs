@@ -62,6 +62,15 @@ impl TallSkinnyQr {
         self.r.as_ref()
     }
 
+    /// A factor from its parts, as [`Self::r`] and [`Self::rows`] gave them
+    /// (a factor read back from another process). `None` unless `r` has
+    /// `min(rows, width)` rows and is zero below its diagonal.
+    pub fn from_parts(r: Mat<f64>, rows: u64) -> Option<Self> {
+        let expected = (r.ncols() as u64).min(rows) as usize;
+        let trapezoidal = (0..r.nrows()).all(|i| (0..i.min(r.ncols())).all(|j| r[(i, j)] == 0.0));
+        (r.nrows() == expected && trapezoidal).then_some(Self { r, rows })
+    }
+
     /// Absorbs `count` new rows, which `fill` writes into the `count × width`
     /// block it is given (column-major; every entry must be written).
     pub fn absorb_rows(&mut self, count: usize, fill: impl FnOnce(MatMut<'_, f64>)) {
@@ -93,20 +102,27 @@ impl TallSkinnyQr {
 
     /// Merges factors pairwise in a binary tree (the TSQR reduction): `⌈log₂ k⌉`
     /// levels, each merge of two `w × w` factors. `None` for an empty list.
-    pub fn merge_tree(mut factors: Vec<TallSkinnyQr>) -> Option<TallSkinnyQr> {
-        while factors.len() > 1 {
-            let mut next = Vec::with_capacity(factors.len().div_ceil(2));
-            let mut pairs = factors.into_iter();
-            while let Some(left) = pairs.next() {
-                next.push(match pairs.next() {
-                    Some(right) => left.merge(&right),
-                    None => left,
-                });
-            }
-            factors = next;
-        }
-        factors.pop()
+    pub fn merge_tree(factors: Vec<TallSkinnyQr>) -> Option<TallSkinnyQr> {
+        merge_pairwise(factors, |left, right| left.merge(&right))
     }
+}
+
+/// Reduces `items` in a binary tree — neighbours merged pairwise, level by
+/// level, `⌈log₂ k⌉` levels — the reduction of TSQR (Demmel et al. 2012),
+/// for any mergeable state. `None` for an empty list.
+pub fn merge_pairwise<T>(mut items: Vec<T>, merge: impl Fn(T, T) -> T) -> Option<T> {
+    while items.len() > 1 {
+        let mut next = Vec::with_capacity(items.len().div_ceil(2));
+        let mut pairs = items.into_iter();
+        while let Some(left) = pairs.next() {
+            next.push(match pairs.next() {
+                Some(right) => merge(left, right),
+                None => left,
+            });
+        }
+        items = next;
+    }
+    items.pop()
 }
 
 /// Householder QR of `a` in place; returns its `R` (trapezoidal part).

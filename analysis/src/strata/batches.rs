@@ -11,7 +11,8 @@
 //! batch and `G · p²`.
 
 use super::{
-    check_grouping_column, check_levels, with_group_levels, StratifiedFit, Stratum, StratumModel, StratumOutcome,
+    check_grouping_column, check_levels, group_stamp, pooled_stamp, with_group_levels, StratifiedFit, Stratum,
+    StratumModel, StratumOutcome,
 };
 use crate::data::{Frame, NonFinite, RowBatches};
 use crate::error::{Error, Result};
@@ -69,10 +70,7 @@ pub fn fit_batches_by(
     run_lanes(&batches, column, &mut lanes)?;
     let mut strata = Vec::with_capacity(lanes.len());
     for (lane, (label, rows)) in lanes.into_iter().zip(&sizes) {
-        let mut stamp = provenance.clone();
-        stamp.path = format!("{} [{column} = {label}]", provenance.path);
-        stamp.rows = *rows;
-        let outcome = match lane.into_fit(stamp, pieces) {
+        let outcome = match lane.into_fit(group_stamp(&provenance, column, label, *rows), pieces) {
             Ok(fit) => StratumOutcome::Fitted(StratumModel::Assembled(Box::new(fit))),
             Err(error) => StratumOutcome::NotFitted { reason: error.to_string() },
         };
@@ -88,9 +86,7 @@ pub fn fit_batches_by(
             pooled_lanes.push(Lane::new(&with_group_levels(spec, column), fitted.clone(), options));
         }
         run_lanes(&batches, column, &mut pooled_lanes)?;
-        let mut stamp = provenance.clone();
-        stamp.path = format!("{} [groups of {column} with a model]", provenance.path);
-        stamp.rows = fitted.iter().map(|g| sizes[g]).sum();
+        let stamp = pooled_stamp(&provenance, column, fitted.iter().map(|g| sizes[g]).sum());
         let mut lanes = pooled_lanes.into_iter();
         let pooled = lanes.next().map(|lane| lane.into_fit(stamp.clone(), pieces));
         let with_levels = lanes.next().and_then(|lane| lane.into_fit(stamp, pieces).ok());

@@ -116,6 +116,12 @@ pub struct Stratum {
 }
 
 impl Stratum {
+    /// A group, its rows in the data (before rows missing a model value are
+    /// dropped) and what became of it.
+    pub fn new(label: String, rows: usize, outcome: StratumOutcome) -> Self {
+        Self { label, rows, outcome }
+    }
+
     /// The group's value in the grouping column.
     pub fn label(&self) -> &str {
         &self.label
@@ -230,7 +236,7 @@ pub fn fit_by_with(frame: &Frame, spec: &ModelSpec, column: &str, options: &FitO
 
 /// Refuses a grouping column that is also read by a term: within one group
 /// it takes one value, so its term could not be estimated there.
-pub(crate) fn check_grouping_column(spec: &ModelSpec, column: &str) -> Result<()> {
+pub fn check_grouping_column(spec: &ModelSpec, column: &str) -> Result<()> {
     let (numbers, labels) = term_columns_read(spec);
     if numbers.iter().chain(&labels).any(|c| c == column) {
         return Err(Error::Specification(format!(
@@ -249,7 +255,7 @@ pub(crate) fn check_grouping_column(spec: &ModelSpec, column: &str) -> Result<()
 
 /// Refuses a group's coding in which a category has one level: its term
 /// would silently vanish from that group's model.
-pub(crate) fn check_levels(recipe: &DesignRecipe) -> Result<()> {
+pub fn check_levels(recipe: &DesignRecipe) -> Result<()> {
     fn check(encoding: &TermEncoding) -> Result<()> {
         match encoding {
             TermEncoding::Category { column, all_levels, .. } if all_levels.len() < 2 => {
@@ -265,15 +271,33 @@ pub(crate) fn check_levels(recipe: &DesignRecipe) -> Result<()> {
     recipe.encodings.iter().try_for_each(check)
 }
 
+/// The stamp of one group's model: the data's stamp, its place marked with
+/// the group, and the group's rows.
+pub fn group_stamp(data: &Provenance, column: &str, label: &str, rows: usize) -> Provenance {
+    let mut stamp = data.clone();
+    stamp.path = format!("{} [{column} = {label}]", data.path);
+    stamp.rows = rows;
+    stamp
+}
+
+/// The stamp of the pooled models: the data's stamp, its place marked as the
+/// groups with a model, and their rows.
+pub fn pooled_stamp(data: &Provenance, column: &str, rows: usize) -> Provenance {
+    let mut stamp = data.clone();
+    stamp.path = format!("{} [groups of {column} with a model]", data.path);
+    stamp.rows = rows;
+    stamp
+}
+
 /// `spec` with the grouping column added as a category (one level per group).
-pub(crate) fn with_group_levels(spec: &ModelSpec, column: &str) -> ModelSpec {
+pub fn with_group_levels(spec: &ModelSpec, column: &str) -> ModelSpec {
     spec.clone().term(Term::category(column))
 }
 
 impl StratifiedFit {
-    /// Assembles a set from its parts (used by the batched fit).
-    #[allow(clippy::too_many_arguments)]
-    pub(crate) fn from_parts(
+    /// Assembles a set from its parts (the batched fit here; fits assembled
+    /// in a query engine, which compute each part the same way).
+    pub fn from_parts(
         column: String,
         spec: ModelSpec,
         strata: Vec<Stratum>,

@@ -58,7 +58,7 @@ pub fn csv_options(args: &InputFlags) -> Result<CsvOptions, CommandError> {
 }
 
 /// The `--non-finite` rule, for every source type.
-fn non_finite_rule(args: &InputFlags) -> Result<NonFinite, CommandError> {
+pub fn non_finite_rule(args: &InputFlags) -> Result<NonFinite, CommandError> {
     args.non_finite.parse().map_err(|e: String| CommandError::Usage(format!("--non-finite: {e}")))
 }
 
@@ -439,7 +439,13 @@ pub fn fit_by_group(args: &FitArgs, column: &str) -> Result<StratifiedFit, Comma
 /// `plumbline fit --by COL`: the models by group as text, HTML or the
 /// `plumbline.stratified-fit` document.
 fn run_by_group(args: &FitArgs, column: &str) -> Result<String, CommandError> {
-    let summary = fit_by_group(args, column)?.summary(args.level)?;
+    report_by_group(args, &fit_by_group(args, column)?)
+}
+
+/// Models by group as the flags ask: text, HTML or the set document.
+pub fn report_by_group(args: &FitArgs, fitted: &StratifiedFit) -> Result<String, CommandError> {
+    let column = fitted.column();
+    let summary = fitted.summary(args.level)?;
     Ok(match args.format {
         Format::Text => plumbline::render::stratified_text(&summary),
         Format::Html => plumbline::render::html::page(
@@ -523,6 +529,17 @@ const DEFAULT_BATCH_ROWS: usize = 1_000_000;
 
 /// `plumbline fit` on data read in batches (`--batch-rows`, or a directory).
 fn run_in_batches(args: &FitArgs, batch_rows: usize) -> Result<String, CommandError> {
+    check_fit_from_pieces(args)?;
+    let spec = model_spec(args)?;
+    let fit =
+        plumbline::fit::fit_batches(&args.data, &spec, &fit_options(args), batch_rows, non_finite_rule(&args.input)?)?;
+    report_assembled(args, &fit)
+}
+
+/// Refuses the flags a fit assembled from pieces (row batches, or a query
+/// engine's partitions) cannot honour: row-level results, in-memory sources
+/// and text-file options, HTML.
+pub fn check_fit_from_pieces(args: &FitArgs) -> Result<(), CommandError> {
     let refused = [
         (args.predict.is_some(), "--predict"),
         (args.diagnose, "--diagnose"),
@@ -541,12 +558,14 @@ fn run_in_batches(args: &FitArgs, batch_rows: usize) -> Result<String, CommandEr
             "a fit read in batches is reported as text or JSON (--format text|json)".into(),
         ));
     }
-    let spec = model_spec(args)?;
-    let fit =
-        plumbline::fit::fit_batches(&args.data, &spec, &fit_options(args), batch_rows, non_finite_rule(&args.input)?)?;
+    Ok(())
+}
+
+/// A fit assembled from pieces as the flags ask: text or the fit document.
+pub fn report_assembled(args: &FitArgs, fit: &plumbline::fit::AssembledFit) -> Result<String, CommandError> {
     match args.format {
         Format::Json => Ok(to_pretty_json(&FitDocument::from(fit.summary(args.level)?), "fit document")?),
-        _ => Ok(plumbline::render::assembled_fit_text(&fit, args.level)?),
+        _ => Ok(plumbline::render::assembled_fit_text(fit, args.level)?),
     }
 }
 

@@ -3,7 +3,7 @@
 //! under `schemas/` and must be current.
 //!
 //! After changing a document type, regenerate the schemas with
-//! `PLUMBLINE_UPDATE_SCHEMAS=1 cargo test --workspace --test documents`,
+//! `PLUMBLINE_UPDATE_SCHEMAS=1 cargo test -p plumbline-kernel --test kernel documents::`,
 //! bump the document's version if a reader would notice, and say so in
 //! README.md ("JSON output").
 //!
@@ -63,7 +63,7 @@ fn the_committed_schemas_are_current() {
     assert!(
         stale.is_empty(),
         "the committed schemas {stale:?} differ from the document types; run \
-         `PLUMBLINE_UPDATE_SCHEMAS=1 cargo test --workspace --test documents`, review the diff, \
+         `PLUMBLINE_UPDATE_SCHEMAS=1 cargo test -p plumbline-kernel --test kernel documents::`, review the diff, \
          and bump the document's schema_version if a reader would notice"
     );
 }
