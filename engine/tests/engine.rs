@@ -386,16 +386,17 @@ fn a_ballista_cluster_fits_as_in_memory_and_a_killed_executor_never_gives_a_part
             .expect("cluster fit by area");
         assert_sets_agree(&by_memory, &by_cluster, "on the cluster");
     }
-    // An executor killed while the job runs: every batch takes 150 ms, so the
-    // job runs for seconds; one executor is killed one second in.
-    let mut cluster = Cluster::start(2, 150);
+    // An executor killed while the job runs: every batch takes 500 ms, so the
+    // three rounds run for several seconds; one executor is killed 1.5 s in.
+    let mut cluster = Cluster::start(2, 500);
     let context = rt.block_on(cluster::remote_context(&cluster.address, Some(8))).expect("client");
     let job = rt.spawn({
         let source = source.clone();
         let options = options.clone();
         async move { driver::fit(&context, &source, &demo_spec(), &options, NonFinite::Refuse).await }
     });
-    std::thread::sleep(Duration::from_secs(1));
+    std::thread::sleep(Duration::from_millis(1500));
+    assert!(!job.is_finished(), "the job ended before the executor was killed: slow the batches further");
     let victim = &mut cluster.executors[1];
     victim.kill().expect("kill an executor");
     victim.wait().expect("reap it");
