@@ -48,6 +48,7 @@ folder, names = sys.argv[1], sys.argv[2].split(",")
 columns = ["1"] + [f"CAST({n} AS DOUBLE)" for n in names] + ["y"]
 sums = [f"SUM({a} * {b})" for i, a in enumerate(columns) for b in columns[i:]]
 con = duckdb.connect()
+con.execute("SET enable_progress_bar = false")
 row = con.execute(f"SELECT {', '.join(sums)} FROM read_parquet('{folder}/*.parquet')").fetchone()
 m = len(columns)
 g = np.zeros((m, m))
@@ -97,7 +98,7 @@ def main():
         duck = None
         if "duckdb" not in args.skip:
             seconds, peak, out = measured([sys.executable, "-c", DUCKDB, str(folder), ",".join(REGRESSORS)])
-            duck = json.loads(out)
+            duck = json.loads(out.strip().splitlines()[-1])
             results["duckdb"] = (seconds, peak)
         if "scan" not in args.skip:
             seconds, peak, _ = measured([sys.executable, "-c", SCAN, str(folder), ",".join(REGRESSORS)])
