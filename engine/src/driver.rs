@@ -25,6 +25,7 @@ use datafusion::datasource::listing::{ListingOptions, ListingTable, ListingTable
 use datafusion::functions_aggregate::expr_fn::count;
 use datafusion::prelude::{cast, in_list, lit, Expr, SessionConfig, SessionContext};
 use plumbline::data::{fingerprint_files, NonFinite, Provenance, RowBatches};
+use plumbline::fit::solver::extended_is_cheap;
 use plumbline::fit::streamed::{
     check_covariance_for_pieces, finish, FactorAggregate, FirstSolution, ResidualAggregate,
 };
@@ -317,7 +318,7 @@ async fn run_rounds(
     for (label, (_, lane)) in &lanes {
         if let Lane::Factoring { recipe, learner } = lane {
             plan.codings.insert(key(label), to_hex(&learner.to_bytes()));
-            if FactorAggregate::for_rows(recipe.column_names.len(), learner.rows_kept()).is_extended() {
+            if extended_is_cheap(learner.rows_kept(), recipe.column_names.len()) {
                 plan.extended.insert(key(label));
             }
         }

@@ -11,6 +11,7 @@
 use plumbline::fit::streamed::{finish, FactorAggregate, FirstSolution, ResidualAggregate};
 use plumbline::fit::{fit_batches, AssembledFit};
 use plumbline::model::{Design, DroppedRows};
+use plumbline::numeric::tsqr::merge_pairwise;
 use plumbline::polars::prelude::ParquetWriter;
 use plumbline::prelude::*;
 use plumbline_tests::{assert_summaries_agree, close, demo_sales_csv, demo_spec, scratch_dir};
@@ -115,7 +116,7 @@ fn partitions_factored_apart_and_merged_in_a_tree_equal_the_single_pass_fit() {
                 a
             })
             .collect();
-        let merged = tree(factors, |a, b| a.merge(&b)).expect("some partitions");
+        let merged = merge_pairwise(factors, |a, b| a.merge(&b)).expect("some partitions");
         let first = FirstSolution::from_aggregate(merged, &recipe, None).expect("round one");
         let residuals: Vec<ResidualAggregate> = designs
             .iter()
@@ -125,7 +126,7 @@ fn partitions_factored_apart_and_merged_in_a_tree_equal_the_single_pass_fit() {
                 a
             })
             .collect();
-        let second = tree(residuals, |a, b| a.merge(&b)).expect("some partitions");
+        let second = merge_pairwise(residuals, |a, b| a.merge(&b)).expect("some partitions");
         let mut dropped = DroppedRows::default();
         designs.iter().for_each(|d| dropped.absorb(d.dropped()));
         let assembled =
@@ -180,22 +181,6 @@ fn round_states_read_back_exactly_and_damaged_states_are_refused() {
     let back = plumbline::model::design::RecipeLearner::from_bytes(&bytes, &demo_spec()).expect("read back");
     assert_eq!(back.finish().expect("recipe"), learner.finish().expect("recipe"));
     assert_eq!(back.to_bytes(), bytes);
-}
-
-/// Pairwise merges, level by level, as a distributed reduction would run them.
-fn tree<T>(mut items: Vec<T>, merge: impl Fn(T, T) -> T) -> Option<T> {
-    while items.len() > 1 {
-        let mut next = Vec::new();
-        let mut it = items.into_iter();
-        while let Some(a) = it.next() {
-            next.push(match it.next() {
-                Some(b) => merge(a, b),
-                None => a,
-            });
-        }
-        items = next;
-    }
-    items.pop()
 }
 
 #[test]

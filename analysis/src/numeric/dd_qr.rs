@@ -70,23 +70,12 @@ pub fn factor(mut columns: Vec<Vec<DoubleDouble>>, mut rhs: Vec<DoubleDouble>, t
         permutation.swap(k, best);
 
         // Householder reflector H = I − v vᵀ / (vᵀv · ½) mapping column k to α e_k.
-        let alpha = if columns[k][k].is_negative() { norm } else { -norm };
-        let mut v: Vec<DoubleDouble> = columns[k][k..].to_vec();
-        v[0] -= alpha;
-        let v_norm_sq: DoubleDouble = v.iter().map(|&x| x * x).sum();
-        if v_norm_sq.to_f64() > 0.0 {
-            let two_over = DoubleDouble::from(2.0) / v_norm_sq;
-            let apply = |target: &mut [DoubleDouble]| {
-                let dot: DoubleDouble = v.iter().zip(target.iter()).map(|(&a, &b)| a * b).sum();
-                let factor = dot * two_over;
-                for (t, &vi) in target.iter_mut().zip(v.iter()) {
-                    *t -= factor * vi;
-                }
-            };
+        let (alpha, reflector) = Reflector::new(&columns[k][k..], norm);
+        if let Some(reflector) = reflector {
             for column in columns.iter_mut().skip(k + 1) {
-                apply(&mut column[k..]);
+                reflector.apply(&mut column[k..]);
             }
-            apply(&mut rhs[k..]);
+            reflector.apply(&mut rhs[k..]);
         }
         columns[k][k] = alpha;
         for value in columns[k][k + 1..].iter_mut() {
@@ -101,6 +90,36 @@ pub fn factor(mut columns: Vec<Vec<DoubleDouble>>, mut rhs: Vec<DoubleDouble>, t
         .collect();
     let qt_rhs = rhs[..rank].to_vec();
     PivotedQr { permutation, rank, r, qt_rhs, diagonal }
+}
+
+/// One Householder reflector `H = I − v vᵀ · 2/(vᵀv)`, mapping a column's
+/// remaining part `x` (of 2-norm `norm`) to `α e₁` with `α = −sign(x₁)·norm`
+/// (the sign that avoids cancellation in `v₁ = x₁ − α`).
+struct Reflector {
+    v: Vec<DoubleDouble>,
+    two_over: DoubleDouble,
+}
+
+impl Reflector {
+    /// `α` and the reflector (`None` when `x` is already `α e₁`).
+    fn new(x: &[DoubleDouble], norm: DoubleDouble) -> (DoubleDouble, Option<Reflector>) {
+        let alpha = if x[0].is_negative() { norm } else { -norm };
+        let mut v = x.to_vec();
+        v[0] -= alpha;
+        let v_norm_sq: DoubleDouble = v.iter().map(|&a| a * a).sum();
+        let reflector =
+            (v_norm_sq.to_f64() > 0.0).then(|| Reflector { v, two_over: DoubleDouble::from(2.0) / v_norm_sq });
+        (alpha, reflector)
+    }
+
+    /// `target ← H target`.
+    fn apply(&self, target: &mut [DoubleDouble]) {
+        let dot: DoubleDouble = self.v.iter().zip(target.iter()).map(|(&a, &b)| a * b).sum();
+        let factor = dot * self.two_over;
+        for (t, &vi) in target.iter_mut().zip(self.v.iter()) {
+            *t -= factor * vi;
+        }
+    }
 }
 
 /// The triangular factor `R` of `A = Q R` by Householder QR without
@@ -119,19 +138,10 @@ pub fn triangular_factor(mut columns: Vec<Vec<DoubleDouble>>) -> Vec<Vec<DoubleD
         if norm.to_f64() == 0.0 {
             continue;
         }
-        let alpha = if columns[k][k].is_negative() { norm } else { -norm };
-        let mut v: Vec<DoubleDouble> = columns[k][k..].to_vec();
-        v[0] -= alpha;
-        let v_norm_sq: DoubleDouble = v.iter().map(|&x| x * x).sum();
-        if v_norm_sq.to_f64() > 0.0 {
-            let two_over = DoubleDouble::from(2.0) / v_norm_sq;
+        let (alpha, reflector) = Reflector::new(&columns[k][k..], norm);
+        if let Some(reflector) = reflector {
             for column in columns.iter_mut().skip(k + 1) {
-                let target = &mut column[k..];
-                let dot: DoubleDouble = v.iter().zip(target.iter()).map(|(&a, &b)| a * b).sum();
-                let factor = dot * two_over;
-                for (t, &vi) in target.iter_mut().zip(v.iter()) {
-                    *t -= factor * vi;
-                }
+                reflector.apply(&mut column[k..]);
             }
         }
         columns[k][k] = alpha;
