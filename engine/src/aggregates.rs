@@ -15,7 +15,8 @@
 //! file it came from — and the final accumulator merges every piece sorted
 //! by its bytes: the same files give the same answer, bit for bit, on any
 //! number of partitions or machines. (A piece is `O(p²)` numbers; 2·10⁸ rows
-//! in 8,192-row batches make about 44 MB of factor pieces at p = 20.)
+//! in batches of [`crate::driver::BATCH_ROWS`] make about 6 MB of factor
+//! pieces at p = 20.)
 //!
 //! **A group that fails stops alone.** A refusal (an unknown level, a value
 //! that is not finite, …) becomes the group's state, carried to the driver,
@@ -119,7 +120,8 @@ enum Setup {
     Unknown,
     /// Learning the coding.
     Coding,
-    /// Factoring, with the group's recipe.
+    /// Factoring, with the group's recipe (learning the coding too when the
+    /// plan says so).
     Factor { recipe: Box<DesignRecipe>, extended: bool },
     /// Gathering residual sums, given the first solution.
     Residuals { recipe: Box<DesignRecipe>, first: Box<FirstSolution> },
@@ -177,6 +179,13 @@ impl RoundAccumulator {
         };
         Ok(match plan.round {
             Round::Coding => Setup::Coding,
+            Round::Factor if plan.learning => {
+                let learner = RecipeLearner::new(&plan.spec).map_err(|e| e.to_string())?;
+                let recipe = learner.recipe_before_rows().ok_or(
+                    "the round plan asks round one to learn the coding of a model whose coding needs levels first",
+                )?;
+                Setup::Factor { recipe: Box::new(recipe), extended: plan.extended.contains(label) }
+            }
             Round::Factor => match recipe()? {
                 Some(recipe) => Setup::Factor { recipe: Box::new(recipe), extended: plan.extended.contains(label) },
                 None => Setup::Skipped,
@@ -233,12 +242,21 @@ impl RoundAccumulator {
                 learner.to_bytes()
             }
             Setup::Factor { recipe, extended } => {
-                let design = recipe.fitting_design(&frame).map_err(refused)?;
+                let mut learner =
+                    if plan.learning { Some(RecipeLearner::new(&plan.spec).map_err(refused)?) } else { None };
+                let design = match &mut learner {
+                    Some(learner) => learner.absorb_into_design(recipe, &frame),
+                    None => recipe.fitting_design(&frame),
+                }
+                .map_err(refused)?;
                 let columns = recipe.column_names.len();
                 let mut factor =
                     if *extended { FactorAggregate::new_extended(columns) } else { FactorAggregate::new(columns) };
                 factor.absorb_on(&design, 1);
-                factor.to_bytes()
+                match learner {
+                    Some(learner) => join_learning_piece(&learner.to_bytes(), &factor.to_bytes()),
+                    None => factor.to_bytes(),
+                }
             }
             Setup::Residuals { recipe, first } => {
                 let design = recipe.fitting_design(&frame).map_err(refused)?;
@@ -345,6 +363,24 @@ pub fn read_state(bytes: &[u8]) -> Result<GroupState<'_>> {
     })
 }
 
+/// A piece (or merged state) of a round one that learns the coding: the
+/// learner's state, length first, then the factor's.
+pub fn join_learning_piece(coding: &[u8], factor: &[u8]) -> Vec<u8> {
+    let mut bytes = Vec::with_capacity(8 + coding.len() + factor.len());
+    bytes.extend_from_slice(&(coding.len() as u64).to_le_bytes());
+    bytes.extend_from_slice(coding);
+    bytes.extend_from_slice(factor);
+    bytes
+}
+
+/// The learner's and the factor's states of [`join_learning_piece`]'s bytes;
+/// `None` if they are cut short.
+pub fn split_learning_piece(bytes: &[u8]) -> Option<(&[u8], &[u8])> {
+    let (length, rest) = bytes.split_at_checked(8)?;
+    let length = usize::try_from(u64::from_le_bytes(length.try_into().ok()?)).ok()?;
+    rest.split_at_checked(length)
+}
+
 /// Merges one group's pieces in the order given (factors in a binary tree,
 /// the TSQR reduction; sums and codings in sequence).
 fn merge_pieces(plan: &RoundPlan, pieces: &[&[u8]]) -> std::result::Result<Vec<u8>, String> {
@@ -358,12 +394,25 @@ fn merge_pieces(plan: &RoundPlan, pieces: &[&[u8]]) -> std::result::Result<Vec<u
             merged.to_bytes()
         }
         Round::Factor => {
-            let factors: Vec<FactorAggregate> = pieces
-                .iter()
-                .map(|p| FactorAggregate::from_bytes(p))
-                .collect::<plumbline::Result<_>>()
-                .map_err(text)?;
-            merge_pairwise(factors, |left, right| left.merge(&right)).map(|f| f.to_bytes()).unwrap_or_default()
+            let mut learner = plan.learning.then(|| RecipeLearner::new(&plan.spec)).transpose().map_err(text)?;
+            let mut factors = Vec::with_capacity(pieces.len());
+            for piece in pieces {
+                let factor = match &mut learner {
+                    Some(learner) => {
+                        let (coding, factor) = split_learning_piece(piece).ok_or("a round-one piece is damaged")?;
+                        learner.merge(&RecipeLearner::from_bytes(coding, &plan.spec).map_err(text)?);
+                        factor
+                    }
+                    None => piece,
+                };
+                factors.push(FactorAggregate::from_bytes(factor).map_err(text)?);
+            }
+            let factor =
+                merge_pairwise(factors, |left, right| left.merge(&right)).map(|f| f.to_bytes()).unwrap_or_default();
+            match learner {
+                Some(learner) => join_learning_piece(&learner.to_bytes(), &factor),
+                None => factor,
+            }
         }
         Round::Residuals => {
             let mut merged: Option<ResidualAggregate> = None;

@@ -105,9 +105,10 @@ pub async fn run_executor(settings: ExecutorSettings) -> Result<()> {
 }
 
 /// A client session on the scheduler at `address` (`HOST:PORT`), with the
-/// round functions registered; `partitions` as for a local session.
-pub async fn remote_context(address: &str, partitions: Option<usize>) -> Result<SessionContext> {
-    let config = crate::driver::session_config(SessionConfig::new_with_ballista(), partitions);
+/// round functions registered; `partitions` and `batch_rows` as for a local
+/// session ([`crate::driver::session_config`]).
+pub async fn remote_context(address: &str, partitions: Option<usize>, batch_rows: usize) -> Result<SessionContext> {
+    let config = crate::driver::session_config(SessionConfig::new_with_ballista(), partitions, batch_rows);
     let state = state_with_functions(config)?;
     let url = format!("df://{address}");
     SessionContext::remote_with_state(&url, state).await.map_err(|e| EngineError::Cluster(format!("{address}: {e}")))

@@ -12,7 +12,7 @@
 //! reading only the model's columns: `SELECT [group,] COUNT(*), round(plan,
 //! [group,] columns…) FROM rows [WHERE group IN (…)] [GROUP BY group]`.
 
-use crate::aggregates::{read_state, round_functions, GroupState};
+use crate::aggregates::{read_state, round_functions, split_learning_piece, GroupState};
 use crate::error::{EngineError, Result};
 use crate::plan::{to_hex, Round, RoundPlan, PLAN_FORMAT, PLAN_VERSION, WHOLE_DATA};
 use datafusion::arrow::array::{Array, AsArray, RecordBatch};
@@ -43,24 +43,39 @@ use std::sync::Arc;
 /// The name the data's table is registered under on a session.
 pub const ROWS_TABLE: &str = "plumbline_rows";
 
+/// Rows per batch a round function receives (DataFusion's default is 8,192).
+/// Each batch becomes one piece: a frame, a design and a factor or residual
+/// sums, whose fixed costs (allocations, a p x p factor, its bytes) are paid
+/// per batch; at 65,536 rows they are small beside the rows' own work, and a
+/// batch of 20 columns still takes only 10 MB per partition.
+pub const BATCH_ROWS: usize = 65_536;
+
 /// A session on this machine with the round functions registered, using
-/// `partitions` partitions (`None`: one per core).
+/// `partitions` partitions (`None`: one per core) and [`BATCH_ROWS`] rows per
+/// batch.
 pub fn local_context(partitions: Option<usize>) -> SessionContext {
-    let context = SessionContext::new_with_config(session_config(SessionConfig::new(), partitions));
+    local_context_with_batches(partitions, BATCH_ROWS)
+}
+
+/// [`local_context`] with `batch_rows` rows per batch (each batch is one
+/// piece of every round's state; tests use small batches to make many).
+pub fn local_context_with_batches(partitions: Option<usize>, batch_rows: usize) -> SessionContext {
+    let context = SessionContext::new_with_config(session_config(SessionConfig::new(), partitions, batch_rows));
     register_functions(&context);
     context
 }
 
 /// The settings every session of a fit needs, on top of `config`:
-/// `partitions` partitions, and no round-robin repartitioning, which deals
-/// batches to partitions in the order they arrive and so would change which
-/// rows each partial state holds (and the last bits of the result) from run
-/// to run. Files and byte ranges of files are still split over partitions,
-/// in a fixed way.
-pub fn session_config(mut config: SessionConfig, partitions: Option<usize>) -> SessionConfig {
+/// `partitions` partitions, `batch_rows` rows per batch (at least 1), and no
+/// round-robin repartitioning, which deals batches to partitions in the
+/// order they arrive and so would change which rows each partial state
+/// holds (and the last bits of the result) from run to run. Files and byte
+/// ranges of files are still split over partitions, in a fixed way.
+pub fn session_config(mut config: SessionConfig, partitions: Option<usize>, batch_rows: usize) -> SessionConfig {
     if let Some(n) = partitions {
         config = config.with_target_partitions(n.max(1));
     }
+    config = config.with_batch_size(batch_rows.max(1));
     config.options_mut().optimizer.enable_round_robin_repartition = false;
     config
 }
@@ -251,6 +266,7 @@ fn coding_plan(spec: &ModelSpec, options: &FitOptions, non_finite: NonFinite, gr
         non_finite,
         robust: options.covariance != CovarianceKind::Classical,
         rank_tolerance: options.rank_tolerance,
+        learning: false,
         extended: BTreeSet::new(),
         codings: BTreeMap::new(),
         factors: BTreeMap::new(),
@@ -282,9 +298,16 @@ enum Lane {
 /// Each group's rows (before dropping) and where its model stands.
 type Lanes = BTreeMap<Option<String>, (usize, Lane)>;
 
-/// The three rounds of one specification over the table, for every group at
+/// The rounds of one specification over the table, for every group at
 /// once (`group`: the grouping column; `only`: the groups to fit). A group
 /// that fails a round stops there with its reason; the others go on.
+///
+/// A model whose coding needs levels (it reads text or dates) takes three
+/// passes: the coding, round one, round two. Any other learns its coding in
+/// round one (two passes). Round one runs again in double-double for the
+/// groups whose factor in double is not enough: small designs (where the
+/// in-memory fit would use double-double, known once the rows are counted)
+/// and ill-conditioned ones.
 async fn run_rounds(
     context: &SessionContext,
     spec: &ModelSpec,
@@ -294,49 +317,30 @@ async fn run_rounds(
     only: Option<(&str, &BTreeSet<String>)>,
 ) -> Result<Lanes> {
     let mut plan = coding_plan(spec, options, non_finite, group.is_some());
-    let failed = |e: plumbline::Error| Lane::Failed(e.to_string());
-    let mut lanes = Lanes::new();
-    for (label, rows, state) in (RoundQuery { plan: plan.clone(), group, only }).run(context).await? {
-        let learner = match read_state(&state)? {
-            GroupState::Failed(reason) => Err(reason),
-            GroupState::Empty => RecipeLearner::new(spec).map_err(|e| e.to_string()),
-            GroupState::Held { body, .. } => RecipeLearner::from_bytes(body, spec).map_err(|e| e.to_string()),
-        };
-        let lane = match learner {
-            Err(reason) => Lane::Failed(reason),
-            Ok(learner) => match learner.finish() {
-                Ok(recipe) => Lane::Factoring { recipe: Box::new(recipe), learner: Box::new(learner) },
-                Err(e) => failed(e),
-            },
-        };
-        lanes.insert(label, (rows, lane));
-    }
-    let key = |label: &Option<String>| label.clone().unwrap_or_default();
-
-    // Round one: the factor, given each group's coding.
-    plan.round = Round::Factor;
-    for (label, (_, lane)) in &lanes {
-        if let Lane::Factoring { recipe, learner } = lane {
-            plan.codings.insert(key(label), to_hex(&learner.to_bytes()));
-            if extended_is_cheap(learner.rows_kept(), recipe.column_names.len()) {
-                plan.extended.insert(key(label));
-            }
-        }
-    }
-    if plan.codings.is_empty() {
-        return Ok(lanes);
-    }
-    absorb_factors(&mut lanes, (RoundQuery { plan: plan.clone(), group, only }).run(context).await?, options)?;
-    // Groups too ill-conditioned for a factor in double: round one again,
-    // in double-double, for them alone (the in-memory fit's rule).
-    plan.extended.clear();
-    plan.codings.clear();
+    let mut lanes = if RecipeLearner::new(spec)?.codes_without_levels() {
+        plan.round = Round::Factor;
+        plan.learning = true;
+        let lanes =
+            learning_round(spec, (RoundQuery { plan: plan.clone(), group, only }).run(context).await?, options)?;
+        plan.learning = false;
+        lanes
+    } else {
+        let lanes = coding_round(spec, (RoundQuery { plan: plan.clone(), group, only }).run(context).await?)?;
+        // Round one: the factor, given each group's coding.
+        plan.round = Round::Factor;
+        factor_round(context, &mut plan, group, only, lanes, options, |rows, columns| extended_is_cheap(rows, columns))
+            .await?
+    };
+    // Groups whose factor in double is not enough: round one again, in
+    // double-double, for them alone (the in-memory fit's rule).
     let mut redo = Lanes::new();
     for (label, (rows, lane)) in std::mem::take(&mut lanes) {
         match lane {
-            Lane::Summing { recipe, learner, first, .. } if first.needs_extended() => {
-                plan.codings.insert(key(&label), to_hex(&learner.to_bytes()));
-                plan.extended.insert(key(&label));
+            Lane::Summing { recipe, learner, first, .. }
+                if !first.is_extended()
+                    && (first.needs_extended()
+                        || extended_is_cheap(learner.rows_kept(), recipe.column_names.len())) =>
+            {
                 redo.insert(label, (rows, Lane::Factoring { recipe, learner }));
             }
             other => {
@@ -345,19 +349,17 @@ async fn run_rounds(
         }
     }
     if !redo.is_empty() {
-        absorb_factors(&mut redo, (RoundQuery { plan: plan.clone(), group, only }).run(context).await?, options)?;
-        lanes.append(&mut redo);
+        let mut redone = factor_round(context, &mut plan, group, only, redo, options, |_, _| true).await?;
+        lanes.append(&mut redone);
     }
-    plan.extended.clear();
-
     // Round two: residual sums, given each group's factor (every
     // accumulator solves it again: O(p³), beside its rows' O(n·p²)).
     plan.round = Round::Residuals;
     plan.codings.clear();
     for (label, (_, lane)) in &lanes {
         if let Lane::Summing { learner, factor, .. } = lane {
-            plan.codings.insert(key(label), to_hex(&learner.to_bytes()));
-            plan.factors.insert(key(label), to_hex(factor));
+            plan.codings.insert(group_key(label), to_hex(&learner.to_bytes()));
+            plan.factors.insert(group_key(label), to_hex(factor));
         }
     }
     if plan.factors.is_empty() {
@@ -380,9 +382,85 @@ async fn run_rounds(
     Ok(lanes)
 }
 
-/// Moves each factoring lane of `lanes` to its first solution, from round
-/// one's merged states.
-fn absorb_factors(lanes: &mut Lanes, states: RoundRows, options: &FitOptions) -> Result<()> {
+/// A group's key in the plan's maps.
+fn group_key(label: &Option<String>) -> String {
+    label.clone().unwrap_or_default()
+}
+
+/// Each group's lane from the coding round's merged states.
+fn coding_round(spec: &ModelSpec, states: RoundRows) -> Result<Lanes> {
+    let mut lanes = Lanes::new();
+    for (label, rows, state) in states {
+        let learner = match read_state(&state)? {
+            GroupState::Failed(reason) => Err(reason),
+            GroupState::Empty => RecipeLearner::new(spec).map_err(|e| e.to_string()),
+            GroupState::Held { body, .. } => RecipeLearner::from_bytes(body, spec).map_err(|e| e.to_string()),
+        };
+        let lane = match learner {
+            Err(reason) => Lane::Failed(reason),
+            Ok(learner) => match learner.finish() {
+                Ok(recipe) => Lane::Factoring { recipe: Box::new(recipe), learner: Box::new(learner) },
+                Err(e) => Lane::Failed(e.to_string()),
+            },
+        };
+        lanes.insert(label, (rows, lane));
+    }
+    Ok(lanes)
+}
+
+/// Each group's lane from a round one that learned the coding too.
+fn learning_round(spec: &ModelSpec, states: RoundRows, options: &FitOptions) -> Result<Lanes> {
+    let mut lanes = Lanes::new();
+    for (label, rows, state) in states {
+        let learned = match read_state(&state)? {
+            GroupState::Failed(reason) => Err(reason),
+            GroupState::Empty => RecipeLearner::new(spec).map(|learner| (learner, &[][..])).map_err(|e| e.to_string()),
+            GroupState::Held { body, .. } => {
+                let (coding, factor) = split_learning_piece(body)
+                    .ok_or_else(|| EngineError::Data("a round's result is damaged".into()))?;
+                RecipeLearner::from_bytes(coding, spec).map(|learner| (learner, factor)).map_err(|e| e.to_string())
+            }
+        };
+        let lane = match learned {
+            Err(reason) => Lane::Failed(reason),
+            Ok((learner, factor)) => match learner.finish() {
+                Err(e) => Lane::Failed(e.to_string()),
+                Ok(_) if factor.is_empty() => Lane::Failed("no rows reached the factor round".into()),
+                Ok(recipe) => summing_lane(Box::new(recipe), Box::new(learner), factor, options),
+            },
+        };
+        lanes.insert(label, (rows, lane));
+    }
+    Ok(lanes)
+}
+
+/// Round one for every factoring lane of `lanes`, in double-double for the
+/// groups where `extended(rows kept, design columns)` says so.
+async fn factor_round(
+    context: &SessionContext,
+    plan: &mut RoundPlan,
+    group: Option<&str>,
+    only: Option<(&str, &BTreeSet<String>)>,
+    mut lanes: Lanes,
+    options: &FitOptions,
+    extended: impl Fn(usize, usize) -> bool,
+) -> Result<Lanes> {
+    plan.round = Round::Factor;
+    plan.codings.clear();
+    plan.extended.clear();
+    for (label, (_, lane)) in &lanes {
+        if let Lane::Factoring { recipe, learner } = lane {
+            plan.codings.insert(group_key(label), to_hex(&learner.to_bytes()));
+            if extended(learner.rows_kept(), recipe.column_names.len()) {
+                plan.extended.insert(group_key(label));
+            }
+        }
+    }
+    if plan.codings.is_empty() {
+        return Ok(lanes);
+    }
+    let states = (RoundQuery { plan: plan.clone(), group, only }).run(context).await?;
+    plan.extended.clear();
     for (label, _, state) in states {
         let Some((_, lane)) = lanes.get_mut(&label) else { continue };
         if !matches!(lane, Lane::Factoring { .. }) {
@@ -394,17 +472,20 @@ fn absorb_factors(lanes: &mut Lanes, states: RoundRows, options: &FitOptions) ->
         *lane = match read_state(&state)? {
             GroupState::Failed(reason) => Lane::Failed(reason),
             GroupState::Empty => Lane::Failed("no rows reached the factor round".into()),
-            GroupState::Held { body, .. } => {
-                match FactorAggregate::from_bytes(body)
-                    .and_then(|f| FirstSolution::from_aggregate(f, &recipe, options.rank_tolerance))
-                {
-                    Ok(first) => Lane::Summing { recipe, learner, first: Box::new(first), factor: body.to_vec() },
-                    Err(e) => Lane::Failed(e.to_string()),
-                }
-            }
+            GroupState::Held { body, .. } => summing_lane(recipe, learner, body, options),
         };
     }
-    Ok(())
+    Ok(lanes)
+}
+
+/// A group's lane once round one has given its merged factor state.
+fn summing_lane(recipe: Box<DesignRecipe>, learner: Box<RecipeLearner>, factor: &[u8], options: &FitOptions) -> Lane {
+    match FactorAggregate::from_bytes(factor)
+        .and_then(|f| FirstSolution::from_aggregate(f, &recipe, options.rank_tolerance))
+    {
+        Ok(first) => Lane::Summing { recipe, learner, first: Box::new(first), factor: factor.to_vec() },
+        Err(e) => Lane::Failed(e.to_string()),
+    }
 }
 
 /// A lane's fit, stamped with `provenance`.

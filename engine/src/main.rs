@@ -152,9 +152,12 @@ async fn run_fit(args: &EngineFitArgs) -> Result<String, String> {
     let options = fit_options(fit);
     let non_finite = non_finite_rule(&fit.input).map_err(text)?;
     let source = DataSource::open(&fit.data).map_err(engine)?;
+    // `--batch-rows`: rows per batch of the query engine (each batch one
+    // piece of every round's state).
+    let batch_rows = fit.batch_rows.unwrap_or(driver::BATCH_ROWS);
     let context = match &args.scheduler {
-        Some(address) => cluster::remote_context(address, args.partitions).await.map_err(engine)?,
-        None => driver::local_context(args.partitions),
+        Some(address) => cluster::remote_context(address, args.partitions, batch_rows).await.map_err(engine)?,
+        None => driver::local_context_with_batches(args.partitions, batch_rows),
     };
     match &fit.by {
         Some(column) => {

@@ -18,7 +18,7 @@ use std::collections::{BTreeMap, BTreeSet};
 /// The document name of a round plan.
 pub const PLAN_FORMAT: &str = "plumbline.engine-round";
 /// The version of the round plan; bump it when a field changes meaning.
-pub const PLAN_VERSION: u32 = 1;
+pub const PLAN_VERSION: u32 = 2;
 /// The key of the one "group" of a fit without groups.
 pub const WHOLE_DATA: &str = "";
 
@@ -28,7 +28,8 @@ pub const WHOLE_DATA: &str = "";
 pub enum Round {
     /// Learn the coding: category levels, value ranges, dropped rows.
     Coding,
-    /// Round one: the TSQR factor of `[X | y]`.
+    /// Round one: the TSQR factor of `[X | y]` (learning the coding in the
+    /// same pass when the plan says [`RoundPlan::learning`]).
     Factor,
     /// Round two: residual sums given the first solution.
     Residuals,
@@ -68,6 +69,11 @@ pub struct RoundPlan {
     pub robust: bool,
     /// The numerical-rank tolerance (`None`: the default for the design's size).
     pub rank_tolerance: Option<f64>,
+    /// Round one also learns the coding (version 2): for a model that reads
+    /// no text or date column, whose design needs no level learned first
+    /// (`RecipeLearner::codes_without_levels`), the coding round is folded
+    /// into round one and a piece is the learner's state then the factor's.
+    pub learning: bool,
     /// The groups whose round one runs in double-double: small designs, and
     /// designs too ill-conditioned for a factor in double (the automatic
     /// rule of the in-memory fit; see `FactorAggregate::for_rows`).

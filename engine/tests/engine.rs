@@ -31,6 +31,11 @@ fn parquet_folder(name: &str, parts: usize) -> PathBuf {
     dir
 }
 
+/// Rows per batch in most tests: a few hundred, so that every partition
+/// reads several batches and the states merge many pieces (the engine's
+/// default batch holds all of a test file).
+const SMALL_BATCHES: usize = 150;
+
 fn extended(covariance: CovarianceKind) -> FitOptions {
     FitOptions { covariance, precision: Precision::Extended, rank_tolerance: None }
 }
@@ -45,6 +50,17 @@ fn area_spec() -> ModelSpec {
         .term(Term::category("quality"))
         .numeric("bathrooms")
         .term(Term::months_since("sale_date", "2023-01-01"))
+}
+
+/// A model of numbers only: its coding needs no level, so the engine learns
+/// it in round one (two passes over the rows instead of three).
+fn numbers_only_spec() -> ModelSpec {
+    ModelSpec::new("sale_price")
+        .log_target()
+        .term(Term::numeric("living_area").log())
+        .numeric("age")
+        .numeric("quality")
+        .numeric("bathrooms")
 }
 
 fn runtime() -> tokio::runtime::Runtime {
@@ -86,24 +102,20 @@ fn a_fit_in_datafusion_equals_the_fit_in_memory_for_any_partitioning() {
     assert_eq!(source.files().len(), 10);
     let sales = load(demo_sales_csv()).expect("sales");
     let rt = runtime();
-    for covariance in [CovarianceKind::Classical, CovarianceKind::Hc1] {
-        let memory = fit_with(&sales, &demo_spec(), &extended(covariance.clone())).expect("in memory");
-        for partitions in [1, 3, 8] {
-            let context = driver::local_context(Some(partitions));
-            let fitted = rt
-                .block_on(driver::fit(
-                    &context,
-                    &source,
-                    &demo_spec(),
-                    &extended(covariance.clone()),
-                    NonFinite::Refuse,
-                ))
-                .expect("fit in DataFusion");
-            assert_summaries_agree(
-                &memory.summary(0.95).expect("summary"),
-                &fitted.summary(0.95).expect("summary"),
-                &format!("{covariance:?}, {partitions} partitions"),
-            );
+    for (spec, name) in [(demo_spec(), "three passes"), (numbers_only_spec(), "numbers only, two passes")] {
+        for covariance in [CovarianceKind::Classical, CovarianceKind::Hc1] {
+            let memory = fit_with(&sales, &spec, &extended(covariance.clone())).expect("in memory");
+            for partitions in [1, 3, 8] {
+                let context = driver::local_context_with_batches(Some(partitions), SMALL_BATCHES);
+                let fitted = rt
+                    .block_on(driver::fit(&context, &source, &spec, &extended(covariance.clone()), NonFinite::Refuse))
+                    .expect("fit in DataFusion");
+                assert_summaries_agree(
+                    &memory.summary(0.95).expect("summary"),
+                    &fitted.summary(0.95).expect("summary"),
+                    &format!("{name}, {covariance:?}, {partitions} partitions"),
+                );
+            }
         }
     }
 }
@@ -113,34 +125,28 @@ fn the_same_files_give_the_same_document_byte_for_byte() {
     let dir = parquet_folder("engine-bytes", 9);
     let source = DataSource::open(&dir).expect("source");
     let rt = runtime();
-    let run = || {
-        let context = driver::local_context(Some(4));
-        let fitted = rt
-            .block_on(driver::fit(&context, &source, &demo_spec(), &FitOptions::default(), NonFinite::Refuse))
-            .expect("fit");
+    let document = |spec: &ModelSpec, partitions: usize| {
+        let context = driver::local_context_with_batches(Some(partitions), SMALL_BATCHES);
+        let fitted =
+            rt.block_on(driver::fit(&context, &source, spec, &FitOptions::default(), NonFinite::Refuse)).expect("fit");
         let mut summary = fitted.summary(0.95).expect("summary");
         // The one field that names the moment of the run, not the data.
         summary.data.loaded_at.clear();
         to_pretty_json(&FitDocument::from(summary), "fit").expect("json")
     };
-    let first = run();
-    for _ in 0..3 {
-        assert_eq!(run(), first, "a rerun moved the document");
+    for spec in [demo_spec(), numbers_only_spec()] {
+        let first = document(&spec, 4);
+        for _ in 0..3 {
+            assert_eq!(document(&spec, 4), first, "a rerun moved the document");
+        }
+        // And on another number of partitions: the pieces are the batches,
+        // whichever partition read them.
+        assert_eq!(document(&spec, 1), first, "one partition moved it");
+        // The same stamp as a fit in batches of the same folder.
+        let batches =
+            plumbline::fit::fit_batches(&dir, &spec, &FitOptions::default(), 500, NonFinite::Refuse).expect("batches");
+        assert!(first.contains(&batches.provenance.sha256), "the provenance stamp differs from the batched fit's");
     }
-    // And on another number of partitions: the pieces are the batches,
-    // whichever partition read them.
-    let context = driver::local_context(Some(1));
-    let mut one = rt
-        .block_on(driver::fit(&context, &source, &demo_spec(), &FitOptions::default(), NonFinite::Refuse))
-        .expect("fit")
-        .summary(0.95)
-        .expect("summary");
-    one.data.loaded_at.clear();
-    assert_eq!(to_pretty_json(&FitDocument::from(one), "fit").expect("json"), first, "one partition moved it");
-    // The same stamp as a fit in batches of the same folder.
-    let batches = plumbline::fit::fit_batches(&dir, &demo_spec(), &FitOptions::default(), 500, NonFinite::Refuse)
-        .expect("batches");
-    assert!(first.contains(&batches.provenance.sha256), "the provenance stamp differs from the batched fit's");
 }
 
 #[test]
@@ -148,21 +154,23 @@ fn a_fit_by_market_area_in_datafusion_equals_the_fit_by_area_in_memory() {
     let dir = parquet_folder("engine-by", 8);
     let source = DataSource::open(&dir).expect("source");
     let sales = load(demo_sales_csv()).expect("sales");
-    let memory = fit_by_with(&sales, &area_spec(), "district", &extended(CovarianceKind::Classical)).expect("memory");
     let rt = runtime();
-    for partitions in [1, 4] {
-        let context = driver::local_context(Some(partitions));
-        let set = rt
-            .block_on(driver::fit_by(
-                &context,
-                &source,
-                &area_spec(),
-                &FitOptions::default(),
-                NonFinite::Refuse,
-                "district",
-            ))
-            .expect("fit by district");
-        assert_sets_agree(&memory, &set, &format!("{partitions} partitions"));
+    for (spec, name) in [(area_spec(), "three passes"), (numbers_only_spec(), "numbers only, two passes")] {
+        let memory = fit_by_with(&sales, &spec, "district", &extended(CovarianceKind::Classical)).expect("memory");
+        for partitions in [1, 4] {
+            let context = driver::local_context_with_batches(Some(partitions), SMALL_BATCHES);
+            let set = rt
+                .block_on(driver::fit_by(
+                    &context,
+                    &source,
+                    &spec,
+                    &FitOptions::default(),
+                    NonFinite::Refuse,
+                    "district",
+                ))
+                .expect("fit by district");
+            assert_sets_agree(&memory, &set, &format!("{name}, {partitions} partitions"));
+        }
     }
 }
 
@@ -180,24 +188,27 @@ fn an_area_that_cannot_be_fitted_keeps_its_reason() {
         body.push_str(&format!("{}\n", cells.join(",")));
     }
     let path = write_file(&dir, "sales.csv", &body);
-    let memory =
-        fit_by_with(&load(&path).expect("sales"), &area_spec(), "district", &FitOptions::default()).expect("memory");
-    let set = runtime()
-        .block_on(driver::fit_by(
-            &driver::local_context(Some(2)),
-            &DataSource::open(&path).expect("source"),
-            &area_spec(),
-            &FitOptions::default(),
-            NonFinite::Refuse,
-            "district",
-        ))
-        .expect("engine");
     let reason = |set: &StratifiedFit| match set.stratum("Foxhollow").expect("listed").outcome() {
         StratumOutcome::NotFitted { reason } => reason.clone(),
         StratumOutcome::Fitted(_) => panic!("Foxhollow has 3 rows"),
     };
-    assert_eq!(reason(&set), reason(&memory));
-    assert_sets_agree(&memory, &set, "with an unfittable area");
+    // Three rows and six columns (three passes) or five (two passes).
+    for spec in [area_spec(), numbers_only_spec()] {
+        let memory =
+            fit_by_with(&load(&path).expect("sales"), &spec, "district", &FitOptions::default()).expect("memory");
+        let set = runtime()
+            .block_on(driver::fit_by(
+                &driver::local_context(Some(2)),
+                &DataSource::open(&path).expect("source"),
+                &spec,
+                &FitOptions::default(),
+                NonFinite::Refuse,
+                "district",
+            ))
+            .expect("engine");
+        assert_eq!(reason(&set), reason(&memory));
+        assert_sets_agree(&memory, &set, "with an unfittable area");
+    }
 }
 
 #[test]
@@ -375,7 +386,7 @@ fn a_ballista_cluster_fits_as_in_memory_and_a_killed_executor_never_gives_a_part
     let expected = memory.summary(0.95).expect("summary");
     {
         let cluster = Cluster::start(2, 0);
-        let context = rt.block_on(cluster::remote_context(&cluster.address, Some(4))).expect("client");
+        let context = rt.block_on(cluster::remote_context(&cluster.address, Some(4), SMALL_BATCHES)).expect("client");
         let fitted = rt
             .block_on(driver::fit(&context, &source, &demo_spec(), &options, NonFinite::Refuse))
             .expect("cluster fit");
@@ -389,7 +400,8 @@ fn a_ballista_cluster_fits_as_in_memory_and_a_killed_executor_never_gives_a_part
     // An executor killed while the job runs: every batch takes 500 ms, so the
     // three rounds run for several seconds; one executor is killed 1.5 s in.
     let mut cluster = Cluster::start(2, 500);
-    let context = rt.block_on(cluster::remote_context(&cluster.address, Some(8))).expect("client");
+    // One batch per file (the default size), so each slowed batch is one file.
+    let context = rt.block_on(cluster::remote_context(&cluster.address, Some(8), driver::BATCH_ROWS)).expect("client");
     let job = rt.spawn({
         let source = source.clone();
         let options = options.clone();

@@ -261,9 +261,11 @@ impl Frame {
                 let cast = series.cast(&DataType::Float64)?;
                 let doubles = cast.f64()?;
                 if doubles.null_count() == 0 {
-                    // The common case, copied chunk by chunk without a per-value branch.
-                    let values: Vec<f64> =
-                        doubles.downcast_iter().flat_map(|chunk| chunk.values().iter().copied()).collect();
+                    // The common case, copied chunk by chunk (a memcpy each) without a per-value branch.
+                    let mut values = Vec::with_capacity(doubles.len());
+                    for chunk in doubles.downcast_iter() {
+                        values.extend_from_slice(chunk.values());
+                    }
                     return self.checked_numbers(name, values, None);
                 }
                 doubles.iter().collect()
@@ -290,7 +292,7 @@ impl Frame {
     fn checked_numbers(&self, name: &str, mut values: Vec<f64>, missing: Option<Vec<bool>>) -> Result<NumericValues> {
         let is_missing = |row: usize| missing.as_ref().is_some_and(|m| m[row]);
         let mut non_finite_as_missing = 0;
-        if values.iter().any(|v| !v.is_finite()) {
+        if crate::numeric::scan::any_non_finite(&values) {
             for (row, value) in values.iter_mut().enumerate() {
                 if !value.is_finite() && !is_missing(row) {
                     match self.non_finite {

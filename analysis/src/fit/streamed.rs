@@ -345,6 +345,11 @@ impl FirstSolution {
         !self.aggregate.is_extended() && self.small.condition_number > SEMINORMAL_CONDITION_LIMIT
     }
 
+    /// Whether round one ran in double-double.
+    pub fn is_extended(&self) -> bool {
+        self.aggregate.is_extended()
+    }
+
     /// The condition number of the equilibrated kept design.
     pub fn condition_number(&self) -> f64 {
         self.small.condition_number

@@ -318,7 +318,7 @@ fn complete_rows(frame: &Frame, reads: &ValueReads, order: &[String]) -> Result<
     let height = frame.height();
     // Only columns with a missing value take part in the row-by-row scan.
     let gappy_numbers: Vec<(Option<&str>, &Vec<f64>)> =
-        raw_numbers.values().filter(|(_, v)| v.iter().any(|x| x.is_nan())).map(|(c, v)| (*c, v)).collect();
+        raw_numbers.values().filter(|(_, v)| crate::numeric::scan::any_nan(v)).map(|(c, v)| (*c, v)).collect();
     let gappy_labels: Vec<(Option<&str>, &Vec<Option<String>>)> =
         raw_labels.values().filter(|(_, v)| v.iter().any(Option::is_none)).map(|(c, v)| (*c, v)).collect();
     let mut missing_by_column: BTreeMap<&str, usize> = BTreeMap::new();
@@ -644,7 +644,12 @@ impl DesignRecipe {
     /// as [`build_design`] drops them; a frame with no complete row gives an
     /// empty design. A category level the recipe does not know is refused.
     pub fn fitting_design(&self, frame: &Frame) -> Result<Design> {
-        let FittingRows { mut complete, target, weights } = fitting_rows(frame, &self.spec, &[])?;
+        self.design_of_rows(frame, fitting_rows(frame, &self.spec, &[])?)
+    }
+
+    /// The design of `frame`'s fitting rows, already read.
+    fn design_of_rows(&self, frame: &Frame, rows: FittingRows) -> Result<Design> {
+        let FittingRows { mut complete, target, weights } = rows;
         let mut moved = take_untransformed(&self.spec, &self.encodings, &mut complete.numbers);
         let line_of = |row: usize| frame.source_line(row);
         let values =
@@ -745,6 +750,39 @@ impl RecipeLearner {
     /// Takes in one frame's complete rows.
     pub fn absorb(&mut self, frame: &Frame) -> Result<()> {
         let FittingRows { complete, .. } = fitting_rows(frame, &self.spec, &[])?;
+        self.absorb_rows(&complete);
+        Ok(())
+    }
+
+    /// Whether the model's coding needs no level of any column: it reads no
+    /// text or date column, so every design column is a function of its own
+    /// row's numbers, known before any row is seen.
+    pub fn codes_without_levels(&self) -> bool {
+        ValueReads::of_terms(self.spec.terms()).labels.is_empty()
+    }
+
+    /// The recipe to code rows with before any has been seen, for a model
+    /// that [codes without levels](Self::codes_without_levels) (`None`
+    /// otherwise): the same columns as [`Self::finish`] gives, without the
+    /// value ranges, which only the rows can tell. A fit can then learn and
+    /// factor in one pass over the rows ([`Self::absorb_into_design`]).
+    pub fn recipe_before_rows(&self) -> Option<DesignRecipe> {
+        if !self.codes_without_levels() {
+            return None;
+        }
+        self.recipe().ok()
+    }
+
+    /// Takes in one frame's complete rows, as [`Self::absorb`], and codes
+    /// them with `recipe`, as [`DesignRecipe::fitting_design`]: one reading
+    /// of the frame for both (a fit that learns while it factors).
+    pub fn absorb_into_design(&mut self, recipe: &DesignRecipe, frame: &Frame) -> Result<Design> {
+        let rows = fitting_rows(frame, &self.spec, &[])?;
+        self.absorb_rows(&rows.complete);
+        recipe.design_of_rows(frame, rows)
+    }
+
+    fn absorb_rows(&mut self, complete: &CompleteRows) {
         for (key, labels) in &complete.labels {
             let counts = self.level_counts.entry(key.clone()).or_default();
             for label in labels {
@@ -766,7 +804,6 @@ impl RecipeLearner {
         }
         self.dropped.absorb(&complete.dropped);
         self.rows_kept += complete.rows.len();
-        Ok(())
     }
 
     /// Rows kept so far.
@@ -856,6 +893,11 @@ impl RecipeLearner {
         if self.rows_kept == 0 {
             return Err(Error::AllRowsDropped { detail: self.dropped.describe() });
         }
+        self.recipe()
+    }
+
+    /// The recipe of what has been seen so far, rows or none.
+    fn recipe(&self) -> Result<DesignRecipe> {
         let spec = &self.spec;
         let mut encodings = Vec::with_capacity(spec.terms().len());
         let mut full_coding_pending = !spec.has_intercept();
@@ -866,10 +908,12 @@ impl RecipeLearner {
             }
             encodings.push(super::encode::learn_from_level_counts(term, &self.level_counts, full)?);
         }
-        // Column names do not depend on values: assemble on no rows.
+        // Column names do not depend on values: assemble on no rows (every
+        // value the terms read, whether or not a row has been seen).
+        let reads = ValueReads::of_terms(spec.terms());
         let (numbers, labels): (BTreeMap<String, Vec<f64>>, BTreeMap<String, Vec<String>>) = (
-            self.ranges.keys().map(|k| (k.clone(), Vec::new())).collect(),
-            self.level_counts.keys().map(|k| (k.clone(), Vec::new())).collect(),
+            reads.numbers.keys().map(|k| (k.clone(), Vec::new())).collect(),
+            reads.labels.keys().map(|k| (k.clone(), Vec::new())).collect(),
         );
         let line_of = |_: usize| None;
         let values = RowValues { numbers: &numbers, labels: &labels, rows: &[], line_of: &line_of };

@@ -9,11 +9,13 @@
 //!   from row blocks on several threads, from streamed batches, or from
 //!   partitions factored apart and merged.
 //! * [`parallel`] — work over a range shared among the cores in fixed chunks.
+//! * [`scan`] — whole-slice tests of values (any NaN, any non-finite) at memory speed.
 
 pub mod dd_qr;
 pub mod ddouble;
 pub mod equilibrate;
 pub mod parallel;
+pub mod scan;
 pub mod tsqr;
 
 pub use ddouble::DoubleDouble;
