@@ -11,6 +11,14 @@ use plumbline_kernel::commands::fit::{
 use plumbline_kernel::commands::CommandError;
 use std::process::ExitCode;
 
+/// The allocator. The query engine reads every column chunk into a fresh
+/// buffer; with the system allocator each large one is new memory from the
+/// kernel, page-faulted in and zeroed, and freed memory is not reused as
+/// well: at 2·10⁷ × 20 rows the system allocator took 5.5–5.75 s and
+/// 905–953 MiB, mimalloc 5.05–5.24 s and 466–493 MiB (2 cores, same run).
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 /// Plumbline's fits on Apache DataFusion (every core) and Ballista (many
 /// machines). Analytical aids, not appraisals.
 #[derive(Debug, Parser)]

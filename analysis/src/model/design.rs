@@ -795,12 +795,10 @@ impl RecipeLearner {
             }
         }
         for key in ValueReads::of_terms(self.spec.terms()).numbers.keys() {
-            let values = &complete.numbers[key];
+            let (low, high) = crate::numeric::scan::min_max(&complete.numbers[key]);
             let range = self.ranges.entry(key.clone()).or_insert((f64::INFINITY, f64::NEG_INFINITY));
-            for &v in values {
-                range.0 = range.0.min(v);
-                range.1 = range.1.max(v);
-            }
+            range.0 = range.0.min(low);
+            range.1 = range.1.max(high);
         }
         self.dropped.absorb(&complete.dropped);
         self.rows_kept += complete.rows.len();
