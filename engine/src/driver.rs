@@ -328,8 +328,7 @@ async fn run_rounds(
         let lanes = coding_round(spec, (RoundQuery { plan: plan.clone(), group, only }).run(context).await?)?;
         // Round one: the factor, given each group's coding.
         plan.round = Round::Factor;
-        factor_round(context, &mut plan, group, only, lanes, options, |rows, columns| extended_is_cheap(rows, columns))
-            .await?
+        factor_round(context, &mut plan, group, only, lanes, options, extended_is_cheap).await?
     };
     // Groups whose factor in double is not enough: round one again, in
     // double-double, for them alone (the in-memory fit's rule).

@@ -46,9 +46,10 @@ pub fn min_max(values: &[f64]) -> (f64, f64) {
         }
     }
     let fold = |acc: (f64, f64), &v: &f64| (acc.0.min(v), acc.1.max(v));
-    let lanes = low.iter().zip(&high).fold((f64::INFINITY, f64::NEG_INFINITY), |acc, (&lo, &hi)| {
-        (acc.0.min(lo), acc.1.max(hi))
-    });
+    let lanes = low
+        .iter()
+        .zip(&high)
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |acc, (&lo, &hi)| (acc.0.min(lo), acc.1.max(hi)));
     tail.iter().fold(lanes, fold)
 }
 
@@ -58,7 +59,7 @@ mod tests {
 
     #[test]
     fn extremes_equal_a_chain_of_min_and_max() {
-        for length in [0, 1, 7, 8, 9, 100, 1001] {
+        for length in [0_usize, 1, 7, 8, 9, 100, 1001] {
             let mut values: Vec<f64> = (0..length).map(|i| ((i * 7919) % 1013) as f64 - 500.25).collect();
             if length > 3 {
                 values[length / 3] = f64::NAN;
@@ -70,7 +71,7 @@ mod tests {
 
     #[test]
     fn finds_a_hit_anywhere_and_none_in_clean_values() {
-        for length in [0, 1, 255, 256, 257, 1000] {
+        for length in [0_usize, 1, 255, 256, 257, 1000] {
             let clean: Vec<f64> = (0..length).map(|i| i as f64 - 3.5).collect();
             assert!(!any_non_finite(&clean) && !any_nan(&clean));
             for at in [0, length / 2, length.saturating_sub(1)].into_iter().filter(|&at| at < length) {
