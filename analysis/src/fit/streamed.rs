@@ -161,6 +161,14 @@ impl FactorAggregate {
         let p = design.columns().len();
         let weight = |i: usize| design.weights().map_or(1.0, |w| w[i]);
         match &mut self.factor {
+            // Unweighted: the columns as they are (the weighted path's
+            // products by √1 = 1 are exact, so the factor is the same).
+            Factor::Double(factor) if design.weights().is_none() => {
+                let columns: Vec<&[f64]> =
+                    design.columns().iter().map(|c| c.hi.as_slice()).chain([design.target()]).collect();
+                let piece = tsqr::factor_columns(&columns, threads);
+                *factor = std::mem::replace(factor, TallSkinnyQr::new(p + 1)).merge(&piece);
+            }
             Factor::Double(factor) => {
                 let root: Vec<f64> = (0..n).map(|i| DoubleDouble::from(weight(i)).sqrt().to_f64()).collect();
                 let piece = tsqr::factor_rows(n, p + 1, threads, |i, j| {
