@@ -197,9 +197,21 @@ impl FactorAggregate {
             }
         }
         self.rows += n;
-        for i in 0..n {
-            self.total_weight += DoubleDouble::from(weight(i));
-            self.weighted_target += DoubleDouble::from_product(weight(i), design.target()[i]);
+        match design.weights() {
+            // Unweighted: the total weight is the row count (exact: an
+            // integer below 2⁵³), and each product by a weight of 1 is exact.
+            None => {
+                self.total_weight += DoubleDouble::from(n as f64);
+                for &y in design.target() {
+                    self.weighted_target += DoubleDouble::from(y);
+                }
+            }
+            Some(_) => {
+                for i in 0..n {
+                    self.total_weight += DoubleDouble::from(weight(i));
+                    self.weighted_target += DoubleDouble::from_product(weight(i), design.target()[i]);
+                }
+            }
         }
         if let Some(w) = &design.weights() {
             self.sum_log_weight += w.iter().map(|v| v.ln()).sum::<f64>();
