@@ -1,4 +1,4 @@
-//! The three rounds of a fit as DataFusion aggregate functions.
+//! The rounds of a fit as DataFusion aggregate functions.
 //!
 //! Each function is called as `f(plan, [group,] numbers…, labels…)`, where
 //! `plan` is the constant round plan ([`crate::plan`]). An accumulator takes

@@ -1,4 +1,5 @@
-//! Runs the three rounds of a fit as queries and assembles the result.
+//! Runs the rounds of a fit as queries (two passes over the rows, or three
+//! when the coding needs levels first) and assembles the result.
 //!
 //! [`fit`] gives the same [`AssembledFit`] as a fit in batches
 //! ([`plumbline::fit::fit_batches`]) and [`fit_by`] the same
@@ -505,7 +506,7 @@ fn finish_lane(lane: Lane, options: &FitOptions, provenance: Provenance) -> std:
             Ok(fit)
         }
         Lane::Failed(reason) => Err(reason),
-        _ => Err("the fit did not run its three rounds".into()),
+        _ => Err("the fit did not run all its rounds".into()),
     }
 }
 
