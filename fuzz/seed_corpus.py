@@ -153,6 +153,65 @@ def wire_seeds():
         put("wire_frames", framed(0, frames))
 
 
+def state_seeds():
+    # The byte forms of analysis/src/state_bytes.rs: a four-byte tag, form
+    # version 1, then little-endian counts (u64) and numbers (f64 bits).
+    import struct
+
+    def count(n):
+        return struct.pack("<Q", n)
+
+    def number(x):
+        return struct.pack("<d", x)
+
+    def text(t):
+        return count(len(t.encode())) + t.encode()
+
+    def factor_double(width, rows, seed):
+        body = b"PLF1\x01" + count(0) + count(width) + count(width) + count(rows)
+        for i in range(width):
+            for j in range(i, width):
+                body += number((seed + i * 3 + j) * (1.0 if i == j else 0.25))
+        return body + count(rows) + number(rows) + number(0.0) + number(seed * 10.0) + number(0.0) + number(0.0)
+
+    def factor_extended(width, rows):
+        body = b"PLF1\x01" + count(1) + count(width) + count(width) + count(rows)
+        for i in range(width):
+            for j in range(i, width):
+                body += number(2.0 + i + j) + number(1e-17)
+        return body + count(rows) + number(rows) + number(0.0) + number(5.0) + number(0.0) + number(0.0)
+
+    def residuals(k, middle):
+        body = b"PLR2\x01" + count(k)
+        for i in range(k):
+            body += number(1e-9 * (i + 1)) + number(0.0)
+        body += number(12.5) + number(0.0) + number(40.0) + number(0.0) + number(k + 0.5)
+        if middle:
+            body += count(1) + count(k * k) + b"".join(number(0.5 + i) for i in range(k * k))
+        else:
+            body += count(0)
+        return body
+
+    def coding():
+        body = b"PLC0\x01" + count(1) + text("district") + count(2)
+        body += text("Alder Rise") + count(7) + text("Cinder Row") + count(4)
+        body += count(2) + text("age") + number(1.0) + number(60.0) + text("area") + number(640.0) + number(3900.0)
+        body += count(2) + count(1) + text("age") + count(2) + count(1) + text("area") + count(1)
+        return body + count(11)
+
+    def pair(kind, first, second):
+        return bytes([kind]) + struct.pack("<H", len(first)) + first + second
+
+    put("round_states", pair(0, factor_double(3, 10, 1), factor_double(3, 20, 2)))
+    put("round_states", pair(0, factor_double(3, 10, 1), factor_double(2, 4, 3)))
+    put("round_states", pair(0, factor_extended(2, 5), factor_extended(2, 9)))
+    put("round_states", pair(0, factor_extended(2, 5), factor_double(2, 4, 1)))
+    put("round_states", pair(1, residuals(2, True), residuals(2, True)))
+    put("round_states", pair(1, residuals(2, False), residuals(2, True)))
+    put("round_states", pair(1, residuals(3, False), residuals(2, False)))
+    put("round_states", pair(2, coding(), coding()))
+
+
 if __name__ == "__main__":
     wire_seeds()
     csv_seeds()
@@ -160,3 +219,4 @@ if __name__ == "__main__":
     columnar_seeds()
     documents_and_notebook_seeds()
     term_seeds()
+    state_seeds()

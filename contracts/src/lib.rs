@@ -27,12 +27,14 @@
 //! | `term_syntax` | the compact term syntax | [`terms::term_syntax`] |
 //! | `notebook` | notebooks, their inputs cell and run record | [`notebook::notebook`] |
 //! | `wire_frames` | the kernel's wire frames and signatures | [`wire::wire_frames`] |
+//! | `round_states` | the states of a fit from pieces between processes | [`states::round_states`] |
 
 pub mod documents;
 pub mod fitting;
 pub mod notebook;
 pub mod places;
 pub mod scratch;
+pub mod states;
 pub mod tables;
 pub mod terms;
 pub mod wire;
@@ -50,4 +52,5 @@ pub const TARGETS: &[(&str, Contract)] = &[
     ("term_syntax", terms::term_syntax),
     ("notebook", notebook::notebook),
     ("wire_frames", wire::wire_frames),
+    ("round_states", states::round_states),
 ];

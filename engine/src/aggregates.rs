@@ -405,7 +405,11 @@ fn merge_pieces(plan: &RoundPlan, pieces: &[&[u8]]) -> std::result::Result<Vec<u
                     }
                     None => piece,
                 };
-                factors.push(FactorAggregate::from_bytes(factor).map_err(text)?);
+                let factor = FactorAggregate::from_bytes(factor).map_err(text)?;
+                if let Some(first) = factors.first() {
+                    FactorAggregate::check_mergeable(first, &factor).map_err(text)?;
+                }
+                factors.push(factor);
             }
             let factor =
                 merge_pairwise(factors, |left, right| left.merge(&right)).map(|f| f.to_bytes()).unwrap_or_default();
@@ -419,7 +423,10 @@ fn merge_pieces(plan: &RoundPlan, pieces: &[&[u8]]) -> std::result::Result<Vec<u
             for piece in pieces {
                 let next = ResidualAggregate::from_bytes(piece).map_err(text)?;
                 merged = Some(match merged {
-                    Some(sums) => sums.merge(&next),
+                    Some(sums) => {
+                        sums.check_mergeable(&next).map_err(text)?;
+                        sums.merge(&next)
+                    }
                     None => next,
                 });
             }

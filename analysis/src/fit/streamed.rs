@@ -218,7 +218,28 @@ impl FactorAggregate {
         }
     }
 
-    /// The aggregate of both pieces' rows.
+    /// Refuses to merge `other` into this aggregate unless both are factors
+    /// of the same kind (double or double-double) and width: states read
+    /// from bytes ([`Self::from_bytes`]) may be of another model or damaged,
+    /// and [`Self::merge`] assumes they match.
+    pub fn check_mergeable(&self, other: &FactorAggregate) -> Result<()> {
+        if self.is_extended() != other.is_extended() || self.factor.width() != other.factor.width() {
+            return Err(Error::DamagedState {
+                kind: "factor".into(),
+                detail: format!(
+                    "a piece of width {} ({}) cannot merge with one of width {} ({})",
+                    other.factor.width(),
+                    if other.is_extended() { "double-double" } else { "double" },
+                    self.factor.width(),
+                    if self.is_extended() { "double-double" } else { "double" },
+                ),
+            });
+        }
+        Ok(())
+    }
+
+    /// The aggregate of both pieces' rows (pieces of one kind and width; see
+    /// [`Self::check_mergeable`] for pieces read from bytes).
     pub fn merge(mut self, other: &FactorAggregate) -> FactorAggregate {
         self.factor = self.factor.merge(&other.factor);
         self.rows += other.rows;
@@ -493,7 +514,29 @@ impl ResidualAggregate {
         Ok(Self { gradient, rss, ss_total, exp_residual_sum, middle })
     }
 
-    /// The aggregate of both pieces' rows.
+    /// Refuses to merge `other` into these sums unless both have the same
+    /// number of kept columns and both (or neither) gather the middle matrix
+    /// of the same size: states read from bytes may be of another model or
+    /// damaged, and [`Self::merge`] assumes they match.
+    pub fn check_mergeable(&self, other: &ResidualAggregate) -> Result<()> {
+        let middle = |sums: &ResidualAggregate| sums.middle.as_ref().map(Vec::len);
+        if self.gradient.len() != other.gradient.len() || middle(self) != middle(other) {
+            return Err(Error::DamagedState {
+                kind: "residual sums".into(),
+                detail: format!(
+                    "sums over {} columns (middle matrix {:?}) cannot merge with sums over {} (middle matrix {:?})",
+                    other.gradient.len(),
+                    middle(other),
+                    self.gradient.len(),
+                    middle(self)
+                ),
+            });
+        }
+        Ok(())
+    }
+
+    /// The sums of both pieces' rows (pieces of one shape; see
+    /// [`Self::check_mergeable`] for pieces read from bytes).
     pub fn merge(mut self, other: &ResidualAggregate) -> ResidualAggregate {
         for (a, b) in self.gradient.iter_mut().zip(&other.gradient) {
             *a += *b;
