@@ -208,3 +208,49 @@ fn parcels_are_valued_by_their_own_area_model() {
     assert_eq!(roll.valued(), parcels.height() - 2);
     assert!(roll.parcels[last - 2].not_valued.as_deref().is_some_and(|r| r.contains("Gallowmere")));
 }
+
+/// Models by group read in batches follow the in-memory precision rule.
+///
+/// Reference: NIST StRD's certified values (Linear Least Squares Regression),
+/// scored by McCullough's LRE (1998). Each dataset's rows are written twice
+/// to one CSV file, once under each of two group labels, so each group's
+/// model is the certified fit; the second group's rows are read in 7-row
+/// batches that straddle the first's. Before the rule, groups factored in
+/// double only (Filip and Wampler5 fall far below 13 digits that way).
+#[test]
+fn groups_read_in_batches_meet_the_nist_lre_bar() {
+    use plumbline::accuracy::{score_all_with, ScoredFit};
+    use plumbline::strata::StratumModel;
+    let reference = plumbline_tests::reference_dir().join("nist-strd");
+    let scratch = scratch_dir("strata-nist");
+    let scores = score_all_with(&reference, |csv, spec| {
+        let text = std::fs::read_to_string(csv).map_err(|e| Error::ReferenceData(e.to_string()))?;
+        let mut lines = text.lines();
+        let header = lines.next().unwrap_or_default();
+        let rows: Vec<&str> = lines.filter(|l| !l.trim().is_empty()).collect();
+        let mut body = format!("{header},area\n");
+        for area in ["North", "South"] {
+            for row in &rows {
+                body += &format!("{row},{area}\n");
+            }
+        }
+        let path =
+            write_file(&scratch, &format!("{}.csv", csv.file_stem().unwrap_or_default().to_string_lossy()), &body);
+        let set = fit_batches_by(&path, spec, &FitOptions::default(), 7, NonFinite::Refuse, "area")?;
+        match set.stratum("South").and_then(|s| s.model()) {
+            Some(StratumModel::Assembled(fit)) => Ok(ScoredFit {
+                coefficients: fit.coefficients(0.95)?,
+                statistics: fit.statistics(),
+                aliased: fit.aliased_names().into_iter().map(String::from).collect(),
+            }),
+            _ => Err(Error::ReferenceData(format!("{}: the South group was not fitted", csv.display()))),
+        }
+    })
+    .expect("every dataset fits by group");
+    println!("{}", plumbline::render::accuracy_table(&scores));
+    assert_eq!(scores.len(), 11);
+    for s in &scores {
+        let minimum = s.headline_minimum();
+        assert!(minimum >= 13.0, "{}: min LRE {minimum:.2} < 13 in a group read in batches", s.dataset);
+    }
+}

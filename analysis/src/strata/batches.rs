@@ -3,8 +3,11 @@
 //! Each group is a *lane*: a specification and the group labels whose rows it
 //! takes. Every pass over the batches splits each batch by the grouping
 //! column and feeds each lane its rows, so one pass serves every group. A lane
-//! goes through the three rounds of [`crate::fit::streamed`] — learn the
-//! coding, factor, gather residual sums — and a lane that fails (too few
+//! goes through the rounds of [`crate::fit::streamed`] — learn the coding,
+//! factor, gather residual sums — with the in-memory precision rule (the
+//! factor in double-double for a small design, and once more in
+//! double-double when the design is too ill-conditioned for the factor in
+//! double; so a lane may take four passes), and a lane that fails (too few
 //! rows, a one-level category, a constant target) stops with its reason while
 //! the others go on. The pooled models are two more lanes, run once the
 //! fitted groups are known, on exactly their rows. Memory is bounded by a
@@ -135,6 +138,13 @@ enum LaneState {
         first: Box<FirstSolution>,
         second: Box<ResidualAggregate>,
     },
+    /// Every pass done: the sums are complete.
+    Summed {
+        recipe: Box<DesignRecipe>,
+        learner: Box<RecipeLearner>,
+        first: Box<FirstSolution>,
+        second: Box<ResidualAggregate>,
+    },
     /// The lane stopped; the group cannot be fitted.
     Failed(Error),
 }
@@ -175,7 +185,7 @@ impl Lane {
             LaneState::Summing { recipe, first, second, .. } => {
                 recipe.fitting_design(frame).map(|d| second.absorb(&d, first))
             }
-            LaneState::Failed(_) => Ok(()),
+            LaneState::Summed { .. } | LaneState::Failed(_) => Ok(()),
         };
         if let Err(error) = outcome {
             self.state = LaneState::Failed(error);
@@ -188,13 +198,19 @@ impl Lane {
         self.state = match state {
             LaneState::Learning(learner) => match learner.finish() {
                 Ok(recipe) => {
-                    let factor = FactorAggregate::new(recipe.column_names.len());
+                    let factor = FactorAggregate::for_rows(recipe.column_names.len(), learner.rows_kept());
                     LaneState::Factoring { recipe: Box::new(recipe), learner, factor: Box::new(factor) }
                 }
                 Err(error) => LaneState::Failed(error),
             },
             LaneState::Factoring { recipe, learner, factor } => {
                 match FirstSolution::from_aggregate(*factor, &recipe, self.tolerance) {
+                    // Too ill-conditioned for the factor in double: once more
+                    // in double-double (the in-memory rule).
+                    Ok(first) if first.needs_extended() => {
+                        let factor = FactorAggregate::new_extended(recipe.column_names.len());
+                        LaneState::Factoring { recipe, learner, factor: Box::new(factor) }
+                    }
                     Ok(first) => {
                         let second = ResidualAggregate::new(&first, self.covariance != CovarianceKind::Classical);
                         LaneState::Summing { recipe, learner, first: Box::new(first), second: Box::new(second) }
@@ -202,45 +218,50 @@ impl Lane {
                     Err(error) => LaneState::Failed(error),
                 }
             }
+            LaneState::Summing { recipe, learner, first, second } => {
+                LaneState::Summed { recipe, learner, first, second }
+            }
             other => other,
         };
     }
 
-    /// The lane's fit after the third pass.
+    /// Whether the lane still reads the batches.
+    fn is_reading(&self) -> bool {
+        matches!(self.state, LaneState::Learning(_) | LaneState::Factoring { .. } | LaneState::Summing { .. })
+    }
+
+    /// The lane's fit after its last pass.
     fn into_fit(self, provenance: crate::data::Provenance, pieces: usize) -> Result<AssembledFit> {
         match self.state {
             // Levels are checked last, as the in-memory fit checks them
             // after solving, so both give the same reason for a group.
-            LaneState::Summing { recipe, learner, first, second } => {
+            LaneState::Summed { recipe, learner, first, second } => {
                 let fit =
                     finish(*first, *second, *recipe, &self.covariance, learner.dropped().clone(), provenance, pieces)?;
                 check_levels(&fit.recipe)?;
                 Ok(fit)
             }
             LaneState::Failed(error) => Err(error),
-            _ => Err(Error::Specification("the lane did not run its three passes".into())),
+            _ => Err(Error::Specification("the lane did not run all its passes".into())),
         }
     }
 }
 
-/// Runs the three passes of every lane over the batches.
+/// Runs the passes of every lane over the batches, until every lane has
+/// its sums or has stopped (three passes, four when a lane's factor is made
+/// again in double-double).
 fn run_lanes(batches: &RowBatches, column: &str, lanes: &mut [Lane]) -> Result<()> {
-    for pass in 0..3 {
+    while lanes.iter().any(Lane::is_reading) {
         batches.for_each_batch(|frame| {
             let by_group = rows_by_group(frame, column)?;
-            for lane in lanes.iter_mut() {
-                if matches!(lane.state, LaneState::Failed(_)) {
-                    continue;
-                }
+            for lane in lanes.iter_mut().filter(|lane| lane.is_reading()) {
                 if let Some(rows) = lane.rows_of(frame, &by_group)? {
                     lane.absorb(&rows);
                 }
             }
             Ok(())
         })?;
-        if pass < 2 {
-            lanes.iter_mut().for_each(Lane::advance);
-        }
+        lanes.iter_mut().for_each(Lane::advance);
     }
     Ok(())
 }
