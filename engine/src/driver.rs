@@ -34,7 +34,7 @@ use plumbline::fit::{AssembledFit, CovarianceKind, FitOptions};
 use plumbline::model::design::{columns_read, RecipeLearner};
 use plumbline::model::{DesignRecipe, ModelSpec};
 use plumbline::strata::{
-    check_grouping_column, check_levels, group_stamp, pooled_stamp, with_group_levels, StratifiedFit, Stratum,
+    check_levels, columns_read_by_group, group_stamp, pooled_stamp, with_group_levels, StratifiedFit, Stratum,
     StratumModel, StratumOutcome,
 };
 use std::collections::{BTreeMap, BTreeSet};
@@ -546,10 +546,7 @@ pub async fn fit_by(
     non_finite: NonFinite,
     column: &str,
 ) -> Result<StratifiedFit> {
-    check_covariance_for_pieces(&options.covariance)?;
-    check_grouping_column(spec, column)?;
-    let (numbers, mut labels) = columns_read(spec);
-    labels.push(column.to_string());
+    let (numbers, labels) = columns_read_by_group(spec, options, column)?;
     let stamp = Fingerprint::start(source, numbers.len() + labels.len());
     source.register(context).await?;
     let mut lanes = run_rounds(context, spec, options, non_finite, Some(column), None).await?;

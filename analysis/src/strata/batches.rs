@@ -14,16 +14,14 @@
 //! batch and `G · p²`.
 
 use super::{
-    check_grouping_column, check_levels, group_stamp, pooled_stamp, with_group_levels, StratifiedFit, Stratum,
+    check_levels, columns_read_by_group, group_stamp, pooled_stamp, with_group_levels, StratifiedFit, Stratum,
     StratumModel, StratumOutcome,
 };
 use crate::data::{Frame, NonFinite, RowBatches};
 use crate::error::{Error, Result};
-use crate::fit::streamed::{
-    check_covariance_for_pieces, finish, AssembledFit, FactorAggregate, FirstSolution, ResidualAggregate,
-};
+use crate::fit::streamed::{finish, AssembledFit, FactorAggregate, FirstSolution, ResidualAggregate};
 use crate::fit::{CovarianceKind, FitOptions};
-use crate::model::design::{columns_read, RecipeLearner};
+use crate::model::design::RecipeLearner;
 use crate::model::{DesignRecipe, ModelSpec};
 use std::collections::{BTreeMap, BTreeSet};
 
@@ -40,10 +38,7 @@ pub fn fit_batches_by(
     non_finite: NonFinite,
     column: &str,
 ) -> Result<StratifiedFit> {
-    check_covariance_for_pieces(&options.covariance)?;
-    check_grouping_column(spec, column)?;
-    let (numbers, mut labels) = columns_read(spec);
-    labels.push(column.to_string());
+    let (numbers, labels) = columns_read_by_group(spec, options, column)?;
     let mut batches = RowBatches::open(path, &numbers, &labels, batch_rows)?;
     if non_finite == NonFinite::AsMissing {
         batches = batches.non_finite_as_missing();

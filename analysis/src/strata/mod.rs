@@ -234,6 +234,23 @@ pub fn fit_by_with(frame: &Frame, spec: &ModelSpec, column: &str, options: &FitO
     })
 }
 
+/// The columns a fit of `spec` by `column` assembled from pieces reads, as
+/// `(numbers, labels)`: the model's, with the grouping column among the
+/// labels. Refuses first what such a fit cannot do: an estimator that
+/// cannot be gathered in pieces, or a grouping column a term also reads.
+/// (Both the batched fit by group and the query engine's start here.)
+pub fn columns_read_by_group(
+    spec: &ModelSpec,
+    options: &FitOptions,
+    column: &str,
+) -> Result<(Vec<String>, Vec<String>)> {
+    crate::fit::streamed::check_covariance_for_pieces(&options.covariance)?;
+    check_grouping_column(spec, column)?;
+    let (numbers, mut labels) = crate::model::design::columns_read(spec);
+    labels.push(column.to_string());
+    Ok((numbers, labels))
+}
+
 /// Refuses a grouping column that is also read by a term: within one group
 /// it takes one value, so its term could not be estimated there.
 pub fn check_grouping_column(spec: &ModelSpec, column: &str) -> Result<()> {
