@@ -391,6 +391,16 @@ fn a_ballista_cluster_fits_as_in_memory_and_a_killed_executor_never_gives_a_part
             .block_on(driver::fit(&context, &source, &demo_spec(), &options, NonFinite::Refuse))
             .expect("cluster fit");
         assert_summaries_agree(&expected, &fitted.summary(0.95).expect("summary"), "on the cluster");
+        // A model of numbers only: its coding learned in round one, on the executors.
+        let numbers_memory = fit_with(&sales, &numbers_only_spec(), &options).expect("in memory");
+        let numbers_cluster = rt
+            .block_on(driver::fit(&context, &source, &numbers_only_spec(), &options, NonFinite::Refuse))
+            .expect("cluster fit of numbers only");
+        assert_summaries_agree(
+            &numbers_memory.summary(0.95).expect("summary"),
+            &numbers_cluster.summary(0.95).expect("summary"),
+            "numbers only, on the cluster",
+        );
         let by_memory = fit_by_with(&sales, &area_spec(), "district", &options).expect("memory by area");
         let by_cluster = rt
             .block_on(driver::fit_by(&context, &source, &area_spec(), &options, NonFinite::Refuse, "district"))
