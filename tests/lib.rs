@@ -191,3 +191,19 @@ pub fn assert_summaries_agree(
     assert!(close(expected.r_squared, got.r_squared), "{what}: R² {} vs {}", got.r_squared, expected.r_squared);
     assert!(close(expected.f_statistic.unwrap_or(0.0), got.f_statistic.unwrap_or(0.0)), "{what}: F");
 }
+
+/// The NIST StRD bar: minimum LRE (McCullough 1998) of the coefficients,
+/// standard errors, residual SD and R² on every one of the 11 linear
+/// datasets (issue acceptance, in memory and through every other route).
+pub const NIST_LRE_BAR: f64 = 13.0;
+
+/// Prints the scores of the 11 NIST StRD linear datasets fitted by `route`
+/// and asserts each meets [`NIST_LRE_BAR`].
+pub fn assert_nist_bar(scores: &[plumbline::accuracy::DatasetScore], route: &str) {
+    println!("{route}:\n{}", plumbline::render::accuracy_table(scores));
+    assert_eq!(scores.len(), 11, "{route}: expected the 11 NIST StRD linear datasets");
+    for s in scores {
+        let minimum = s.headline_minimum();
+        assert!(minimum >= NIST_LRE_BAR, "{}, {route}: min LRE {minimum:.2} < {NIST_LRE_BAR}", s.dataset);
+    }
+}

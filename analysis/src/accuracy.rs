@@ -13,7 +13,7 @@
 
 use crate::data::{load_csv, CsvOptions};
 use crate::error::{Error, Result};
-use crate::fit::{fit_with, FitOptions, Precision};
+use crate::fit::{fit_with, AssembledFit, Fit, FitOptions, Precision};
 use crate::inference::{Coefficient, FitStatistics};
 use crate::model::{ModelSpec, Term};
 use serde::Serialize;
@@ -84,12 +84,7 @@ pub fn score_all(dir: &Path, precision: Precision) -> Result<Vec<DatasetScore>> 
     score_all_with(dir, |csv, spec| {
         let frame = load_csv(csv, &CsvOptions::default())?;
         let options = FitOptions { precision, ..FitOptions::default() };
-        let model = fit_with(&frame, spec, &options)?;
-        Ok(ScoredFit {
-            coefficients: model.coefficients(0.95)?,
-            statistics: model.statistics(),
-            aliased: model.aliased_names().into_iter().map(String::from).collect(),
-        })
+        ScoredFit::of_fit(&fit_with(&frame, spec, &options)?)
     })
 }
 
@@ -103,6 +98,27 @@ pub struct ScoredFit {
     pub statistics: FitStatistics,
     /// Names of aliased columns (reported when the count differs).
     pub aliased: Vec<String>,
+}
+
+impl ScoredFit {
+    /// What the scorer reads of a fit with every row in memory.
+    pub fn of_fit(fit: &Fit) -> Result<Self> {
+        Ok(Self {
+            coefficients: fit.coefficients(0.95)?,
+            statistics: fit.statistics(),
+            aliased: fit.aliased_names().into_iter().map(String::from).collect(),
+        })
+    }
+
+    /// What the scorer reads of a fit assembled from pieces (batches,
+    /// partitions, executors).
+    pub fn of_assembled(fit: &AssembledFit) -> Result<Self> {
+        Ok(Self {
+            coefficients: fit.coefficients(0.95)?,
+            statistics: fit.statistics(),
+            aliased: fit.aliased_names().into_iter().map(String::from).collect(),
+        })
+    }
 }
 
 /// Scores every dataset in `dir` as fitted by `fit`, which is given each

@@ -292,19 +292,10 @@ fn nist_datasets_through_datafusion_meet_the_lre_bar() {
                     .await
                 })
                 .map_err(|e| Error::ReferenceData(e.to_string()))?;
-            Ok(ScoredFit {
-                coefficients: fitted.coefficients(0.95)?,
-                statistics: fitted.statistics(),
-                aliased: fitted.aliased_names().into_iter().map(String::from).collect(),
-            })
+            ScoredFit::of_assembled(&fitted)
         })
         .expect("every dataset fits");
-        println!("{parts} partition(s):\n{}", plumbline::render::accuracy_table(&scores));
-        assert_eq!(scores.len(), 11);
-        for s in &scores {
-            let minimum = s.headline_minimum();
-            assert!(minimum >= 13.0, "{} in {parts} partition(s): min LRE {minimum:.2} < 13", s.dataset);
-        }
+        plumbline_tests::assert_nist_bar(&scores, &format!("DataFusion, {parts} partition(s)"));
     }
 }
 

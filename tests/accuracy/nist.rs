@@ -10,7 +10,7 @@ use plumbline::accuracy::{log_relative_error, score_all};
 use plumbline::prelude::Precision;
 use plumbline::render::accuracy_table as table;
 
-const BAR: f64 = 13.0;
+const BAR: f64 = plumbline_tests::NIST_LRE_BAR;
 
 #[test]
 fn every_nist_dataset_meets_the_lre_bar_in_auto_mode() {

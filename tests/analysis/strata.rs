@@ -238,19 +238,10 @@ fn groups_read_in_batches_meet_the_nist_lre_bar() {
             write_file(&scratch, &format!("{}.csv", csv.file_stem().unwrap_or_default().to_string_lossy()), &body);
         let set = fit_batches_by(&path, spec, &FitOptions::default(), 7, NonFinite::Refuse, "area")?;
         match set.stratum("South").and_then(|s| s.model()) {
-            Some(StratumModel::Assembled(fit)) => Ok(ScoredFit {
-                coefficients: fit.coefficients(0.95)?,
-                statistics: fit.statistics(),
-                aliased: fit.aliased_names().into_iter().map(String::from).collect(),
-            }),
+            Some(StratumModel::Assembled(fit)) => ScoredFit::of_assembled(fit),
             _ => Err(Error::ReferenceData(format!("{}: the South group was not fitted", csv.display()))),
         }
     })
     .expect("every dataset fits by group");
-    println!("{}", plumbline::render::accuracy_table(&scores));
-    assert_eq!(scores.len(), 11);
-    for s in &scores {
-        let minimum = s.headline_minimum();
-        assert!(minimum >= 13.0, "{}: min LRE {minimum:.2} < 13 in a group read in batches", s.dataset);
-    }
+    plumbline_tests::assert_nist_bar(&scores, "a group read in batches");
 }
