@@ -32,6 +32,8 @@ struct Cli {
 enum Command {
     /// Fit a model to Parquet or CSV files (a file, a folder or a glob), reading
     /// only the model's columns; the same report and document as `plumbline fit`.
+    /// Here `--batch-rows N` sets the rows per batch of the query engine
+    /// (default 65,536).
     Fit(Box<EngineFitArgs>),
     /// Run a Ballista scheduler that knows Plumbline's round functions.
     Scheduler(SchedulerArgs),
