@@ -336,11 +336,7 @@ async fn run_rounds(
     let mut redo = Lanes::new();
     for (label, (rows, lane)) in std::mem::take(&mut lanes) {
         match lane {
-            Lane::Summing { recipe, learner, first, .. }
-                if !first.is_extended()
-                    && (first.needs_extended()
-                        || extended_is_cheap(learner.rows_kept(), recipe.column_names.len())) =>
-            {
+            Lane::Summing { recipe, learner, first, .. } if first.needs_extended() => {
                 redo.insert(label, (rows, Lane::Factoring { recipe, learner }));
             }
             other => {

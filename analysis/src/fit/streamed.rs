@@ -378,17 +378,18 @@ impl FirstSolution {
         Ok(Self { small, coefficients, aggregate, with_intercept: recipe.spec.has_intercept() })
     }
 
-    /// Whether this solution came from a factor in double while the design's
-    /// condition number exceeds [`SEMINORMAL_CONDITION_LIMIT`]: one
-    /// refinement step cannot then recover every digit, and round one should
-    /// be run again with [`FactorAggregate::new_extended`].
+    /// Whether this solution came from a factor in double where the automatic
+    /// rule wants double-double, so that round one should be run again with
+    /// [`FactorAggregate::new_extended`]: the design's condition number
+    /// exceeds [`SEMINORMAL_CONDITION_LIMIT`] (one refinement step cannot
+    /// then recover every digit), or the rows factored make a small design
+    /// ([`super::solver::extended_is_cheap`]; a round one that did not know
+    /// its rows beforehand, [`FactorAggregate::for_rows`] otherwise).
     pub fn needs_extended(&self) -> bool {
-        !self.aggregate.is_extended() && self.small.condition_number > SEMINORMAL_CONDITION_LIMIT
-    }
-
-    /// Whether round one ran in double-double.
-    pub fn is_extended(&self) -> bool {
-        self.aggregate.is_extended()
+        let columns = self.aggregate.factor.width().saturating_sub(1);
+        !self.aggregate.is_extended()
+            && (self.small.condition_number > SEMINORMAL_CONDITION_LIMIT
+                || super::solver::extended_is_cheap(self.aggregate.rows, columns))
     }
 
     /// The condition number of the equilibrated kept design.
